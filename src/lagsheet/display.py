@@ -1,0 +1,37 @@
+"""Numbers in messages, in the workbook's own unit system (SI or US customary)."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .units import from_si
+
+# kind -> (SI unit, US unit, decimals SI, decimals US)
+_KINDS = {
+    "temperature": ("°C", "°F", 1, 0),
+    "difference": ("K", "°F", 1, 1),
+    "thickness": ("mm", "in", 0, 2),
+    "radius": ("mm", "in", 1, 2),
+    "per_length": ("W/m", "Btu/(h·ft)", 1, 1),
+    "per_area": ("W/m²", "Btu/(h·ft²)", 1, 1),
+    "power": ("W", "Btu/h", 0, 0),
+}
+_SI_BASE = {"temperature": "K", "difference": "K", "thickness": "m", "radius": "m",
+            "per_length": "W/m", "per_area": "W/m**2", "power": "W"}
+
+
+def show(value: float, kind: str, us: bool = False) -> str:
+    """'57.3 °C' or '135 °F' from an SI value."""
+    si_unit, us_unit, d_si, d_us = _KINDS[kind]
+    unit = us_unit if us else si_unit
+    if not np.isfinite(value):
+        return "n/a"
+    v = float(from_si([value], _SI_BASE[kind], _text(unit), difference=kind == "difference")[0])
+    d = d_us if us else d_si
+    return f"{v:.{d}f} {unit}"
+
+
+def _text(unit: str) -> str:
+    return {"°C": "degC", "°F": "degF", "K": "K", "W/m²": "W/m**2",
+            "Btu/(h·ft)": "Btu/hour/foot", "Btu/(h·ft²)": "Btu/(hour*foot**2)",
+            "Btu/h": "Btu/hour"}.get(unit, unit)

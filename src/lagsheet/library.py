@@ -1,0 +1,164 @@
+"""The built-in library: insulation materials, finishes and nominal pipe sizes.
+
+The tables are data files in ``lagsheet/data`` with a source on every row; this module
+only reads them. Conductivity points are kept as published (°F, Btu·in/(h·ft²·°F)) and
+converted here.
+"""
+
+from __future__ import annotations
+
+import csv
+import re
+from dataclasses import dataclass
+from functools import lru_cache
+from importlib.resources import files
+
+import numpy as np
+
+from .units import parse_unit, to_si
+
+
+@dataclass(frozen=True)
+class Material:
+    name: str
+    mean_temperatures: tuple[float, ...]  # K
+    conductivities: tuple[float, ...]  # W/(m·K)
+    min_temperature: float = -np.inf  # K, service limit
+    max_temperature: float = np.inf  # K
+    thicknesses: tuple[float, ...] = ()  # m, as sold
+    max_layer: float = np.inf  # m
+    cost_per_volume: float = np.nan  # currency per m³ installed
+    aliases: tuple[str, ...] = ()
+    source: str = ""
+
+
+@dataclass(frozen=True)
+class Finish:
+    name: str
+    emissivity: float
+    aliases: tuple[str, ...] = ()
+    source: str = ""
+
+
+def _rows(name: str) -> list[dict]:
+    with files("lagsheet.data").joinpath(name).open(encoding="utf-8", newline="") as fh:
+        return list(csv.DictReader(fh))
+
+
+def key(name: str) -> str:
+    """How names are compared: case-insensitive, spaces and hyphens folded."""
+    return re.sub(r"[\s_\-]+", " ", str(name).strip().lower())
+
+
+def parse_thickness_list(text: str) -> tuple[float, ...]:
+    """'25, 40, 50' (numbers in the caller's unit) -> sorted unique floats."""
+    parts = [p for p in re.split(r"[;,\s]+", str(text).strip()) if p]
+    values = sorted({float(p) for p in parts})
+    if not values or values[0] <= 0:
+        raise ValueError(f"thickness list {text!r} must hold positive numbers")
+    return tuple(values)
+
+
+@lru_cache(maxsize=1)
+def materials() -> dict[str, Material]:
+    points: dict[str, list[tuple[float, float]]] = {}
+    sources: dict[str, set[str]] = {}
+    for r in _rows("conductivity.csv"):
+        t = float(to_si([float(r["mean_temperature"])], parse_unit(r["temperature_unit"]), "K")[0])
+        k = float(to_si([float(r["conductivity"])], parse_unit(r["conductivity_unit"]), "W/(m*K)")[0])
+        points.setdefault(r["material"], []).append((t, k))
+        sources.setdefault(r["material"], set()).add(r["source"])
+    out = {}
+    for r in _rows("materials.csv"):
+        name = r["material"]
+        pts = sorted(points[name])
+        out[key(name)] = Material(
+            name=name,
+            mean_temperatures=tuple(p[0] for p in pts),
+            conductivities=tuple(p[1] for p in pts),
+            min_temperature=float(r["min_temperature_C"]) + 273.15,
+            max_temperature=float(r["max_temperature_C"]) + 273.15,
+            thicknesses=tuple(t / 1000 for t in parse_thickness_list(r["thicknesses_mm"])),
+            max_layer=float(r["max_layer_mm"]) / 1000,
+            aliases=tuple(a.strip() for a in r["aliases"].split(";") if a.strip()),
+            source="; ".join(sorted(sources[name] | {r["source"]})),
+        )
+    return out
+
+
+@lru_cache(maxsize=1)
+def finishes() -> dict[str, Finish]:
+    return {
+        key(r["finish"]): Finish(
+            r["finish"], float(r["emissivity"]),
+            tuple(a.strip() for a in r["aliases"].split(";") if a.strip()), r["source"])
+        for r in _rows("finishes.csv")
+    }
+
+
+def lookup(table: dict, name: str):
+    """Find a record by name or alias; None when unknown."""
+    k = key(name)
+    if k in table:
+        return table[k]
+    for rec in table.values():
+        if k in (key(a) for a in rec.aliases):
+            return rec
+    return None
+
+
+@lru_cache(maxsize=1)
+def _pipe_table() -> tuple[dict[float, float], dict[int, float]]:
+    by_nps, by_dn = {}, {}
+    for r in _rows("pipe_sizes.csv"):
+        od = float(r["outside_diameter_mm"]) / 1000
+        by_nps[_fraction(r["nps"])] = od
+        by_dn[int(r["dn"])] = od
+    return by_nps, by_dn
+
+
+_UNICODE_FRACTIONS = {"½": " 1/2", "¼": " 1/4", "¾": " 3/4", "⅛": " 1/8", "⅜": " 3/8"}
+
+
+def _fraction(text: str) -> float:
+    t = text.strip()
+    for u, a in _UNICODE_FRACTIONS.items():
+        t = t.replace(u, a)
+    t = t.replace("-", " ").strip()
+    total = 0.0
+    for part in t.split():
+        if "/" in part:
+            a, b = part.split("/")
+            total += float(a) / float(b)
+        else:
+            total += float(part)
+    return total
+
+
+_NPS = re.compile(r'^\s*(?:nps\s*)?([\d\s/½¼¾⅛⅜.\-]+?)\s*(?:"|in|inch|inches|\'\')?\s*$', re.I)
+_DN = re.compile(r"^\s*dn\s*(\d+)\s*$", re.I)
+
+
+def pipe_outside_diameter(size: str) -> float | None:
+    """Outside diameter [m] of a nominal size (``NPS 4``, ``4"``, ``1 1/2"``, ``DN 100``).
+
+    None when the text is not a nominal size in the table (ASME B36.10M).
+    """
+    by_nps, by_dn = _pipe_table()
+    text = str(size).strip()
+    m = _DN.match(text)
+    if m:
+        return by_dn.get(int(m.group(1)))
+    m = _NPS.match(text)
+    if m and (text.lower().startswith("nps") or re.search(r'("|in|\'\')\s*$', text, re.I)):
+        try:
+            return by_nps.get(round(_fraction(m.group(1)), 4))
+        except (ValueError, ZeroDivisionError):
+            return None
+    return None
+
+
+def nominal_sizes() -> dict[float, float]:
+    return dict(_pipe_table()[0])
+
+
