@@ -1,0 +1,108 @@
+"""The outer-surface energy balance, solved for every line at once.
+
+Conduction in through the layers equals convection plus radiation out. The unknown is
+the outer heat flux q [W/m²], scaled by q₀, the flux the outer surface would give up at
+the operating temperature: x = q/q₀ lies in [0, 1] for hot and cold lines alike, and
+the residual x − q_surf(T_s(x q₀))/q₀ rises monotonically from −1 to ≥ 0 across that
+bracket. scipy's elementwise Chandrupatla root finder solves all lines together.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.optimize.elementwise import find_root
+
+from .layers import MaterialTable, geometric_lengths, march, outer_radius
+from .radiation import h_radiation, q_radiation
+from .surface import Convection, surface_flux
+
+X_TOL = 1e-11  # on x = q/q0: closes the balance far below 1e-6 and Ts far below 0.01 K
+
+
+@dataclass(frozen=True)
+class System:
+    """Lines to solve, SI, one element (or row of layers) per line.
+
+    ``geometry`` CYLINDER/FLAT/SPHERE; ``shape`` the convection code
+    (:mod:`lagsheet.physics.surface`); ``r_inner`` bare outer radius [m] (flat: any);
+    ``height`` [m] for vertical free convection; ``thickness`` and ``material`` are
+    (n, layers), a zero thickness being no layer.
+    """
+
+    geometry: np.ndarray
+    shape: np.ndarray
+    t_operating: np.ndarray
+    t_air: np.ndarray
+    t_surroundings: np.ndarray
+    wind: np.ndarray
+    emissivity: np.ndarray
+    r_inner: np.ndarray
+    height: np.ndarray
+    thickness: np.ndarray
+    material: np.ndarray
+
+
+@dataclass(frozen=True)
+class Solution:
+    q: np.ndarray  # outer heat flux [W/m²], positive leaving
+    faces: np.ndarray  # face temperatures [K], (n, layers + 1), inner first
+    radii: np.ndarray  # face radii/positions [m], (n, layers + 1)
+    convection: Convection
+    h_radiation: np.ndarray  # linearised [W/(m²·K)]
+    q_radiation: np.ndarray  # [W/m²]
+    residual: np.ndarray  # (in − out)/max(|in|, |out|) at the surface
+    converged: np.ndarray
+
+    @property
+    def t_surface(self) -> np.ndarray:
+        return self.faces[:, -1]
+
+    @property
+    def r_outer(self) -> np.ndarray:
+        return self.radii[:, -1]
+
+
+def solve(s: System, table: MaterialTable) -> Solution:
+    """Solve the surface balance of every line of ``s``, conductivities from ``table``."""
+    n = s.t_operating.shape[0]
+    radii = outer_radius(s.geometry, s.r_inner, s.thickness)
+    g = geometric_lengths(s.geometry, radii)
+    d_out = 2.0 * radii[:, -1]
+    q0, _ = surface_flux(s.shape, s.t_operating, s.t_air, s.t_surroundings, s.wind,
+                         s.emissivity, d_out, s.height)
+    insulated = g.sum(axis=1) > 0
+    zero = np.abs(q0) < 1e-12
+    x = np.where(insulated & ~zero, np.nan, 1.0)
+    x = np.where(zero, 0.0, x)
+    todo = np.flatnonzero(np.isnan(x))
+    converged = np.ones(n, dtype=bool)
+    if todo.size:
+        def residual(xi, idx):
+            idx = idx.astype(np.intp)
+            q = xi * q0[idx]
+            ts = march(table, s.material[idx], g[idx], s.t_operating[idx], q)[:, -1]
+            qs, _ = surface_flux(s.shape[idx], ts, s.t_air[idx], s.t_surroundings[idx],
+                                 s.wind[idx], s.emissivity[idx], d_out[idx], s.height[idx])
+            return xi - qs / q0[idx]
+
+        res = find_root(residual, (np.zeros(todo.size), np.ones(todo.size)),
+                        args=(todo.astype(float),),
+                        tolerances={"xatol": X_TOL, "xrtol": 0.0, "fatol": 0.0, "frtol": 0.0},
+                        maxiter=200)
+        x[todo] = res.x
+        converged[todo] = res.success
+    q = x * q0
+    faces = march(table, s.material, g, s.t_operating, q)
+    ts = faces[:, -1]
+    q_out, conv = surface_flux(s.shape, ts, s.t_air, s.t_surroundings, s.wind,
+                               s.emissivity, d_out, s.height)
+    scale = np.maximum(np.maximum(np.abs(q), np.abs(q_out)), 1e-300)
+    return Solution(
+        q=q, faces=faces, radii=radii, convection=conv,
+        h_radiation=h_radiation(s.emissivity, ts, s.t_surroundings),
+        q_radiation=q_radiation(s.emissivity, ts, s.t_surroundings),
+        residual=(q - q_out) / scale, converged=converged,
+    )
+

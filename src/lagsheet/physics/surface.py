@@ -1,0 +1,110 @@
+"""Heat given up by an outer surface to the air and the surroundings.
+
+Convection is computed, not asked for: one function per shape family builds the
+dimensionless groups from air properties at the film temperature and combines the
+free and forced correlations; :data:`CONVECTION` dispatches by shape.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.constants import g as G  # standard gravity, 9.80665 m/s²
+
+from . import correlations as cr
+from .properties import air
+from .radiation import h_radiation, q_radiation
+
+# Shape codes of the engine (the workbook's words map onto them in lagsheet.schema).
+PIPE, RISER, VESSEL = 0, 1, 2
+
+
+@dataclass(frozen=True)
+class Convection:
+    """Convective coefficient and the groups behind it, per line."""
+
+    h: np.ndarray  # [W/(m²·K)]
+    ra: np.ndarray  # Rayleigh number on the free-convection length
+    re: np.ndarray  # Reynolds number on the forced-convection length
+    pr: np.ndarray
+    nu_free: np.ndarray
+    nu_forced: np.ndarray
+    nu: np.ndarray
+    outside: np.ndarray  # True where a correlation is used outside its published range
+
+
+def _groups(ts, ta, wind, length_free, length_forced):
+    tf = 0.5 * (ts + ta)
+    a = air(tf)
+    dt = np.abs(ts - ta)
+    ra = G * a.beta * dt * length_free**3 / (a.nu * a.nu) * a.pr
+    re = wind * length_forced / a.nu
+    return a, ra, re
+
+
+def _horizontal_cylinder(ts, ta, wind, d, height):
+    a, ra, re = _groups(ts, ta, wind, d, d)
+    nu_n = cr.nu_horizontal_cylinder_churchill_chu(ra, a.pr)
+    nu_f = cr.nu_cylinder_churchill_bernstein(re, a.pr)
+    nu = cr.nu_combined_churchill_usagi(nu_f, nu_n)
+    outside = cr.outside_validity("Churchill-Chu horizontal cylinder", Ra=np.maximum(ra, 1e-5))
+    outside |= (re > 0) & cr.outside_validity("Churchill-Bernstein cylinder in cross-flow", RePr=re * a.pr)
+    return Convection(nu * a.k / d, ra, re, a.pr, nu_n, nu_f, nu, outside)
+
+
+def _vertical_cylinder(ts, ta, wind, d, height):
+    a, ra, re = _groups(ts, ta, wind, height, d)
+    nu_n_l = cr.nu_vertical_plate_churchill_chu(ra, a.pr)  # on the height
+    nu_f = cr.nu_cylinder_churchill_bernstein(re, a.pr)  # wind across the cylinder, on D
+    # both on the diameter before combining
+    nu_n = nu_n_l * d / height
+    nu = cr.nu_combined_churchill_usagi(nu_f, nu_n)
+    gr = ra / a.pr
+    thin = d / height < 35.0 / np.maximum(gr, 1e-30) ** 0.25  # plate result not valid for a thin cylinder
+    outside = thin | cr.outside_validity("Churchill-Chu vertical plate", Ra=np.maximum(ra, 1e-1))
+    outside |= (re > 0) & cr.outside_validity("Churchill-Bernstein cylinder in cross-flow", RePr=re * a.pr)
+    return Convection(nu * a.k / d, ra, re, a.pr, nu_n, nu_f, nu, outside)
+
+
+# shape code -> convection function(ts, ta, wind, outer diameter, height)
+CONVECTION = {
+    PIPE: _horizontal_cylinder,
+    RISER: _vertical_cylinder,
+    VESSEL: _vertical_cylinder,
+}
+
+CORRELATION_NAMES = {
+    PIPE: ("Churchill-Chu horizontal cylinder", "Churchill-Bernstein cylinder in cross-flow"),
+    RISER: ("Churchill-Chu vertical plate (height)", "Churchill-Bernstein cylinder in cross-flow"),
+    VESSEL: ("Churchill-Chu vertical plate (height)", "Churchill-Bernstein cylinder in cross-flow"),
+}
+
+
+def convection(shape, ts, ta, wind, d, height) -> Convection:
+    """Convection for every line, each by the correlations of its shape."""
+    shape = np.asarray(shape)
+    n = shape.shape[0]
+    fields = {f: np.zeros(n) for f in ("h", "ra", "re", "pr", "nu_free", "nu_forced", "nu")}
+    outside = np.zeros(n, dtype=bool)
+    for code, fn in CONVECTION.items():  # over shapes (a few), never over lines
+        sel = shape == code
+        if not sel.any():
+            continue
+        c = fn(ts[sel], ta[sel], wind[sel], d[sel], height[sel])
+        for f in fields:
+            fields[f][sel] = getattr(c, f)
+        outside[sel] = c.outside
+    return Convection(outside=outside, **fields)
+
+
+def surface_flux(shape, ts, ta, tsur, wind, emissivity, d, height):
+    """Heat flux [W/m²] leaving the surface at ``ts``: convection plus radiation."""
+    c = convection(shape, ts, ta, wind, d, height)
+    return c.h * (ts - ta) + q_radiation(emissivity, ts, tsur), c
+
+
+def linearised_h(shape, ts, ta, tsur, wind, emissivity, d, height):
+    """h_conv + h_rad at the surface [W/(m²·K)] (for the critical radius)."""
+    c = convection(shape, ts, ta, wind, d, height)
+    return c.h + h_radiation(emissivity, ts, tsur)
