@@ -1,0 +1,279 @@
+"""Check: raw sheets -> SI arrays, with a note for every doubtful column or cell.
+
+Knows fields and units (``schema``, ``units``), nothing of heat. Every problem is a
+:class:`~lagsheet.errors.Note` naming the sheet and cell, and the fix.
+"""
+
+from __future__ import annotations
+
+import difflib
+import re
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from . import schema
+from .errors import Note
+from .io.table import RawSheet, address, fold
+from .units import UnitTextError, is_unit, parse_quantity_text, parse_unit, to_si, unit_label
+
+_HEADER_UNIT = re.compile(r"^(.*?)\s*[\[(]\s*([^\[\]()]*(?:\([^()]*\)[^\[\]()]*)*)\s*[\])]\s*$")
+
+
+def split_header(text: str) -> tuple[str, str | None]:
+    """'Operating temperature [°C]' -> ('Operating temperature', '°C'); no unit -> None."""
+    t = str(text).strip()
+    m = _HEADER_UNIT.match(t)
+    if m and m.group(1):
+        return m.group(1).strip(), m.group(2).strip()
+    return t, None
+
+
+@dataclass
+class Column:
+    """One recognised input column: where it is, its field, its unit and its SI values."""
+
+    field: schema.Field
+    col: int
+    header: str
+    unit_text: str | None
+    unit: Any = None
+    status: str = "ok"
+    message: str = ""
+    si_unit: str = ""
+    values: np.ndarray | None = None  # SI floats (numbers) or object array (text)
+
+    def report(self, sheet: str) -> dict:
+        return {"sheet": sheet, "header": self.header, "field": self.field.key,
+                "unit": str(self.unit) if self.unit is not None else None,
+                "status": self.status, "message": self.message}
+
+
+@dataclass
+class Table:
+    """A checked sheet: its columns by field key, its data rows, and the notes found."""
+
+    sheet: str
+    header_row: int
+    rows: list[int]  # 0-based sheet rows of data
+    columns: dict[str, Column] = field(default_factory=dict)
+    notes: list[Note] = field(default_factory=list)
+    cell_notes: dict[int, list[Note]] = field(default_factory=dict)  # by position in rows
+    bad: np.ndarray | None = None  # True where a row has an error from its cells
+    last_col: int = 0  # last used column (0-based, exclusive)
+    units_row: int | None = None
+
+    def get(self, key: str, default=None):
+        c = self.columns.get(key)
+        return default if c is None or c.values is None else c.values
+
+    def add(self, i: int, note: Note):
+        self.cell_notes.setdefault(i, []).append(note)
+        if note.level == "error":
+            self.bad[i] = True
+
+    def cell(self, i: int, key: str) -> str:
+        c = self.columns.get(key)
+        return address(self.rows[i], c.col) if c else address(self.rows[i], 0)
+
+
+def _suggest(word: str, choices) -> str:
+    near = difflib.get_close_matches(fold(word), list(choices), n=3, cutoff=0.6)
+    return f"; did you mean {', '.join(repr(n) for n in near)}?" if near else ""
+
+
+def read_table(sheet: RawSheet, fields, marker: str) -> Table | None:
+    """Find the header row (first row with ``marker``), map headers to fields, convert."""
+    hr = sheet.find_header(marker)
+    if hr is None:
+        return None
+    header_cells = sheet.grid[hr]
+    cols: dict[str, Column] = {}
+    t = Table(sheet.name, hr, [], last_col=sheet.used_width())
+    for c, text in enumerate(header_cells):
+        if text in ("", None):
+            continue
+        name, unit_text = split_header(str(text))
+        f = schema.match(fields, fold(name))
+        if f is None:
+            continue  # unknown headers are the user's own columns; never touched
+        if f.key in cols:
+            t.notes.append(Note("error", "duplicate-column",
+                                f"column {name!r} appears twice; the second ({address(hr, c)}) is ignored",
+                                sheet.name, address(hr, c)))
+            continue
+        cols[f.key] = Column(f, c, str(text).strip(), unit_text)
+    # a units row: every unit-less numeric column has a parseable unit just below
+    numeric = [c for c in cols.values() if c.field.kind in (schema.NUMBER, schema.TEMPERATURE, schema.DIFFERENCE)]
+    bare = [c for c in numeric if c.unit_text is None]
+    first = hr + 1
+    if bare and all(_parses(sheet.value(hr + 1, c.col)) for c in bare):
+        for c in bare:
+            c.unit_text = str(sheet.value(hr + 1, c.col)).strip()
+        first = hr + 2
+        t.units_row = hr + 1
+    t.rows = [r for r in range(first, len(sheet.grid))
+              if any(sheet.value(r, c.col) is not None for c in cols.values())
+              or any((r, c.col) in sheet.uncached for c in cols.values())]
+    t.bad = np.zeros(len(t.rows), dtype=bool)
+    t.columns = cols
+    for c in cols.values():
+        _convert(sheet, t, c)
+    return t
+
+
+def _parses(v) -> bool:
+    if not isinstance(v, str) or not v.strip():
+        return False
+    try:
+        parse_unit(v)
+        return True
+    except UnitTextError:
+        return False
+
+
+def _convert(sheet: RawSheet, t: Table, c: Column) -> None:
+    f = c.field
+    raw = [sheet.value(r, c.col) for r in t.rows]
+    here = address(t.header_row, c.col)
+    for i, r in enumerate(t.rows):
+        if (r, c.col) in sheet.uncached:
+            t.add(i, Note("error", "formula-not-cached",
+                          f"{f.header!r} is a formula with no saved result; open the workbook in a "
+                          "spreadsheet program, recalculate and save it, then run lagsheet again",
+                          sheet.name, address(r, c.col)))
+    if f.kind in (schema.TEXT, schema.YESNO) and f.key != "thicknesses":
+        vals = np.empty(len(raw), dtype=object)
+        for i, v in enumerate(raw):
+            vals[i] = None if v is None else (str(v).strip() if not isinstance(v, float) or not v.is_integer() else str(int(v)))
+            if f.kind == schema.YESNO and vals[i] is not None:
+                w = fold(vals[i])
+                if w in schema.YES:
+                    vals[i] = True
+                elif w in schema.NO:
+                    vals[i] = False
+                else:
+                    t.add(i, Note("error", "not-yes-no", f"{f.header!r} must be yes or no: {v!r}",
+                                  sheet.name, address(t.rows[i], c.col)))
+                    vals[i] = None
+        c.values = vals
+        return
+    if f.key == "thicknesses":
+        unit_ok = _column_unit(t, c, here)
+        c.values = np.array(raw, dtype=object)
+        if not unit_ok:
+            c.values[:] = None
+        return
+    if not _column_unit(t, c, here):
+        c.values = np.full(len(raw), np.nan)
+        for i, v in enumerate(raw):
+            if v is not None:
+                t.add(i, Note("error", "column-unit", f"not computed: {c.message}",
+                              sheet.name, address(t.rows[i], c.col)))
+        return
+    difference = f.kind == schema.DIFFERENCE
+    nums = np.full(len(raw), np.nan)
+    plain = []
+    for i, v in enumerate(raw):
+        if v is None:
+            continue
+        if isinstance(v, bool) or not isinstance(v, (int, float, str)):
+            t.add(i, Note("error", "not-a-number", f"{f.header!r} must be a number: {v!r}",
+                          sheet.name, address(t.rows[i], c.col)))
+            continue
+        if isinstance(v, str):
+            try:
+                number, unit = parse_quantity_text(v)
+            except UnitTextError:
+                t.add(i, Note("error", "not-a-number",
+                              f"{f.header!r} must be a number in {unit_label(c.unit)}: {v!r}; "
+                              "type the number alone", sheet.name, address(t.rows[i], c.col)))
+                continue
+            if unit is not None:
+                if not _same_dimension(unit, c):
+                    t.add(i, Note("error", "cell-unit",
+                                  f"{v!r} is not a {f.header.lower()} (column unit {unit_label(c.unit)})",
+                                  sheet.name, address(t.rows[i], c.col)))
+                    continue
+                nums[i] = to_si([number], unit, c.si_unit, difference=difference)[0]
+                t.add(i, Note("info", "text-quantity",
+                              f"{f.header!r} typed as text {v!r}: read as "
+                              f"{_fmt(to_si([number], unit, str(c.unit), difference=difference)[0])} "
+                              f"{unit_label(c.unit)}", sheet.name, address(t.rows[i], c.col)))
+                continue
+            v = number
+        plain.append(i)
+        nums[i] = float(v)
+    if plain:
+        idx = np.array(plain)
+        vals = nums[idx]
+        finite = np.isfinite(vals)
+        out = np.full(len(idx), np.nan)
+        out[finite] = to_si(vals[finite], c.unit, c.si_unit, difference=difference)
+        nums[idx] = out
+    for i in range(len(raw)):
+        if raw[i] is None or np.isnan(nums[i]) and not isinstance(raw[i], float):
+            continue
+        v = nums[i]
+        if not np.isfinite(v) or (f.minimum is not None and v <= f.minimum) or (f.maximum is not None and v > f.maximum):
+            t.add(i, Note("error", "out-of-range", _range_message(f, c, raw[i]),
+                          sheet.name, address(t.rows[i], c.col)))
+            nums[i] = np.nan
+    c.values = nums
+
+
+def _fmt(x: float) -> str:
+    return f"{x:.4g}"
+
+
+def _range_message(f: schema.Field, c: Column, raw) -> str:
+    lo = f.minimum if f.minimum is not None else None
+    hi = f.maximum
+    if f.kind == schema.TEMPERATURE:
+        return f"{f.header!r} must be above absolute zero and at most {hi - 273.15:.0f} °C: {raw!r}"
+    parts = []
+    if lo is not None:
+        parts.append(f"> {max(lo, 0):g}" if lo >= 0 else ">= 0")
+    if hi is not None:
+        parts.append(f"<= {hi:g} {c.si_unit}")
+    return f"{f.header!r} must be {' and '.join(parts)} (in SI): {raw!r}"
+
+
+def _same_dimension(unit, c: Column) -> bool:
+    return is_unit(unit, c.si_unit)
+
+
+def _column_unit(t: Table, c: Column, here: str) -> bool:
+    """Settle the column's unit; False (with the column marked error) when unusable."""
+    f = c.field
+    if c.unit_text is None or c.unit_text == "":
+        c.unit = parse_unit(f.unit)
+        c.si_unit = f.si
+        c.status, c.message = "warning", (
+            f"{f.header!r} has no unit in its header; read as {f.unit}. "
+            f"Write it as '{f.header} [{f.unit}]' to be sure")
+        t.notes.append(Note("warning", "no-unit", c.message, t.sheet, here))
+        return True
+    try:
+        c.unit = parse_unit(c.unit_text)
+    except UnitTextError:
+        c.status, c.message = "error", (
+            f"unit {c.unit_text!r} of {f.header!r} does not parse; write it like '{f.header} [{f.unit}]'")
+        t.notes.append(Note("error", "bad-unit", c.message, t.sheet, here))
+        return False
+    for dim, si in ((f.unit, f.si), *f.alt_units):
+        if is_unit(c.unit, dim):
+            c.si_unit = si
+            return True
+    c.status, c.message = "error", (
+        f"unit {c.unit_text!r} of {f.header!r} is not a {_dimension_word(f)}; "
+        f"expected a unit like {f.unit}")
+    t.notes.append(Note("error", "wrong-dimension", c.message, t.sheet, here))
+    return False
+
+
+def _dimension_word(f: schema.Field) -> str:
+    return {"mm": "length", "m": "length", "°C": "temperature", "K": "temperature difference",
+            "W/m": "heat loss per length or per area", "m/s": "speed", "%": "fraction",
+            "h": "time", "W/(m·K)": "conductivity", "m²": "area"}.get(f.unit, "quantity of the right kind")

@@ -1,0 +1,270 @@
+"""Inputs of a run, assembled from the checked sheets: lines, conditions, materials, settings.
+
+Still the *check* stage: it resolves names (materials, finishes, conditions, nominal
+sizes) and the defaults, and notes every doubt; it knows nothing of heat.
+"""
+
+from __future__ import annotations
+
+import difflib
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+
+from . import library, schema
+from .check import Table, read_table, split_header
+from .errors import Note
+from .io.table import Book, address, fold
+from .units import UnitTextError, is_unit, parse_unit, split_currency, to_si
+
+
+@dataclass(frozen=True)
+class Condition:
+    name: str
+    t_air: float  # K
+    t_surroundings: float  # K
+    wind: float  # m/s
+    rh: float  # 0-1
+    hours: float  # h per year
+    source: str = "built-in"
+
+
+# Built-in design conditions: placeholders a project replaces with its own (documented).
+BUILTIN_CONDITIONS = {
+    "indoor": Condition("indoor", 293.15, 293.15, 0.0, 0.60, 8760.0),
+    "outdoor": Condition("outdoor", 283.15, 283.15, 3.0, 0.75, 8760.0),
+}
+
+
+@dataclass
+class Inputs:
+    lines: Table | None
+    conditions: dict[str, Condition]
+    materials: dict[str, library.Material]
+    finishes: dict[str, library.Finish]
+    settings: dict[str, object]
+    notes: list[Note] = field(default_factory=list)  # workbook-level notes
+    columns: list[dict] = field(default_factory=list)  # column reports (JSON)
+    us_units: bool = False
+
+
+def _find(book: Book, wanted: str) -> str | None:
+    for n in book.sheet_names():
+        if fold(n) == fold(wanted):
+            return n
+    return None
+
+
+def read_inputs(book: Book, lines_sheet: str = "Lines") -> Inputs:
+    notes: list[Note] = []
+    columns: list[dict] = []
+    settings = _settings(book, notes)
+    conditions = _conditions(book, notes, columns)
+    materials = _materials(book, notes, columns)
+    name = _find(book, lines_sheet)
+    lines = read_table(book.sheet(name), schema.LINE_FIELDS, "Tag") if name else None
+    if name is None:
+        notes.append(Note("error", "no-lines-sheet",
+                          f"the workbook has no sheet {lines_sheet!r}; add one with a header row that "
+                          f"includes 'Tag' (sheets found: {', '.join(book.sheet_names())})"))
+    elif lines is None:
+        notes.append(Note("error", "no-header",
+                          f"sheet {name!r} has no header row: no cell says 'Tag'. Put the headers "
+                          "(Tag, Shape, Size, Operating temperature [°C], ...) in one row", name))
+    if lines is not None:
+        notes.extend(lines.notes)
+        columns.extend(c.report(lines.sheet) for c in lines.columns.values())
+        for req in ("tag", "shape", "operating_temperature"):
+            if req not in lines.columns:
+                f = next(f for f in schema.LINE_FIELDS if f.key == req)
+                notes.append(Note("error", "missing-column",
+                                  f"sheet {lines.sheet!r} needs a column {f.header!r}"
+                                  + (f" [{f.unit}]" if f.unit else ""), lines.sheet,
+                                  address(lines.header_row, 0)))
+    us = _us_units(lines)
+    return Inputs(lines, conditions, materials, dict(library.finishes()), settings, notes, columns, us)
+
+
+def _us_units(t: Table | None) -> bool:
+    """Results follow the input's unit system: US when most unit-bearing columns are."""
+    if t is None:
+        return False
+    us = si = 0
+    for c in t.columns.values():
+        if c.unit is None or c.field.kind == schema.TEXT:
+            continue
+        name = str(c.unit)
+        if any(w in name for w in ("Fahrenheit", "Rankine", "inch", "foot", "british", "mile")):
+            us += 1
+        elif any(w in name for w in ("Celsius", "kelvin", "meter", "watt")):
+            si += 1
+    return us > si
+
+
+def _settings(book: Book, notes: list[Note]) -> dict[str, object]:
+    values = {k: v[3] for k, v in schema.SETTINGS.items()}
+    values["_given"] = set()
+    name = _find(book, "Settings")
+    if name is None:
+        notes.append(Note("info", "default-settings",
+                          "no Settings sheet: built-in defaults used for prices, efficiency and "
+                          "economics (see the README); add a Settings sheet to set your own"))
+        return values
+    raw = book.sheet(name)
+    hr = raw.find_header("Setting")
+    if hr is None:
+        notes.append(Note("warning", "no-header", "sheet 'Settings' has no header cell 'Setting'; "
+                          "it is ignored and defaults are used", name))
+        return values
+    head = {fold(split_header(v)[0]): c for c, v in enumerate(raw.grid[hr]) if isinstance(v, str)}
+    cs, cv, cu = head.get("setting"), head.get("value"), head.get("unit")
+    by_name = {fold(v[0]): k for k, v in schema.SETTINGS.items()} | schema.SETTING_ALIASES
+    for r in range(hr + 1, len(raw.grid)):
+        label = raw.value(r, cs)
+        if label is None:
+            continue
+        key = by_name.get(fold(label))
+        where = address(r, cv if cv is not None else cs)
+        if key is None:
+            near = difflib.get_close_matches(fold(label), list(by_name), n=2, cutoff=0.6)
+            notes.append(Note("warning", "unknown-setting", f"setting {label!r} is not known and is ignored"
+                              + (f"; did you mean {', '.join(near)}?" if near else ""), name, where))
+            continue
+        title, dim, si, default, kind = schema.SETTINGS[key]
+        value = raw.value(r, cv) if cv is not None else None
+        if value is None:
+            continue
+        if kind == schema.TEXT:
+            values[key] = str(value).strip()
+            values["_given"].add(key)
+            continue
+        unit_text = str(raw.value(r, cu)).strip() if cu is not None and raw.value(r, cu) is not None else dim
+        currency, unit_text = split_currency(unit_text)
+        try:
+            number = float(value)
+            unit = parse_unit(unit_text if unit_text else "1")
+            if not is_unit(unit, dim):
+                raise UnitTextError(f"unit {unit_text!r} is not like {dim}")
+            values[key] = float(to_si([number], unit, si, difference=kind == schema.DIFFERENCE)[0])
+            values["_given"].add(key)
+            if currency and "currency" not in values["_given"]:
+                values["currency"] = currency
+        except (TypeError, ValueError) as exc:
+            notes.append(Note("error", "bad-setting",
+                              f"setting {title!r}: {value!r} {unit_text} cannot be used ({exc}); "
+                              f"write a number with a unit like {dim or 'none'}; the default is used",
+                              name, where))
+    return values
+
+
+def _conditions(book: Book, notes: list[Note], columns: list[dict]) -> dict[str, Condition]:
+    out = dict(BUILTIN_CONDITIONS)
+    name = _find(book, "Conditions")
+    if name is None:
+        notes.append(Note("info", "default-conditions",
+                          "no Conditions sheet: the built-in 'indoor' (20 °C, still air, 60 % RH) and "
+                          "'outdoor' (10 °C, 3 m/s wind, 75 % RH) sets are used, 8760 h/yr each"))
+        return out
+    t = read_table(book.sheet(name), schema.CONDITION_FIELDS, "Name")
+    if t is None:
+        notes.append(Note("warning", "no-header", "sheet 'Conditions' has no header cell 'Name'; "
+                          "it is ignored", name))
+        return out
+    notes.extend(t.notes)
+    columns.extend(c.report(t.sheet) for c in t.columns.values())
+    for i in range(len(t.rows)):
+        notes.extend(t.cell_notes.get(i, []))
+        label = t.get("name")[i] if t.get("name") is not None else None
+        if not label:
+            continue
+        ta = _num(t, "ambient_temperature", i)
+        if not np.isfinite(ta) or t.bad[i]:
+            notes.append(Note("error", "bad-condition",
+                              f"condition {label!r} is not usable: it needs an 'Ambient temperature'",
+                              name, t.cell(i, "ambient_temperature")))
+            continue
+        tsur = _num(t, "surroundings_temperature", i)
+        base = BUILTIN_CONDITIONS.get(fold(label), BUILTIN_CONDITIONS["indoor"])
+        out[fold(label)] = Condition(
+            str(label), ta, tsur if np.isfinite(tsur) else ta,
+            _or(_num(t, "wind_speed", i), 0.0), _or(_num(t, "relative_humidity", i), base.rh),
+            _or(_num(t, "operating_hours", i), 8760.0), source=f"{name}!{t.cell(i, 'name')}")
+    return out
+
+
+def _num(t: Table, key: str, i: int) -> float:
+    v = t.get(key)
+    return float(v[i]) if v is not None else float("nan")
+
+
+def _or(x: float, default: float) -> float:
+    return x if np.isfinite(x) else default
+
+
+def _materials(book: Book, notes: list[Note], columns: list[dict]) -> dict[str, library.Material]:
+    out = dict(library.materials())
+    name = _find(book, "Materials")
+    if name is None:
+        return out
+    t = read_table(book.sheet(name), schema.MATERIAL_FIELDS, "Name")
+    if t is None:
+        notes.append(Note("warning", "no-header", "sheet 'Materials' has no header cell 'Name'; ignored", name))
+        return out
+    notes.extend(t.notes)
+    columns.extend(c.report(t.sheet) for c in t.columns.values())
+    groups: dict[str, list[int]] = {}
+    names = t.get("name")
+    for i in range(len(t.rows)):
+        notes.extend(t.cell_notes.get(i, []))
+        if names is not None and names[i]:
+            groups.setdefault(library.key(names[i]), []).append(i)
+    for idx in groups.values():
+        if any(t.bad[i] for i in idx):
+            notes.append(Note("error", "bad-material",
+                              f"material {names[idx[0]]!r} has cells in error and is not used", name,
+                              t.cell(idx[0], "name")))
+            continue
+        tm = np.array([_num(t, "mean_temperature", i) for i in idx])
+        kk = np.array([_num(t, "conductivity", i) for i in idx])
+        ok = np.isfinite(tm) & np.isfinite(kk)
+        base = library.lookup(library.materials(), names[idx[0]])
+        fields = {}
+        if ok.any():
+            order = np.argsort(tm[ok])
+            tm_s, k_s = tm[ok][order], kk[ok][order]
+            if np.any(np.diff(tm_s) <= 0):
+                notes.append(Note("error", "bad-material",
+                                  f"material {names[idx[0]]!r} lists the same mean temperature twice",
+                                  name, t.cell(idx[0], "mean_temperature")))
+                continue
+            fields.update(mean_temperatures=tuple(tm_s), conductivities=tuple(k_s))
+        elif base is None:
+            notes.append(Note("error", "bad-material",
+                              f"material {names[idx[0]]!r} needs 'Mean temperature' and 'Conductivity' "
+                              "on at least one row", name, t.cell(idx[0], "conductivity")))
+            continue
+        for key_, attr in (("max_temperature", "max_temperature"), ("min_temperature", "min_temperature"),
+                           ("cost_per_volume", "cost_per_volume"), ("max_layer", "max_layer")):
+            vals = [_num(t, key_, i) for i in idx]
+            vals = [v for v in vals if np.isfinite(v)]
+            if vals:
+                fields[attr] = vals[0]
+        th = t.get("thicknesses")
+        if th is not None:
+            texts = [th[i] for i in idx if th[i] not in (None, "")]
+            if texts:
+                col = t.columns["thicknesses"]
+                try:
+                    nums = library.parse_thickness_list(str(texts[0]))
+                    fields["thicknesses"] = tuple(to_si(nums, col.unit, "m"))
+                except ValueError as exc:
+                    notes.append(Note("error", "bad-thicknesses", f"{exc}; write e.g. '25, 40, 50'",
+                                      name, t.cell(idx[0], "thicknesses")))
+        if base is not None:
+            rec = replace(base, **fields, source=f"{name} sheet (overrides the built-in {base.name!r})")
+        else:
+            rec = library.Material(name=str(names[idx[0]]), source=f"{name} sheet", **fields)
+        out[library.key(base.name if base is not None else names[idx[0]])] = rec
+        if base is not None and library.key(names[idx[0]]) != library.key(base.name):
+            out[library.key(names[idx[0]])] = rec
+    return out

@@ -1,0 +1,25 @@
+"""Spreadsheet access: adapters that read a workbook into neutral tables and write edits back."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from ..errors import WorkbookError
+from .table import Book
+
+
+def open_book(path: Path) -> Book:
+    """Open a workbook by its suffix; only ``io`` knows which library does it."""
+    suffix = path.suffix.lower()
+    if suffix in (".xlsx", ".xlsm"):
+        from .xlsx import XlsxBook
+
+        return XlsxBook.open(path)
+    if suffix == ".ods":
+        raise WorkbookError(
+            f"{path.name}: .ods workbooks are not supported by this version yet; "
+            "save a copy as .xlsx in your spreadsheet program and run lagsheet on that")
+    if suffix == ".xls":
+        raise WorkbookError(
+            f"{path.name}: legacy .xls is not supported; save it as .xlsx in your spreadsheet program")
+    raise WorkbookError(f"{path.name}: not a workbook lagsheet reads (.xlsx, .xlsm)")

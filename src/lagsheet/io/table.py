@@ -1,0 +1,90 @@
+"""The neutral table that every adapter produces and accepts.
+
+Reading gives, per sheet, a grid of raw cell values (cached results for formulas) from
+cell A1, and the addresses of formula cells that carry no cached value. Writing takes
+:class:`SheetEdits`: cells to set, comments to attach. Nothing here knows of heat.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Protocol
+
+
+def column_letter(col: int) -> str:
+    """0-based column index -> spreadsheet letters (0 -> A, 27 -> AB)."""
+    letters = ""
+    col += 1
+    while col:
+        col, rem = divmod(col - 1, 26)
+        letters = chr(65 + rem) + letters
+    return letters
+
+
+def address(row: int, col: int) -> str:
+    """0-based row and column -> 'D12'."""
+    return f"{column_letter(col)}{row + 1}"
+
+
+def fold(text: Any) -> str:
+    """Header and sheet-name matching: case-insensitive, surrounding and repeated spaces folded."""
+    return re.sub(r"\s+", " ", str(text if text is not None else "")).strip().lower()
+
+
+@dataclass
+class RawSheet:
+    name: str
+    grid: list[list[Any]]  # rows from row 1, columns from A; '' or None for empty
+    uncached: set[tuple[int, int]] = field(default_factory=set)  # formula cells with no cached value
+
+    def value(self, row: int, col: int) -> Any:
+        if row < len(self.grid) and col < len(self.grid[row]):
+            v = self.grid[row][col]
+            return None if v == "" else v
+        return None
+
+    @property
+    def width(self) -> int:
+        return max((len(r) for r in self.grid), default=0)
+
+    def used_width(self) -> int:
+        """Columns up to the last one holding anything."""
+        last = 0
+        for r in self.grid:
+            for c in range(len(r) - 1, -1, -1):
+                if r[c] not in ("", None):
+                    last = max(last, c + 1)
+                    break
+        return last
+
+    def find_header(self, marker: str) -> int | None:
+        """First row (0-based) with a cell equal to ``marker`` (folded)."""
+        want = fold(marker)
+        for i, row in enumerate(self.grid):
+            if any(isinstance(v, str) and fold(v) == want for v in row):
+                return i
+        return None
+
+
+@dataclass
+class SheetEdits:
+    """What a writer changes in one sheet: cell values and our comments."""
+
+    sheet: str
+    values: dict[tuple[int, int], Any] = field(default_factory=dict)
+    number_formats: dict[tuple[int, int], str] = field(default_factory=dict)
+    comments: dict[tuple[int, int], str] = field(default_factory=dict)
+
+
+class Book(Protocol):
+    """An open workbook, as every adapter presents it."""
+
+    path: Path
+
+    def sheet_names(self) -> list[str]: ...
+
+    def sheet(self, name: str) -> RawSheet: ...
+
+    def save(self, edits: list[SheetEdits], out: Path) -> None: ...

@@ -1,0 +1,148 @@
+"""Fields of the workbook: headers, aliases, dimension, default unit, plausible range.
+
+This is the contract of ``WORKBOOK.md`` as data. Matching is case-insensitive and
+ignores surrounding spaces; aliases keep old or common headers working.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+TEXT, NUMBER, TEMPERATURE, DIFFERENCE, YESNO = "text", "number", "temperature", "difference", "yes/no"
+
+
+@dataclass(frozen=True)
+class Field:
+    key: str
+    header: str
+    kind: str = TEXT
+    unit: str = ""  # default unit text (also the dimension); '' for text
+    si: str = ""  # SI unit text the values are converted to
+    aliases: tuple[str, ...] = ()
+    minimum: float | None = None  # SI, exclusive lower bound of a valid value
+    maximum: float | None = None  # SI, inclusive upper bound
+    alt_units: tuple[tuple[str, str], ...] = ()  # other accepted (dimension unit, si) pairs
+
+
+LINE_FIELDS = (
+    Field("tag", "Tag", aliases=("line", "line no", "line number", "id")),
+    Field("area", "Area", aliases=("system", "plant area")),
+    Field("service", "Service", aliases=("fluid service", "description")),
+    Field("shape", "Shape", aliases=("type", "geometry")),
+    Field("size", "Size", aliases=("nominal size", "nps", "dn", "pipe size")),
+    Field("outside_diameter", "Outside diameter", NUMBER, "mm", "m",
+          ("od", "outer diameter", "pipe od", "diameter"), 0.0, 20.0),
+    Field("length", "Length", NUMBER, "m", "m", ("run length", "height"), 0.0, 1e5),
+    Field("surface_area", "Surface area", NUMBER, "m²", "m**2", ("area m2", "bare area"), 0.0, 1e6),
+    Field("operating_temperature", "Operating temperature", TEMPERATURE, "°C", "K",
+          ("temperature", "operating temp", "fluid temperature", "design temperature"), 0.0, 2000.0),
+    Field("condition", "Condition", aliases=("conditions", "location", "design condition")),
+    Field("insulation", "Insulation", aliases=("material", "insulation material")),
+    Field("outer_insulation", "Outer insulation", aliases=("outer material", "second insulation")),
+    Field("finish", "Finish", aliases=("jacket", "cladding", "jacketing")),
+    Field("surface_emissivity", "Surface emissivity", NUMBER, "1", "dimensionless",
+          ("emissivity",), -1e-12, 1.0),
+    Field("max_surface_temperature", "Max surface temperature", TEMPERATURE, "°C", "K",
+          ("maximum surface temperature", "max surface temp", "surface temperature limit"), 0.0, 2000.0),
+    Field("max_heat_loss", "Max heat loss", NUMBER, "W/m", "W/m",
+          ("maximum heat loss", "heat loss limit"), 0.0, 1e7, alt_units=(("W/m**2", "W/m**2"),)),
+    Field("prevent_condensation", "Prevent condensation", YESNO, aliases=("condensation control", "anti-condensation")),
+    Field("economic", "Economic", YESNO, aliases=("economic thickness",)),
+    Field("min_thickness", "Min thickness", NUMBER, "mm", "m",
+          ("minimum thickness", "code thickness"), -1e-12, 2.0),
+    Field("fixed_thickness", "Fixed thickness", NUMBER, "mm", "m",
+          ("thickness given", "existing thickness"), -1e-12, 2.0),
+)
+
+CONDITION_FIELDS = (
+    Field("name", "Name", aliases=("condition",)),
+    Field("ambient_temperature", "Ambient temperature", TEMPERATURE, "°C", "K",
+          ("ambient", "air temperature", "ambient temp"), 0.0, 400.0),
+    Field("surroundings_temperature", "Surroundings temperature", TEMPERATURE, "°C", "K",
+          ("surroundings", "radiant temperature", "mean radiant temperature"), 0.0, 600.0),
+    Field("wind_speed", "Wind speed", NUMBER, "m/s", "m/s", ("wind", "air velocity"), -1e-12, 60.0),
+    Field("relative_humidity", "Relative humidity", NUMBER, "%", "dimensionless",
+          ("rh", "humidity"), -1e-12, 1.0),
+    Field("operating_hours", "Operating hours", NUMBER, "h", "hour",
+          ("hours", "hours per year", "annual hours"), -1e-12, 8784.0),
+)
+
+MATERIAL_FIELDS = (
+    Field("name", "Name", aliases=("material",)),
+    Field("mean_temperature", "Mean temperature", TEMPERATURE, "°C", "K", ("mean temp",), 0.0, 2000.0),
+    Field("conductivity", "Conductivity", NUMBER, "W/(m·K)", "W/(m*K)",
+          ("thermal conductivity", "k", "lambda"), 0.0, 5.0),
+    Field("max_temperature", "Max temperature", TEMPERATURE, "°C", "K",
+          ("maximum temperature", "max service temperature"), 0.0, 2500.0),
+    Field("min_temperature", "Min temperature", TEMPERATURE, "°C", "K",
+          ("minimum temperature", "min service temperature"), 0.0, 2500.0),
+    Field("cost_per_volume", "Cost per volume", NUMBER, "1/m³", "1/m**3", ("cost", "installed cost")),
+    Field("thicknesses", "Thicknesses", TEXT, "mm", "m", ("sizes", "available thicknesses")),
+    Field("max_layer", "Max layer", NUMBER, "mm", "m", ("max layer thickness",), 0.0, 2.0),
+)
+
+# Settings: key -> (name, dimension unit, SI unit, default in SI, kind)
+SETTINGS = {
+    "currency": ("Currency", "", "", "EUR", TEXT),
+    "energy_price": ("Energy price", "1/kWh", "1/kWh", 0.05, NUMBER),
+    "heating_efficiency": ("Heating efficiency", "%", "dimensionless", 0.85, NUMBER),
+    "cooling_cop": ("Cooling COP", "1", "dimensionless", 1.0, NUMBER),
+    "emission_factor": ("Emission factor", "kg/kWh", "kg/kWh", 0.20, NUMBER),
+    "discount_rate": ("Discount rate", "%", "dimensionless", 0.05, NUMBER),
+    "service_life": ("Service life", "year", "year", 20.0, NUMBER),
+    "jacket_cost_per_area": ("Jacket cost per area", "1/m²", "1/m**2", float("nan"), NUMBER),
+    "labour_per_layer": ("Labour per layer", "1/m²", "1/m**2", float("nan"), NUMBER),
+    "condensation_margin": ("Condensation margin", "K", "K", 1.0, DIFFERENCE),
+    "thickness_step": ("Thickness step", "mm", "m", 0.010, NUMBER),
+    "max_thickness": ("Max thickness", "mm", "m", 0.300, NUMBER),
+    "bare_emissivity": ("Bare emissivity", "1", "dimensionless", 0.80, NUMBER),
+}
+SETTING_ALIASES = {"heating efficiency": "heating_efficiency", "boiler efficiency": "heating_efficiency",
+                   "cop": "cooling_cop", "co2 factor": "emission_factor", "interest rate": "discount_rate"}
+
+# Words for Shape -> (engine shape word, geometry word). Aliases welcome.
+SHAPES = {
+    "pipe": "pipe", "horizontal pipe": "pipe", "pipe horizontal": "pipe", "horizontal": "pipe",
+    "riser": "riser", "vertical pipe": "riser", "pipe vertical": "riser", "vertical": "riser",
+}
+LATER_SHAPES = ("vessel", "wall", "top", "underside", "sphere")
+
+YES = {"yes", "y", "true", "1", "x", "ja", "oui", "si", "sí"}
+NO = {"no", "n", "false", "0", "", "nein", "non"}
+
+
+@dataclass(frozen=True)
+class Output:
+    key: str
+    header: str
+    si: str  # SI unit text ('' for text)
+    us: str  # US customary unit text
+    fmt: str = "0.0"
+    difference: bool = False
+
+
+OUTPUTS = (
+    Output("thickness", "Thickness", "mm", "in", "0.0"),
+    Output("layers", "Layers", "", "", "@"),
+    Output("governing", "Governing", "", "", "@"),
+    Output("surface_temperature", "Surface temperature", "°C", "°F", "0.0"),
+    Output("heat_flux", "Heat flux", "W/m²", "Btu/(h·ft²)", "0.0"),
+    Output("heat_loss_per_length", "Heat loss per length", "W/m", "Btu/(h·ft)", "0.0"),
+    Output("heat_loss", "Heat loss", "W", "Btu/h", "#,##0"),
+    Output("bare_heat_loss", "Bare heat loss", "W", "Btu/h", "#,##0"),
+    Output("annual_energy", "Annual energy", "kWh", "MMBtu", "#,##0"),
+    Output("annual_cost", "Annual cost", "", "", "#,##0"),
+    Output("annual_saving", "Annual saving", "", "", "#,##0"),
+    Output("co2", "CO2", "kg/yr", "kg/yr", "#,##0"),
+    Output("critical_radius", "Critical radius", "mm", "in", "0.0"),
+    Output("dew_point", "Dew point", "°C", "°F", "0.0"),
+    Output("notes", "Notes", "", "", "@"),
+)
+
+
+def match(fields, name: str):
+    """The field whose header or alias equals ``name`` (already folded), or None."""
+    for f in fields:
+        if name == f.header.lower() or name in f.aliases:
+            return f
+    return None
