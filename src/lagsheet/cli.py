@@ -1,0 +1,118 @@
+"""The ``lagsheet`` command: one thin function per subcommand; heavy imports inside them."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import typer
+
+from . import __version__
+
+app = typer.Typer(add_completion=False, no_args_is_help=True,
+                  help="Size and check thermal insulation for every line of an equipment schedule.")
+
+CAUTION = ("Cautions: surface limits for personnel protection depend on contact time and surface "
+           "material (ASTM C1055, ISO 13732-1); cold lines need a continuous vapour retarder; results "
+           "are design estimates to be reviewed under the owner's specification, local codes and "
+           "licensed practice.")
+
+
+def _version(value: bool):
+    if value:
+        typer.echo(f"lagsheet {__version__}")
+        raise typer.Exit()
+
+
+@app.callback()
+def _main(version: bool = typer.Option(False, "--version", callback=_version, is_eager=True,
+                                       help="Print the version and exit.")):
+    pass
+
+
+def _print_summary(outcome, out: Path, quiet: bool) -> None:
+    s = outcome.report["summary"]
+    cur = outcome.report.get("currency") or ""
+    for n in outcome.inputs.notes:
+        if n.level in ("error", "warning") or not quiet:
+            where = f" ({n.sheet}!{n.cell})" if n.sheet and n.cell else ""
+            typer.echo(f"{n.level}: {n.message}{where}", err=True)
+    if quiet:
+        return
+    for line in outcome.report["lines"]:
+        for n in line["notes"]:
+            if n["level"] == "error":
+                typer.echo(f"error: {line['tag'] or 'row ' + str(line['row'])}: {n['message']} "
+                           f"({n['sheet']}!{n['cell']})", err=True)
+    typer.echo(f"{s['lines']} lines: {s['lines'] - s['errors'] - s['warnings']} ok, "
+               f"{s['warnings']} with warnings, {s['errors']} with errors")
+    typer.echo(f"heat loss {s['heat_loss_W'] / 1000:,.1f} kW insulated, "
+               f"{s['bare_heat_loss_W'] / 1000:,.1f} kW bare; annual cost {s['annual_cost']:,.0f} {cur}, "
+               f"saving {s['annual_saving']:,.0f} {cur} a year")
+    typer.echo(f"written: {out}")
+
+
+@app.command(help="Size and evaluate every line and write the filled workbook to OUT.\n\n" + CAUTION)
+def fill(
+    file: Path = typer.Argument(..., exists=True, dir_okay=False, help="The schedule (.xlsx/.xlsm)."),
+    output: Path = typer.Option(None, "-o", "--output", dir_okay=False, help="Where to write the filled workbook."),
+    report: Path = typer.Option(None, "--report", dir_okay=False, help="Also write the JSON report here."),
+    sheet: str = typer.Option("Lines", "--sheet", help="The sheet holding the lines."),
+    in_place: bool = typer.Option(False, "--in-place", help="Overwrite the input (a backup copy is kept)."),
+    quiet: bool = typer.Option(False, "--quiet", "-q", help="Print errors only."),
+):
+    from .errors import LagsheetError
+    from .pipeline import fill as run
+
+    try:
+        outcome = run(file, output, sheet=sheet, report_path=report, in_place=in_place)
+    except LagsheetError as exc:
+        typer.echo(f"lagsheet: {exc}", err=True)
+        raise typer.Exit(2) from None
+    _print_summary(outcome, file if in_place else output, quiet)
+    raise typer.Exit(outcome.exit_code)
+
+
+@app.command(help="Write the bundled demo schedule into DIR and fill it: the main job on an example.")
+def demo(
+    directory: Path = typer.Argument(Path("lagsheet-demo"), file_okay=False, help="Folder for the demo files."),
+    quiet: bool = typer.Option(False, "--quiet", "-q", help="Print errors only."),
+):
+    from .demo import write_demo
+    from .errors import LagsheetError
+    from .pipeline import fill as run
+
+    directory.mkdir(parents=True, exist_ok=True)
+    src = directory / "demo-plant.xlsx"
+    out = directory / "demo-plant-filled.xlsx"
+    write_demo(src)
+    try:
+        outcome = run(src, out, report_path=directory / "demo-plant-report.json")
+    except LagsheetError as exc:
+        typer.echo(f"lagsheet: {exc}", err=True)
+        raise typer.Exit(2) from None
+    if not quiet:
+        typer.echo(f"demo schedule: {src}")
+    _print_summary(outcome, out, quiet)
+    raise typer.Exit(outcome.exit_code)
+
+
+@app.command(help="List the built-in insulation materials and finishes with their sources.")
+def materials():
+    from .display import show
+    from .library import finishes
+    from .library import materials as mats
+
+    for m in mats().values():
+        pts = ", ".join(f"{show(t, 'temperature')}: {k:.4f}" for t, k in
+                        zip(m.mean_temperatures, m.conductivities, strict=True))
+        typer.echo(f"{m.name}  [{show(m.min_temperature, 'temperature')} to "
+                   f"{show(m.max_temperature, 'temperature')}]  k W/(m·K) at mean temperature: {pts}")
+        typer.echo(f"    sold: {', '.join(f'{t * 1000:g}' for t in m.thicknesses)} mm; "
+                   f"max layer {m.max_layer * 1000:g} mm; source: {m.source}")
+    typer.echo("")
+    for f in finishes().values():
+        typer.echo(f"finish {f.name}: emissivity {f.emissivity:.2f}; source: {f.source}")
+
+
+def main() -> None:
+    app()

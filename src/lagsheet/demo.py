@@ -1,0 +1,113 @@
+"""The bundled demo: an invented plant of our own, with a few deliberate problems.
+
+Every name and number here is invented for the demonstration; none is a real site.
+The problems (a header without its unit, a diameter typed as text, a size that
+disagrees with its diameter, a chilled line left without condensation control, a hot
+line with no surface limit, a line with no target) produce warnings, not errors.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+HEADERS = ["Tag", "Area", "Service", "Shape", "Size", "Outside diameter [mm]", "Length",
+           "Operating temperature [°C]", "Condition", "Insulation", "Finish",
+           "Max surface temperature [°C]", "Max heat loss [W/m]", "Prevent condensation",
+           "Min thickness [mm]", "Fixed thickness [mm]"]
+
+# (tag, area, service, shape, size, od, length, T, condition, insulation, finish, Tsmax, qmax, cond, tmin, fixed)
+LINES = [
+    ("ST-1001", "Boiler house", "HP steam header", "pipe", "NPS 10", None, 24, 250, "indoor", "mineral wool", "aluminium", 55, None, None, None, None),
+    ("ST-1002", "Boiler house", "HP steam to turbine", "pipe", "NPS 8", None, 36, 250, "indoor", "calcium silicate", "aluminium", 55, None, None, None, None),
+    ("ST-1003", "Boiler house", "Superheated steam", "pipe", "NPS 6", None, 18, 380, "indoor", "calcium silicate", "stainless steel", 60, None, None, None, None),
+    ("ST-1004", "Boiler house", "Boiler feed water", "pipe", "NPS 4", None, 40, 140, "indoor", "mineral wool", "aluminium", 50, None, None, None, None),
+    ("ST-1005", "Boiler house", "Deaerator vent", "riser", "NPS 2", None, 9, 105, "indoor", "mineral wool", "aluminium", 50, None, None, None, None),
+    ("ST-1006", "Boiler house", "Blowdown line", "pipe", "NPS 1 1/2", None, 12, 180, "indoor", "mineral wool", "painted", None, None, None, None, None),
+    ("ST-1007", "Boiler house", "Condensate return", "pipe", "NPS 3", None, 55, 95, "indoor", "mineral wool", "aluminium", None, 30, None, None, None),
+    ("ST-1008", "Boiler house", "Economiser bypass", "pipe", "NPS 12", None, 8, 220, "indoor", "perlite", "galvanised steel", 60, None, None, None, None),
+    ("SD-2001", "Steam distribution", "MP steam main", "pipe", "NPS 8", None, 320, 185, "outdoor", "mineral wool", "aluminium", 60, 95, None, None, None),
+    ("SD-2002", "Steam distribution", "MP steam branch", "pipe", "NPS 4", None, 140, 185, "outdoor", "mineral wool", "aluminium", 60, None, None, 50, None),
+    ("SD-2003", "Steam distribution", "LP steam main", "pipe", "NPS 6", None, 260, 150, "outdoor", "mineral wool", "aluminium", 60, None, None, None, None),
+    ("SD-2004", "Steam distribution", "LP steam branch", "pipe", '2"', None, 85, 150, "outdoor", "mineral wool", "aluminium", 60, None, None, None, None),
+    ("SD-2005", "Steam distribution", "Steam riser to rack", "riser", "NPS 6", None, 14, 185, "outdoor", "mineral wool", "aluminium", 60, None, None, None, None),
+    ("SD-2006", "Steam distribution", "Condensate header", "pipe", "NPS 3", None, 300, 110, "outdoor", "mineral wool", "aluminium", None, 40, None, None, None),
+    ("SD-2007", "Steam distribution", "Tracer supply", "pipe", "DN 25", None, 60, 150, "outdoor", "mineral wool", "aluminium", 60, None, None, None, None),
+    ("SD-2008", "Steam distribution", "Flash steam", "pipe", "DN 150", None, 45, 120, "outdoor", "cellular glass", "aluminium", 60, None, None, None, None),
+    ("SD-2009", "Steam distribution", "Old MP line (existing lagging)", "pipe", "NPS 4", None, 70, 185, "outdoor", "mineral wool", "aluminium", None, None, None, None, 40),
+    ("SD-2010", "Steam distribution", "Uninsulated drip leg", "pipe", "NPS 1", None, 6, 185, "outdoor", None, None, None, None, None, None, 0),
+    ("PR-3001", "Process area", "Hot oil supply", "pipe", "NPS 6", None, 120, 290, "indoor", "calcium silicate", "aluminium", 55, None, None, None, None),
+    ("PR-3002", "Process area", "Hot oil return", "pipe", "NPS 6", None, 120, 250, "indoor", "calcium silicate", "aluminium", 55, None, None, None, None),
+    ("PR-3003", "Process area", "Reactor feed", "riser", "NPS 3", None, 11, 210, "indoor", "mineral wool", "stainless steel", 55, None, None, None, None),
+    ("PR-3004", "Process area", "Product rundown", "pipe", "NPS 4", None, 95, 160, "indoor", "mineral wool", "aluminium", None, None, None, None, None),
+    ("PR-3005", "Process area", "Solvent recovery", "pipe", None, "2 in", 35, 85, "indoor", "mineral wool", "aluminium", 50, None, None, None, None),
+    ("PR-3006", "Process area", "Thermal fluid bypass", "pipe", "NPS 2", 48.3, 14, 270, "indoor", "calcium silicate", "aluminium", 60, None, None, None, None),
+    ("PR-3007", "Process area", "Hot water loop", "pipe", "NPS 2 1/2", None, 150, 80, "indoor", "polyisocyanurate", "pvc", None, 20, None, None, None),
+    ("PR-3008", "Process area", "Sample line", "pipe", "NPS 1/2", None, 30, 120, "indoor", "mineral wool", "none", None, None, None, None, None),
+    ("TF-4001", "Tank farm", "Fuel oil transfer", "pipe", "NPS 4", None, 410, 60, "outdoor", "mineral wool", "aluminium", None, 25, None, None, None),
+    ("TF-4002", "Tank farm", "Fuel oil return", "pipe", "NPS 3", None, 410, 55, "outdoor", "mineral wool", "aluminium", None, 25, None, None, None),
+    ("TF-4003", "Tank farm", "Heated bitumen", "pipe", "NPS 6", None, 90, 180, "outdoor", "cellular glass", "galvanised steel", 60, None, None, None, None),
+    ("TF-4004", "Tank farm", "Tank heater steam", "riser", "NPS 2", None, 12, 150, "outdoor", "mineral wool", "aluminium", 60, None, None, None, None),
+    ("HW-5001", "Building services", "LTHW flow", "pipe", "DN 80", None, 210, 80, "plant room", "mineral wool", "none", None, None, None, 40, None),
+    ("HW-5002", "Building services", "LTHW return", "pipe", "DN 80", None, 210, 60, "plant room", "mineral wool", "none", None, None, None, 40, None),
+    ("HW-5003", "Building services", "DHW flow", "pipe", "DN 40", None, 160, 65, "plant room", "mineral wool", "none", None, 15, None, None, None),
+    ("HW-5004", "Building services", "DHW return", "pipe", "DN 25", None, 160, 55, "plant room", "mineral wool", "none", None, 12, None, None, None),
+    ("HW-5005", "Building services", "Heating riser", "riser", "DN 65", None, 28, 80, "plant room", "mineral wool", "none", None, 25, None, None, None),
+    ("CW-6001", "Building services", "Chilled water flow", "pipe", "DN 150", None, 180, 6, "plant room", "elastomeric foam", "none", None, None, "yes", None, None),
+    ("CW-6002", "Building services", "Chilled water return", "pipe", "DN 150", None, 180, 12, "plant room", "elastomeric foam", "none", None, None, "yes", None, None),
+    ("CW-6003", "Building services", "Chilled water branch", "pipe", "DN 50", None, 95, 6, "plant room", "elastomeric foam", "none", None, None, "yes", None, None),
+    ("CW-6004", "Building services", "Chilled riser", "riser", "DN 100", None, 32, 6, "plant room", "polyisocyanurate", "pvc", None, None, "yes", None, None),
+    ("CW-6005", "Building services", "Process cooling (spec'd thin)", "pipe", "DN 80", None, 60, 5, "plant room", "elastomeric foam", "none", None, None, None, None, 9),
+    ("CW-6006", "Building services", "Brine line", "pipe", "DN 50", None, 40, -10, "plant room", "cellular glass", "aluminium", None, None, "yes", None, None),
+    ("UT-7001", "Utilities", "Compressor discharge", "pipe", "NPS 3", None, 25, 130, "indoor", "mineral wool", "aluminium", 60, None, None, None, None),
+    ("UT-7002", "Utilities", "Spare heater line", "pipe", "NPS 2", None, 10, 90, "indoor", "mineral wool", "aluminium", None, None, None, None, None),
+]
+
+CONDITIONS = [
+    ("Name", "Ambient temperature [°C]", "Surroundings temperature [°C]", "Wind speed [m/s]",
+     "Relative humidity [%]", "Operating hours [h]"),
+    ("indoor", 25, 25, 0, 55, 8000),
+    ("outdoor", 5, 0, 4, 80, 8400),
+    ("plant room", 28, 28, 0, 70, 6000),
+]
+
+SETTINGS = [
+    ("Setting", "Value", "Unit"),
+    ("Currency", "EUR", None),
+    ("Energy price", 0.045, "EUR/kWh"),
+    ("Heating efficiency", 88, "%"),
+    ("Cooling COP", 3.5, None),
+    ("Emission factor", 0.20, "kg/kWh"),
+]
+
+
+def write_demo(path: Path) -> None:
+    """Write the demo schedule workbook (Lines, Conditions, Settings) to ``path``."""
+    import openpyxl
+    from openpyxl.styles import Font
+    from openpyxl.worksheet.datavalidation import DataValidation
+
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "Lines"
+    ws["A1"] = "Demo plant: steam, process and building-services lines (invented example data)"
+    ws["A1"].font = Font(bold=True, size=13)
+    ws["A2"] = "Fill with: lagsheet fill demo-plant.xlsx -o demo-plant-filled.xlsx"
+    ws.append([])
+    ws.append(HEADERS)
+    for cell in ws[4]:
+        cell.font = Font(bold=True)
+    for row in LINES:
+        ws.append(list(row))
+    ws.freeze_panes = "B5"
+    for col, width in zip("ABCDEFGHIJKLMNOP", (10, 18, 28, 8, 10, 12, 8, 14, 11, 17, 15, 13, 12, 12, 11, 12), strict=True):
+        ws.column_dimensions[col].width = width
+    dv = DataValidation(type="list", formula1='"pipe,riser"', allow_blank=True)
+    ws.add_data_validation(dv)
+    dv.add(f"D5:D{4 + len(LINES)}")
+    for name, rows in (("Conditions", CONDITIONS), ("Settings", SETTINGS)):
+        s = wb.create_sheet(name)
+        for r in rows:
+            s.append(list(r))
+        for cell in s[1]:
+            cell.font = Font(bold=True)
+    wb.save(path)

@@ -1,0 +1,89 @@
+"""Results -> the cells ``fill`` writes into the Lines sheet (a neutral SheetEdits).
+
+Output columns go to the right of the last used column in the contract's order; a
+column whose header (without its unit) already exists is overwritten in place.
+Units follow the input's unit system. Knows the output schema, not the spreadsheet library.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from . import schema
+from .check import Table, split_header
+from .io.table import RawSheet, SheetEdits, fold
+from .spec import Results
+from .units import from_si
+
+_SI_BASE = {"mm": "m", "in": "m", "°C": "K", "°F": "K", "W/m²": "W/m**2", "Btu/(h·ft²)": "W/m**2",
+            "W/m": "W/m", "Btu/(h·ft)": "W/m", "W": "W", "Btu/h": "W", "kWh": "kWh", "MMBtu": "kWh",
+            "kg/yr": "kg/yr"}
+_PINT = {"°C": "degC", "°F": "degF", "W/m²": "W/m**2", "Btu/(h·ft²)": "Btu/(hour*foot**2)",
+         "Btu/(h·ft)": "Btu/hour/foot", "Btu/h": "Btu/hour", "kg/yr": "kg/year", "in": "inch"}
+_RESULT_KEY = {"surface_temperature": "t_surface"}
+
+
+def note_text(notes) -> str:
+    return "; ".join(f"{n.level}: {n.message}" if n.level in ("error", "warning") else n.message
+                     for n in notes)
+
+
+def lines_edits(raw: RawSheet, t: Table, res: Results, us: bool, currency: str) -> SheetEdits:
+    e = SheetEdits(raw.name)
+    header_row = t.header_row
+    existing = {}
+    for col, text in enumerate(raw.grid[header_row] if header_row < len(raw.grid) else []):
+        if isinstance(text, str) and text.strip():
+            existing.setdefault(fold(split_header(text)[0]), col)
+    next_col = max(t.last_col, 1)
+    for out in schema.OUTPUTS:
+        unit = out.us if us else out.si
+        if out.key in ("annual_cost", "annual_saving"):
+            unit = currency
+        header = f"{out.header} [{unit}]" if unit else out.header
+        col = existing.get(fold(out.header))
+        if col is None:
+            col = next_col
+            next_col += 1
+        e.values[(header_row, col)] = header
+        if t.units_row is not None:
+            e.values[(t.units_row, col)] = unit or None
+        values = _column(out, res, us)
+        for i, r in enumerate(t.rows):
+            v = values[i]
+            e.values[(r, col)] = v
+            if out.fmt and v is not None and not isinstance(v, str):
+                e.number_formats[(r, col)] = out.fmt
+    for i, r in enumerate(t.rows):
+        for nt in res.notes[i]:
+            if nt.cell and nt.level in ("error", "warning") and nt.sheet == raw.name:
+                pos = _parse_address(nt.cell)
+                if pos is not None and pos[0] == r:
+                    e.comments[pos] = (e.comments[pos] + "\n" if pos in e.comments else "") + nt.message
+    return e
+
+
+def _column(out: schema.Output, res: Results, us: bool) -> list:
+    if out.key == "notes":
+        return [note_text(ns) or None for ns in res.notes]
+    key = _RESULT_KEY.get(out.key, out.key)
+    arr = res.values[key]
+    if arr.dtype == object:
+        return [None if v is None else str(v) for v in arr]
+    unit = out.us if us else out.si
+    if unit and unit in _SI_BASE and unit != _SI_BASE[unit]:
+        conv = from_si(np.nan_to_num(arr), _SI_BASE[unit], _PINT.get(unit, unit))
+    else:
+        conv = arr
+    return [None if not np.isfinite(a) else float(round(c, 6)) for a, c in zip(arr, conv, strict=True)]
+
+
+def _parse_address(a: str) -> tuple[int, int] | None:
+    letters = "".join(ch for ch in a if ch.isalpha())
+    digits = "".join(ch for ch in a if ch.isdigit())
+    if not letters or not digits:
+        return None
+    col = 0
+    for ch in letters.upper():
+        col = col * 26 + (ord(ch) - 64)
+    return int(digits) - 1, col - 1
