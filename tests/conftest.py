@@ -1,0 +1,63 @@
+"""Shared helpers: workbooks built in the tests, and the real CLI."""
+
+from __future__ import annotations
+
+import hashlib
+from pathlib import Path
+
+import openpyxl
+import pytest
+from typer.testing import CliRunner
+
+from lagsheet.cli import app
+
+BASE_HEADERS = ["Tag", "Shape", "Size", "Outside diameter [mm]", "Length [m]",
+                "Operating temperature [°C]", "Condition", "Insulation", "Finish",
+                "Max surface temperature [°C]", "Max heat loss [W/m]", "Min thickness [mm]",
+                "Fixed thickness [mm]", "Prevent condensation"]
+
+
+def write_book(path: Path, rows: list[dict], headers: list[str] | None = None, *,
+               title_rows: int = 0, sheets: dict[str, list[list]] | None = None,
+               units_row: list | None = None) -> Path:
+    """A workbook with a Lines sheet of ``rows`` (dicts by header) and optional other sheets."""
+    headers = headers or BASE_HEADERS
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "Lines"
+    for i in range(title_rows):
+        ws.append([f"title row {i + 1}"])
+    ws.append(headers)
+    if units_row is not None:
+        ws.append(units_row)
+    for r in rows:
+        ws.append([r.get(h) for h in headers])
+    for name, data in (sheets or {}).items():
+        s = wb.create_sheet(name)
+        for r in data:
+            s.append(r)
+    wb.save(path)
+    return path
+
+
+def pipe(tag="P-1", **kw) -> dict:
+    """One indoor 4-inch mineral-wool line at 200 °C with a 55 °C surface limit, overridable."""
+    row = {"Tag": tag, "Shape": "pipe", "Size": "NPS 4", "Length [m]": 10,
+           "Operating temperature [°C]": 200, "Insulation": "mineral wool",
+           "Max surface temperature [°C]": 55}
+    row.update(kw)
+    return row
+
+
+def sha256(path: Path) -> str:
+    return hashlib.sha256(Path(path).read_bytes()).hexdigest()
+
+
+@pytest.fixture
+def cli():
+    runner = CliRunner()
+
+    def run(*args):
+        return runner.invoke(app, [str(a) for a in args], catch_exceptions=False)
+
+    return run
