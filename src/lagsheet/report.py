@@ -18,6 +18,9 @@ _KEYS = {
     "annual_cost": "annual_cost", "annual_saving": "annual_saving",
     "co2": "co2_kg_per_year", "critical_radius": "critical_radius_m", "dew_point": "dew_point_K",
 }
+# extensions of the contract's results
+_EXTRA = {"governing_condition": "governing_condition", "installed_cost": "installed_cost",
+          "payback": "payback_years", "t_interface": "interface_temperature_K"}
 
 CAUTIONS = (
     "Surface-temperature limits for personnel protection depend on contact time and surface "
@@ -38,8 +41,9 @@ def build(inputs: Inputs, res: Results, input_path: Path, output_path: Path | No
     t = inputs.lines
     lines = []
     for i in range(res.n):
-        results = {_KEYS[k]: _clean(float(res.values[k][i]) if res.values[k].dtype != object
-                                    else res.values[k][i]) for k in _KEYS}
+        names = _KEYS | _EXTRA
+        results = {names[k]: _clean(float(res.values[k][i]) if res.values[k].dtype != object
+                                    else res.values[k][i]) for k in _KEYS | _EXTRA}
         lines.append({
             "sheet": t.sheet, "row": t.rows[i] + 1, "tag": res.tags[i], "status": res.status[i],
             "results": results, "notes": [n.as_dict() for n in res.notes[i]],

@@ -34,6 +34,7 @@ LINE_FIELDS = (
           ("od", "outer diameter", "pipe od", "diameter"), 0.0, 20.0),
     Field("length", "Length", NUMBER, "m", "m", ("run length", "height"), 0.0, 1e5),
     Field("surface_area", "Surface area", NUMBER, "m²", "m**2", ("area m2", "bare area"), 0.0, 1e6),
+    Field("width", "Width", NUMBER, "m", "m", ("plate width", "flat width"), 0.0, 1e4),
     Field("operating_temperature", "Operating temperature", TEMPERATURE, "°C", "K",
           ("temperature", "operating temp", "fluid temperature", "design temperature"), 0.0, 2000.0),
     Field("condition", "Condition", aliases=("conditions", "location", "design condition")),
@@ -100,12 +101,17 @@ SETTINGS = {
 SETTING_ALIASES = {"heating efficiency": "heating_efficiency", "boiler efficiency": "heating_efficiency",
                    "cop": "cooling_cop", "co2 factor": "emission_factor", "interest rate": "discount_rate"}
 
-# Words for Shape -> (engine shape word, geometry word). Aliases welcome.
+# Words for Shape (our own) and their aliases -> the word.
 SHAPES = {
     "pipe": "pipe", "horizontal pipe": "pipe", "pipe horizontal": "pipe", "horizontal": "pipe",
     "riser": "riser", "vertical pipe": "riser", "pipe vertical": "riser", "vertical": "riser",
+    "vessel": "vessel", "tank": "vessel", "vertical vessel": "vessel", "column": "vessel", "shell": "vessel",
+    "wall": "wall", "duct side": "wall", "vertical flat": "wall", "panel": "wall",
+    "top": "top", "roof": "top", "duct top": "top", "horizontal flat up": "top",
+    "underside": "underside", "bottom": "underside", "duct bottom": "underside", "soffit": "underside",
+    "sphere": "sphere", "spherical vessel": "sphere", "ball": "sphere",
 }
-LATER_SHAPES = ("vessel", "wall", "top", "underside", "sphere")
+SHAPE_WORDS = ("pipe", "riser", "vessel", "wall", "top", "underside", "sphere")
 
 YES = {"yes", "y", "true", "1", "x", "ja", "oui", "si", "sí"}
 NO = {"no", "n", "false", "0", "", "nein", "non"}
@@ -137,6 +143,10 @@ OUTPUTS = (
     Output("critical_radius", "Critical radius", "mm", "in", "0.0"),
     Output("dew_point", "Dew point", "°C", "°F", "0.0"),
     Output("notes", "Notes", "", "", "@"),
+    # extensions of the contract, after its columns
+    Output("governing_condition", "Governing condition", "", "", "@"),
+    Output("installed_cost", "Installed cost", "", "", "#,##0"),
+    Output("payback", "Payback", "yr", "yr", "0.0"),
 )
 
 

@@ -1,9 +1,11 @@
 """Targets -> the chosen insulation system of every line.
 
-Resolves each line's inputs (shape, size, condition, material, finish), asks the
-engine for every sold thickness at once, keeps the smallest that meets every target
-on the line, names the governing target, and evaluates the choice and the bare line.
-Notes explain every doubt in words. Calls physics; physics never calls it.
+Each line is resolved (:mod:`lagsheet.resolve`), then expanded into one *case* per
+design condition it names. The engine solves every candidate system of every case in
+one call. Each target is judged at the case that is worst for it; the chosen system
+is the thinnest that meets every target (or, for ``Economic`` lines, the one with the
+lowest annualised cost among those). Results are reported at the first named
+condition. Calls physics; physics never calls it.
 """
 
 from __future__ import annotations
@@ -13,21 +15,24 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from . import economics, library, schema
-from .check import Table
+from . import economics, library
 from .display import show
 from .errors import Note
 from .inputs import Condition, Inputs
 from .io.table import fold
 from .physics.balance import System, solve
-from .physics.layers import CYLINDER, MaterialTable
+from .physics.layers import CYLINDER, FLAT, SPHERE, MaterialTable
 from .physics.properties import dew_point
-from .physics.sizing import evaluate, heat_rate
-from .physics.surface import CORRELATION_NAMES, PIPE, RISER, linearised_h
+from .physics.sizing import evaluate, heat_rate, per_line
+from .physics.surface import CORRELATION_NAMES, linearised_h
+from .resolve import Line, resolve
 
-SHAPE_CODES = {"pipe": (PIPE, CYLINDER), "riser": (RISER, CYLINDER)}
-GOVERNING_ORDER = ("surface temperature", "condensation", "heat loss", "minimum", "economic")
+GOVERNING_ORDER = ("surface temperature", "condensation", "heat loss", "interface", "minimum")
 PERSONNEL_LIMIT_K = 333.15  # 60 °C, the usual personnel-protection limit (common practice)
+
+RESULT_KEYS = ("thickness", "t_surface", "heat_flux", "heat_loss_per_length", "heat_loss",
+               "bare_heat_loss", "annual_energy", "annual_cost", "annual_saving", "co2",
+               "critical_radius", "dew_point", "installed_cost", "payback", "t_interface")
 
 
 @dataclass
@@ -39,152 +44,51 @@ class Results:
     notes: list[list[Note]] = field(default_factory=list)
     status: list[str] = field(default_factory=list)
     tags: list[str] = field(default_factory=list)
-    system: System | None = None  # the chosen systems, for ``explain``
+    lines: list[Line] = field(default_factory=list)
+    system: System | None = None  # the chosen systems at the first condition, for ``explain``
     table: MaterialTable | None = None
 
     def __post_init__(self):
-        for key in ("thickness", "t_surface", "heat_flux", "heat_loss_per_length", "heat_loss",
-                    "bare_heat_loss", "annual_energy", "annual_cost", "annual_saving", "co2",
-                    "critical_radius", "dew_point"):
+        for key in RESULT_KEYS:
             self.values.setdefault(key, np.full(self.n, np.nan))
-        for key in ("layers", "governing"):
+        for key in ("layers", "governing", "governing_condition"):
             self.values.setdefault(key, np.full(self.n, None, dtype=object))
         if not self.notes:
             self.notes = [[] for _ in range(self.n)]
 
 
-@dataclass
-class _Line:
-    """Resolved inputs of one line (built by a plain loop: resolving names, not physics)."""
-
-    ok: bool = True
-    shape: int = PIPE
-    geometry: int = CYLINDER
-    r_inner: float = np.nan
-    length: float = np.nan
-    t_op: float = np.nan
-    condition: Condition | None = None
-    material: library.Material | None = None
-    emissivity: float = np.nan
-    bare_emissivity: float = np.nan
-    candidates: tuple[float, ...] = ()
-    fixed: bool = False
+def _first(mask: np.ndarray) -> np.ndarray:
+    """Index of the first True per row, -1 where none."""
+    return np.where(mask.any(axis=1), np.argmax(mask, axis=1), -1)
 
 
-def _sold(material: library.Material, settings: dict) -> tuple[float, ...]:
-    if material.thicknesses:
-        return material.thicknesses
-    step, top = float(settings["thickness_step"]), float(settings["max_thickness"])
-    return tuple(step * k for k in range(1, int(math.floor(top / step + 1e-9)) + 1))
+_DEW: dict[tuple[float, float], float] = {}
 
 
-def _resolve(t: Table, inputs: Inputs, i: int, notes: list[Note]) -> _Line:
-    L = _Line()
-    sheet = t.sheet
+def _dew(c: Condition) -> float:
+    key = (round(c.t_air, 9), round(c.rh, 9))
+    if key not in _DEW:
+        _DEW[key] = float(dew_point(c.t_air, c.rh)[0])
+    return _DEW[key]
 
-    def err(code: str, key: str, message: str):
-        notes.append(Note("error", code, message, sheet, t.cell(i, key)))
-        L.ok = False
 
-    def text(key):
-        v = t.get(key)
-        return None if v is None or v[i] in (None, "") else str(v[i])
-
-    def num(key):
-        v = t.get(key)
-        return float(v[i]) if v is not None else np.nan
-
-    us = inputs.us_units
-    shape_word = text("shape")
-    if shape_word is None:
-        err("blank-shape", "shape", "'Shape' is blank; write pipe or riser")
-    else:
-        w = schema.SHAPES.get(fold(shape_word))
-        if w is None:
-            if fold(shape_word) in schema.LATER_SHAPES:
-                err("shape-not-yet", "shape",
-                    f"shape {shape_word!r} is not handled by this version yet (pipe and riser are)")
-            else:
-                import difflib
-
-                near = difflib.get_close_matches(fold(shape_word), list(schema.SHAPES), n=2, cutoff=0.5)
-                err("unknown-shape", "shape", f"shape {shape_word!r} is not known; use pipe or riser"
-                    + (f" (did you mean {', '.join(repr(x) for x in near)}?)" if near else ""))
+def _check_tags(t, res: Results, lines: list[Line]) -> None:
+    tags = t.get("tag")
+    seen: dict[str, int] = {}
+    for i, L in enumerate(lines):
+        tag = tags[i] if tags is not None else None
+        res.tags.append(tag or "")
+        if not tag:
+            res.notes[i].append(Note("error", "blank-tag", "'Tag' is blank; give every line a unique tag",
+                                     t.sheet, t.cell(i, "tag")))
+            L.ok = False
+        elif fold(tag) in seen:
+            res.notes[i].append(Note("error", "duplicate-tag", f"tag {tag!r} is used again (first in row "
+                                     f"{t.rows[seen[fold(tag)]] + 1}); tags must be unique",
+                                     t.sheet, t.cell(i, "tag")))
+            L.ok = False
         else:
-            L.shape, L.geometry = SHAPE_CODES[w]
-    od, size = num("outside_diameter"), text("size")
-    if size is not None:
-        od_size = library.pipe_outside_diameter(size)
-        if od_size is None:
-            err("unknown-size", "size", f"size {size!r} is not a nominal pipe size lagsheet knows; "
-                "write e.g. NPS 4, 4\" or DN 100, or give 'Outside diameter' instead")
-        elif np.isfinite(od) and abs(od - od_size) > 0.001:
-            notes.append(Note("warning", "size-od-differ",
-                              f"'Size' {size} means {show(od_size / 2, 'radius', us).replace(' ', '')} "
-                              f"radius; the given 'Outside diameter' is used", sheet, t.cell(i, "outside_diameter")))
-        elif not np.isfinite(od):
-            od = od_size
-    if not np.isfinite(od) and L.ok and size is None:
-        err("no-diameter", "outside_diameter", "give 'Size' or 'Outside diameter' for this line")
-    L.r_inner = od / 2
-    L.length = num("length")
-    if not np.isfinite(L.length):
-        err("no-length", "length", "'Length' is blank; give the run length (height for risers)")
-    L.t_op = num("operating_temperature")
-    if not np.isfinite(L.t_op):
-        err("no-temperature", "operating_temperature", "'Operating temperature' is blank")
-    cname = text("condition") or "indoor"
-    cond = inputs.conditions.get(fold(cname))
-    if cond is None:
-        if ";" in cname:
-            err("several-conditions", "condition",
-                f"several conditions in one line ({cname!r}) come in a later version; name one")
-        else:
-            err("unknown-condition", "condition", f"condition {cname!r} is not defined; add it to the "
-                f"Conditions sheet or use one of: {', '.join(sorted(c.name for c in inputs.conditions.values()))}")
-    L.condition = cond
-    fixed = num("fixed_thickness")
-    mname = text("insulation")
-    if mname is None:
-        if not (np.isfinite(fixed) and fixed == 0):
-            err("no-insulation", "insulation", "'Insulation' is blank; name a material "
-                f"({', '.join(m.name for m in library.materials().values())}) or set 'Fixed thickness' 0 for bare")
-    else:
-        mat = library.lookup(inputs.materials, mname)
-        if mat is None:
-            import difflib
-
-            names = sorted({m.name for m in inputs.materials.values()})
-            near = difflib.get_close_matches(fold(mname), [fold(n) for n in names], n=2, cutoff=0.5)
-            err("unknown-material", "insulation", f"material {mname!r} is not in the Materials sheet "
-                "or the built-in library" + (f"; did you mean {', '.join(repr(x) for x in near)}?" if near
-                                             else f"; known: {', '.join(names)}"))
-        else:
-            L.material = mat
-            if np.isfinite(L.t_op) and not (mat.min_temperature <= L.t_op <= mat.max_temperature):
-                err("service-range", "operating_temperature",
-                    f"{show(L.t_op, 'temperature', us)} is outside the service range of {mat.name} "
-                    f"({show(mat.min_temperature, 'temperature', us)} to "
-                    f"{show(mat.max_temperature, 'temperature', us)}); choose another material")
-    if text("outer_insulation") is not None:
-        err("not-yet", "outer_insulation", "'Outer insulation' (two-material systems) comes in a "
-            "later version; leave it blank")
-    fname = text("finish") or "aluminium"
-    fin = library.lookup(inputs.finishes, fname)
-    if fin is None:
-        err("unknown-finish", "finish", f"finish {fname!r} is not known; use one of: "
-            f"{', '.join(f.name for f in inputs.finishes.values())}")
-    eps = num("surface_emissivity")
-    L.emissivity = eps if np.isfinite(eps) else (fin.emissivity if fin else np.nan)
-    L.bare_emissivity = float(inputs.settings["bare_emissivity"])
-    if np.isfinite(fixed):
-        L.fixed = True
-        L.candidates = (fixed,)
-        if fixed == 0:
-            L.emissivity = eps if np.isfinite(eps) else L.bare_emissivity
-    elif L.material is not None:
-        L.candidates = _sold(L.material, inputs.settings)
-    return L
+            seen[fold(tag)] = i
 
 
 def specify(inputs: Inputs) -> Results:
@@ -194,234 +98,235 @@ def specify(inputs: Inputs) -> Results:
     res = Results(n)
     if t is None or n == 0:
         return res
-    us = inputs.us_units
-    st = inputs.settings
-    tags = t.get("tag")
-    seen: dict[str, int] = {}
-    lines: list[_Line] = []
+    us, st = inputs.us_units, inputs.settings
+    lines = []
     for i in range(n):
-        notes = res.notes[i]
-        notes.extend(t.cell_notes.get(i, []))
-        tag = tags[i] if tags is not None else None
-        res.tags.append(tag or "")
-        L = _resolve(t, inputs, i, notes)
-        if not tag:
-            notes.append(Note("error", "blank-tag", "'Tag' is blank; give every line a unique tag",
-                              t.sheet, t.cell(i, "tag")))
-            L.ok = False
-        elif fold(tag) in seen:
-            notes.append(Note("error", "duplicate-tag", f"tag {tag!r} is used again (first in row "
-                              f"{t.rows[seen[fold(tag)]] + 1}); tags must be unique", t.sheet, t.cell(i, "tag")))
-            L.ok = False
-        else:
-            seen[fold(tag)] = i
+        res.notes[i].extend(t.cell_notes.get(i, []))
+        L = resolve(t, inputs, i, res.notes[i])
         L.ok = L.ok and not t.bad[i]
         lines.append(L)
+    _check_tags(t, res, lines)
+    res.lines = lines
 
-    # one material table for every material in use (plus a stand-in for bare lines)
     used: dict[str, library.Material] = {}
     for L in lines:
-        if L.material is not None:
-            used.setdefault(L.material.name, L.material)
+        for m in L.materials:
+            used.setdefault(m.name, m)
     if not used:
         used["mineral wool"] = library.materials()["mineral wool"]
     table = MaterialTable.build({k: (np.array(m.mean_temperatures), np.array(m.conductivities))
                                  for k, m in used.items()})
     res.table = table
-    ok = np.array([L.ok for L in lines])
-    mat_idx = np.array([table.index(L.material.name) if L.material is not None else 0 for L in lines])
-    cond = [L.condition or inputs.conditions["indoor"] for L in lines]
+    slots = max([len(L.materials) for L in lines] + [1])
+    ok = np.array([L.ok and bool(L.candidates) for L in lines])
 
-    def arr(get):
-        return np.array([get(L, c) for L, c in zip(lines, cond, strict=True)], dtype=float)
-
-    t_op = np.where(ok, arr(lambda L, c: L.t_op), 300.0)
-    base = System(
-        geometry=np.array([L.geometry for L in lines]), shape=np.array([L.shape for L in lines]),
-        t_operating=t_op, t_air=arr(lambda L, c: c.t_air),
-        t_surroundings=arr(lambda L, c: c.t_surroundings), wind=arr(lambda L, c: c.wind),
-        emissivity=np.where(ok, arr(lambda L, c: L.emissivity), 0.9),
-        r_inner=np.where(ok, arr(lambda L, c: L.r_inner), 0.05),
-        height=np.where(ok, arr(lambda L, c: L.length), 1.0),
-        thickness=np.zeros((n, 1)), material=mat_idx[:, None],
-    )
-    width = max((len(L.candidates) for L in lines), default=1) or 1
-    cand = np.full((n, width), np.nan)
+    # cases: one per (line, condition), contiguous per line
+    indoor = inputs.conditions["indoor"]
+    case_line, case_cond = [], []
     for i, L in enumerate(lines):
-        if L.ok and L.candidates:
-            cand[i, :len(L.candidates)] = L.candidates
-    hot = base.t_operating >= base.t_air
+        for c in (L.conditions if ok[i] else []) or [indoor]:
+            case_line.append(i)
+            case_cond.append(c)
+    case_line = np.array(case_line)
+    starts = np.flatnonzero(np.r_[True, case_line[1:] != case_line[:-1]])
+    first_case = starts  # the first named condition of each line
 
-    # the engine: every candidate of every line, then the bare lines, in two calls
-    c = evaluate(base, cand, mat_idx, table)
-    bare_sys = System(**{**base.__dict__, "emissivity": np.where(
-        np.array([L.fixed and L.candidates == (0.0,) for L in lines]), base.emissivity,
-        np.array([L.bare_emissivity for L in lines]))})
-    bare = solve(bare_sys, table)
-    bare_rate = heat_rate(base.geometry, bare.q, bare.r_outer)
+    def line_arr(get, bad=np.nan):
+        return np.array([get(L) if ok[i] else bad for i, L in enumerate(lines)], dtype=float)
 
-    # targets, each a (lines × candidates) mask of "meets"
-    valid = np.isfinite(cand) & c.converged & c.in_range
-    dew = np.array([_dew(cc) for cc in cond])
-    res.values["dew_point"][:] = dew
-    targets: dict[str, np.ndarray] = {}
-    given: dict[str, np.ndarray] = {}
+    mat = np.zeros((n, slots), dtype=int)
+    for i, L in enumerate(lines):
+        for j, m in enumerate(L.materials):
+            mat[i, j] = table.index(m.name)
+        if len(L.materials) == 1 and slots == 2:
+            mat[i, 1] = mat[i, 0]
+    geometry = np.array([L.geometry for L in lines])
+    base = System(
+        geometry=geometry, shape=np.array([L.shape for L in lines]),
+        t_operating=line_arr(lambda L: L.t_op, 300.0),
+        t_air=np.zeros(n), t_surroundings=np.zeros(n), wind=np.zeros(n),
+        emissivity=line_arr(lambda L: L.emissivity, 0.9),
+        r_inner=line_arr(lambda L: L.r_inner, 0.05),
+        height=line_arr(lambda L: L.free_length, 1.0),
+        thickness=np.zeros((n, slots)), material=mat,
+        flow_length=line_arr(lambda L: L.flow_length, 1.0),
+    )
+    cases = per_line(base, case_line,
+                     t_air=np.array([c.t_air for c in case_cond]),
+                     t_surroundings=np.array([c.t_surroundings for c in case_cond]),
+                     wind=np.array([c.wind for c in case_cond]))
+    width = max(len(L.candidates) for L in lines) or 1
+    cand = np.full((n, width, slots), np.nan)
+    for i, L in enumerate(lines):
+        if ok[i]:
+            for k, c in enumerate(L.candidates):
+                cand[i, k, :len(c)] = c
+                cand[i, k, len(c):] = 0.0
+    total = cand.sum(axis=2)
+
+    # the engine: every candidate of every case in one call
+    c = evaluate(cases, cand[case_line], mat[case_line], table)
+    dew = np.array([_dew(cc) for cc in case_cond])
+    margin = float(st["condensation_margin"])
+
+    # targets: per case "meets", then all cases of a line must meet (worst case governs)
+    def all_cases(m):
+        return np.logical_and.reduceat(m, starts, axis=0)
+
+    valid = np.isfinite(total) & all_cases(c.converged & c.in_range)
+    given, meets, worst = {}, {}, {}
     tmax = t.get("max_surface_temperature")
     if tmax is not None:
         given["surface temperature"] = np.isfinite(tmax)
-        targets["surface temperature"] = c.t_surface <= tmax[:, None] + 1e-9
+        meets["surface temperature"] = all_cases(c.t_surface <= tmax[case_line][:, None] + 1e-9)
+        worst["surface temperature"] = c.t_surface
     qmax = t.get("max_heat_loss")
     if qmax is not None:
         per_area = t.columns["max_heat_loss"].si_unit == "W/m**2"
-        given["heat loss"] = np.isfinite(qmax)
+        g = np.isfinite(qmax)
+        if not per_area:
+            for i in np.flatnonzero(g & (geometry != CYLINDER) & ok):
+                res.notes[i].append(Note("error", "heat-loss-unit",
+                                         "'Max heat loss' is per length (W/m) but this line is flat or a "
+                                         "sphere; give its limit in a W/m² column", t.sheet,
+                                         t.cell(i, "max_heat_loss")))
+                lines[i].ok = ok[i] = False
         measure = np.abs(c.q) if per_area else np.abs(c.heat_rate)
-        targets["heat loss"] = measure <= qmax[:, None] * (1 + 1e-12)
+        given["heat loss"] = g
+        meets["heat loss"] = all_cases(measure <= qmax[case_line][:, None] * (1 + 1e-12))
+        worst["heat loss"] = measure
     tmin = t.get("min_thickness")
     if tmin is not None:
         given["minimum"] = np.isfinite(tmin)
-        targets["minimum"] = cand >= tmin[:, None] - 1e-9
+        meets["minimum"] = total >= tmin[:, None] - 1e-9
     prevent = t.get("prevent_condensation")
     if prevent is not None:
-        want = np.array([v is True for v in prevent])
-        given["condensation"] = want
-        targets["condensation"] = c.t_surface >= (dew + float(st["condensation_margin"]))[:, None] - 1e-9
+        given["condensation"] = np.array([v is True for v in prevent])
+        above = c.t_surface - (dew + margin)[:, None]
+        meets["condensation"] = all_cases(above >= -1e-9)
+        worst["condensation"] = -above
+    if slots == 2:
+        two = np.array([len(L.materials) == 2 for L in lines])
+        limit = np.array([L.materials[1].max_temperature if len(L.materials) == 2 else np.inf for L in lines])
+        given["interface"] = two & ok
+        meets["interface"] = all_cases(c.faces[:, :, 1] <= limit[case_line][:, None] + 1e-9)
+        worst["interface"] = c.faces[:, :, 1]
 
-    economic = t.get("economic")
-    if economic is not None:
-        for i in np.flatnonzero([v is True for v in economic]):
-            res.notes[i].append(Note("error", "not-yet", "'Economic' thickness comes in a later "
-                                     "version of lagsheet; leave it blank or give another target",
-                                     t.sheet, t.cell(i, "economic")))
-            lines[i].ok = False
+    feasible = valid.copy()
+    for name in meets:
+        feasible &= meets[name] | ~given[name][:, None]
+    first_feasible = _first(feasible)
 
-    meets_all = valid.copy()
-    for name, m in targets.items():
-        meets_all &= m | ~given[name][:, None]
-    first_all = _first(meets_all)
-    thick_idx = np.full(n, -1)
+    # economics of every candidate at the first condition
+    cost = _installed_cost(lines, cand, base, st, res, t)
+    first_rate = c.heat_rate[first_case]
+    whole = _whole(geometry, first_rate, np.array([L.length for L in lines]), np.array([L.area for L in lines]))
+    hours = np.array([L.conditions[0].hours if ok[i] else 0.0 for i, L in enumerate(lines)])
+    energy_cost = _energy_cost(whole, hours[:, None], st)
+    crf = float(economics.capital_recovery_factor(float(st["discount_rate"]), float(st["service_life"])))
+    annualised = crf * cost + energy_cost
+    econ = np.array([L.economic for L in lines]) & ok
+    for i in np.flatnonzero(econ & ~np.isfinite(annualised).any(axis=1)):
+        ok[i] = lines[i].ok = False
+    econ &= ok
+    econ_idx = np.where(econ, np.argmin(np.where(feasible & np.isfinite(annualised), annualised, np.inf),
+                                        axis=1), -1)
+
+    fixed = np.array([L.fixed for L in lines])
+    active = np.zeros(n, dtype=bool)
+    for name in given:
+        active |= given[name]
+    chosen = np.where(econ, econ_idx, first_feasible)
+    none_given = ok & ~fixed & ~active & ~econ
+    chosen = np.where(none_given, _first(valid), chosen)
+    chosen = np.where(fixed & ok, 0, chosen)
+    unmet = ok & ~fixed & (active | econ) & (first_feasible < 0)
+    last = np.array([int(np.flatnonzero(np.isfinite(total[i]))[-1]) if np.isfinite(total[i]).any() else -1
+                     for i in range(n)])
+    chosen = np.where(unmet, last, chosen)
+    chosen = np.where(ok, chosen, -1)
+
     governing = np.full(n, None, dtype=object)
-    for i, L in enumerate(lines):
-        notes = res.notes[i]
-        if not L.ok:
-            continue
-        if not np.isfinite(cand[i]).any():
-            continue
-        if L.fixed:
-            thick_idx[i] = 0
-            governing[i] = "fixed"
-            for name in targets:
-                if given[name][i] and not targets[name][i, 0]:
-                    notes.append(Note("warning", "target-not-met",
-                                      f"the fixed thickness does not meet the {name} target", t.sheet,
-                                      t.cell(i, "fixed_thickness")))
-            continue
-        active = [name for name in GOVERNING_ORDER if name in targets and given[name][i]]
-        if not active:
-            thick_idx[i] = int(np.flatnonzero(valid[i])[0]) if valid[i].any() else 0
-            governing[i] = "none"
-            notes.append(Note("warning", "no-target",
-                              "no target on this line: the thinnest sold thickness is shown; give "
-                              "'Max surface temperature', 'Max heat loss' or 'Min thickness'",
-                              t.sheet, t.cell(i, "tag")))
-            continue
-        if first_all[i] < 0:
-            last = int(np.flatnonzero(np.isfinite(cand[i]))[-1])
-            thick_idx[i] = last
-            missed = [name for name in active if not targets[name][i, last]]
-            why = "; ".join(_missed(name, i, last, c, t, dew, st, us, L) for name in missed) or (
-                "the material's conductivity points do not cover the temperatures of this line")
-            notes.append(Note("error", "target-not-met", why, t.sheet, t.cell(i, "tag")))
-            governing[i] = (missed[0] if missed else active[0]) + " (not met)"
-            continue
-        k = int(first_all[i])
-        thick_idx[i] = k
-        own = {name: int(_first((targets[name][i] & valid[i])[None, :])[0]) for name in active}
-        gov = [name for name in active if own[name] == k] or [max(active, key=lambda x: own[x])]
-        governing[i] = gov[0]
+    gov_name = np.full(n, None, dtype=object)
+    own = {name: _first(meets[name] & valid) for name in meets}
+    for name in reversed(GOVERNING_ORDER):  # earlier names win ties
+        if name in own:
+            hit = given[name] & (own[name] == chosen)
+            gov_name[hit] = name
+    if econ.any():
+        up = econ & (chosen > first_feasible)
+        gov_name[up] = "economic"
+        gov_name[econ & (gov_name == None)] = "economic"  # noqa: E711 (object array)
+    governing[:] = gov_name
+    governing[fixed & ok] = "fixed"
+    governing[none_given] = "none"
 
-    # the chosen systems, solved once more in full for the reported values
-    chosen = np.where(thick_idx >= 0, np.take_along_axis(
-        np.nan_to_num(cand, nan=0.0), np.maximum(thick_idx, 0)[:, None], axis=1)[:, 0], np.nan)
-    computed = np.isfinite(chosen)
-    sysc = System(**{**base.__dict__, "thickness": np.nan_to_num(chosen)[:, None]})
-    sol = solve(sysc, table)
-    res.system, res.values["thickness"][:] = sysc, chosen
-    rate = heat_rate(base.geometry, sol.q, sol.r_outer)
-    length = base.height
-    whole = np.where(base.geometry == CYLINDER, rate * length, rate)
-    bare_whole = np.where(base.geometry == CYLINDER, bare_rate * length, bare_rate)
-    hours = np.array([cc.hours for cc in cond])
-    energy = economics.annual_energy_kwh(whole, hours)
-    bought = economics.energy_bought_kwh(energy, float(st["heating_efficiency"]), float(st["cooling_cop"]))
-    bare_bought = economics.energy_bought_kwh(economics.annual_energy_kwh(bare_whole, hours),
-                                              float(st["heating_efficiency"]), float(st["cooling_cop"]))
-    price = float(st["energy_price"])
-    k_outer = table.mean_conductivity(mat_idx, sol.faces[:, -2], sol.faces[:, -1])
-    h_total = linearised_h(base.shape, sol.t_surface, base.t_air, base.t_surroundings, base.wind,
-                           base.emissivity, 2 * sol.r_outer, base.height)
-    k_bare = table.conductivity(mat_idx, 0.5 * (base.t_operating + base.t_air))
-    k_rc = np.where(chosen > 0, k_outer, k_bare)
-    r_crit = np.where(base.geometry == CYLINDER, k_rc / h_total, 2 * k_rc / h_total)
-    has_mat = np.array([L.material is not None for L in lines])
+    rows = np.arange(n)
+    pick = np.maximum(chosen, 0)
+    case_pick = pick[case_line]
+    gov_cond = np.full(n, None, dtype=object)
+    for name in worst:
+        sel = np.array([g == name for g in governing])
+        if not sel.any():
+            continue
+        w = worst[name][np.arange(len(case_line)), case_pick]
+        for i in np.flatnonzero(sel & ok):
+            cs = slice(starts[i], starts[i] + len(lines[i].conditions))
+            gov_cond[i] = case_cond[cs.start + int(np.nanargmax(w[cs]))].name
+    for i in np.flatnonzero(ok & (gov_cond == None)):  # noqa: E711
+        gov_cond[i] = lines[i].conditions[0].name
+    res.values["governing_condition"][:] = gov_cond
+
+    # the chosen systems at the first condition, solved once more in full
+    chosen_th = np.where((chosen >= 0)[:, None], cand[rows, pick], 0.0)
+    first_sys = per_line(cases, first_case, thickness=np.nan_to_num(chosen_th))
+    sol = solve(first_sys, table)
+    bare_eps = np.where(fixed & (np.nan_to_num(total[:, 0]) == 0), base.emissivity,
+                        np.array([L.bare_emissivity for L in lines]))
+    bare = solve(per_line(first_sys, rows, thickness=np.zeros((n, slots)), emissivity=bare_eps), table)
+    res.system = first_sys
+    rate = heat_rate(geometry, sol.q, sol.r_outer)
+    bare_rate = heat_rate(geometry, bare.q, bare.r_outer)
+    lengths = np.array([L.length for L in lines])
+    areas = np.array([L.area for L in lines])
+    loss = _whole(geometry, rate, lengths, areas)
+    bare_loss = _whole(geometry, bare_rate, lengths, areas)
+    eff, cop, price = float(st["heating_efficiency"]), float(st["cooling_cop"]), float(st["energy_price"])
+    energy = economics.annual_energy_kwh(loss, hours)
+    bought = economics.energy_bought_kwh(energy, eff, cop)
+    bare_bought = economics.energy_bought_kwh(economics.annual_energy_kwh(bare_loss, hours), eff, cop)
+    j_out = np.maximum(np.sum(chosen_th > 0, axis=1) - 1, 0)  # outermost layer with a thickness
+    outer = mat[rows, j_out]
+    k_outer = table.mean_conductivity(outer, sol.faces[rows, j_out], sol.faces[rows, j_out + 1])
+    h_total = linearised_h(first_sys.shape, sol.t_surface, first_sys.t_air, first_sys.t_surroundings,
+                           first_sys.wind, first_sys.emissivity, 2 * sol.r_outer, first_sys.height,
+                           first_sys.flow_length)
+    k_bare = table.conductivity(mat[:, 0], 0.5 * (first_sys.t_operating + first_sys.t_air))
+    k_rc = np.where(chosen_th.sum(axis=1) > 0, k_outer, k_bare)
+    r_crit = np.select([geometry == CYLINDER, geometry == SPHERE], [k_rc / h_total, 2 * k_rc / h_total], np.nan)
+    put = ok & (chosen >= 0)
+    has_mat = np.array([bool(L.materials) for L in lines])
     v = res.values
-    put = computed
-    v["t_surface"][put] = sol.t_surface[put]
-    v["heat_flux"][put] = sol.q[put]
-    v["heat_loss_per_length"][put] = rate[put]
-    v["heat_loss"][put] = whole[put]
-    v["bare_heat_loss"][put] = bare_whole[put]
-    v["annual_energy"][put] = energy[put]
-    v["annual_cost"][put] = (bought * price)[put]
-    v["annual_saving"][put] = ((bare_bought - bought) * price)[put]
-    v["co2"][put] = (bought * float(st["emission_factor"]))[put]
+    saving = (bare_bought - bought) * price
+    inst = cost[rows, pick]
+    values = {
+        "thickness": chosen_th.sum(axis=1), "t_surface": sol.t_surface, "heat_flux": sol.q,
+        "heat_loss_per_length": np.where(geometry == CYLINDER, rate, np.nan), "heat_loss": loss,
+        "bare_heat_loss": bare_loss, "annual_energy": energy, "annual_cost": bought * price,
+        "annual_saving": saving, "co2": bought * float(st["emission_factor"]),
+        "dew_point": dew[first_case], "installed_cost": inst,
+        "payback": np.where(saving > 0, inst / np.where(saving > 0, saving, 1.0), np.nan),
+        "t_interface": np.where(np.sum(chosen_th > 0, axis=1) == 2, sol.faces[:, 1], np.nan),
+    }
+    for key, arr in values.items():
+        v[key][put] = arr[put]
     v["critical_radius"][put & has_mat] = r_crit[put & has_mat]
-    v["governing"][:] = governing
+    v["governing"][:] = np.where(put, governing, None)
 
-    for i, L in enumerate(lines):
-        notes = res.notes[i]
-        if not computed[i]:
-            continue
-        th = chosen[i]
-        name = L.material.name if L.material is not None else ""
-        v["layers"][i] = _layers(th, L.material, us) if th > 0 else "bare"
-        if not sol.converged[i] or abs(sol.residual[i]) > 1e-6:
-            notes.append(Note("error", "not-converged", "the surface balance did not converge; "
-                              "check the inputs of this line", t.sheet, t.cell(i, "tag")))
-        if th > 0 and not c.in_range[i, thick_idx[i]]:
-            tm = 0.5 * (sol.faces[i, 0] + sol.faces[i, 1])
-            m = L.material
-            notes.append(Note("error", "k-out-of-range",
-                              f"{name}: conductivity is needed at a mean temperature of "
-                              f"{show(tm, 'temperature', us)}, outside its points "
-                              f"({show(m.mean_temperatures[0], 'temperature', us)} to "
-                              f"{show(m.mean_temperatures[-1], 'temperature', us)}); add points to the "
-                              "Materials sheet", t.sheet, t.cell(i, "insulation")))
-        if th > 0 and abs(whole[i]) > abs(bare_whole[i]):
-            notes.append(Note("warning", "more-than-bare",
-                              f"this system {'loses' if hot[i] else 'gains'} more heat than the bare line "
-                              f"({show(abs(whole[i]), 'power', us)} against {show(abs(bare_whole[i]), 'power', us)}): "
-                              f"the outer radius {show(sol.r_outer[i], 'radius', us)} is below the critical "
-                              f"radius {show(r_crit[i], 'radius', us)} of {name}", t.sheet, t.cell(i, "tag")))
-        if hot[i] and sol.t_surface[i] > PERSONNEL_LIMIT_K and not (
-                "surface temperature" in given and given["surface temperature"][i]):
-            notes.append(Note("caution", "hot-surface",
-                              f"surface {show(sol.t_surface[i], 'temperature', us)} is above 60 °C, the usual "
-                              "personnel-protection limit (common practice; ASTM C1055 limits depend on "
-                              "contact time and surface material): guard it or set 'Max surface temperature'",
-                              t.sheet, t.cell(i, "tag")))
-        if not hot[i]:
-            if sol.t_surface[i] < dew[i] + float(st["condensation_margin"]) - 1e-9:
-                notes.append(Note("warning", "condensation",
-                                  f"surface {show(sol.t_surface[i], 'temperature', us)} is below the dew point "
-                                  f"{show(dew[i], 'temperature', us)} plus margin: condensation is expected; "
-                                  "set 'Prevent condensation' yes", t.sheet, t.cell(i, "tag")))
-            notes.append(Note("caution", "vapour-retarder",
-                              "cold line: a continuous vapour retarder is required; this calculation does "
-                              "not cover moisture ingress", t.sheet, t.cell(i, "tag")))
-        if sol.convection.outside[i]:
-            notes.append(Note("info", "correlation-range",
-                              f"{' / '.join(CORRELATION_NAMES[L.shape])}: used outside its published "
-                              "range for this line; treat h as an estimate", t.sheet, t.cell(i, "tag")))
+    for i in np.flatnonzero(put):
+        _notes(i, lines[i], res, t, chosen_th[i], c, chosen[i], starts[i], case_cond, given, meets,
+               sol, loss, bare_loss, r_crit, dew, first_case, us, margin, unmet[i], last[i],
+               governing[i], gov_cond[i], tmax, qmax, tmin)
     for i in range(n):
         lv = {nt.level for nt in res.notes[i]}
         res.status.append("error" if "error" in lv or not lines[i].ok else
@@ -429,51 +334,195 @@ def specify(inputs: Inputs) -> Results:
     return res
 
 
-def _first(mask: np.ndarray) -> np.ndarray:
-    """Index of the first True per row, -1 where none."""
-    any_ = mask.any(axis=1)
-    return np.where(any_, np.argmax(mask, axis=1), -1)
+def _whole(geometry, rate, lengths, areas):
+    """Whole-line heat flow [W] from the heat rate: × length (cylinders), × area (flats)."""
+    extra = (1,) * (np.ndim(rate) - 1)
+    g = np.reshape(geometry, (-1,) + extra)
+    lengths, areas = np.reshape(lengths, (-1,) + extra), np.reshape(areas, (-1,) + extra)
+    return np.select([g == CYLINDER, g == FLAT], [rate * lengths, rate * areas], rate)
 
 
-def _dew(c: Condition) -> float:
-    return float(_dew_cached(round(c.t_air, 6), round(c.rh, 6)))
+def _energy_cost(whole, hours, st):
+    energy = economics.annual_energy_kwh(whole, hours)
+    bought = economics.energy_bought_kwh(energy, float(st["heating_efficiency"]), float(st["cooling_cop"]))
+    return bought * float(st["energy_price"])
 
 
-_DEW: dict[tuple[float, float], float] = {}
+def _installed_cost(lines, cand, base, st, res, t):
+    """Installed cost of every candidate (lines × candidates), NaN where a cost is missing.
+
+    insulation volume × 'Cost per volume' of its material + outer area × 'Jacket cost per
+    area' + Σ over layers of the layer's area at its mid-radius × 'Labour per layer'.
+    Lines with 'Economic' get an error naming what is missing.
+    """
+    n, m, slots = cand.shape
+    jacket = float(st["jacket_cost_per_area"])
+    labour = float(st["labour_per_layer"])
+    geometry = base.geometry[:, None]
+    r0 = base.r_inner[:, None]
+    lengths = np.array([L.length for L in lines])[:, None]
+    areas = np.array([L.area for L in lines])[:, None]
+
+    def area_at(r):
+        return np.select([geometry == CYLINDER, geometry == SPHERE],
+                         [2 * np.pi * r * lengths, 4 * np.pi * r * r], np.broadcast_to(areas, r.shape))
+
+    def volume(r1, r2):
+        return np.select([geometry == CYLINDER, geometry == SPHERE],
+                         [np.pi * (r2**2 - r1**2) * lengths, 4 / 3 * np.pi * (r2**3 - r1**3)],
+                         areas * (r2 - r1))
+
+    total = np.zeros((n, m))
+    r = np.broadcast_to(r0, (n, m)).copy()
+    for j in range(slots):
+        th = np.nan_to_num(cand[:, :, j])
+        price = np.array([L.materials[j].cost_per_volume if j < len(L.materials) else 0.0 for L in lines])[:, None]
+        max_layer = np.array([L.materials[j].max_layer if j < len(L.materials) else np.inf for L in lines])[:, None]
+        layers = np.where(th > 0, np.ceil(th / max_layer - 1e-9), 0)
+        r2 = r + th
+        total = total + price * volume(r, r2) + labour * layers * area_at(0.5 * (r + r2))
+        r = r2
+    total = total + jacket * area_at(r)
+    total = np.where(np.isfinite(cand[:, :, 0]), total, np.nan)
+    for i, L in enumerate(lines):
+        if not (L.economic and L.ok):
+            continue
+        missing = [f"'Cost per volume' of {mm.name} (Materials sheet)" for mm in L.materials
+                   if not np.isfinite(mm.cost_per_volume)]
+        missing += [f"the setting {name!r}" for name, val in (("Jacket cost per area", jacket),
+                                                           ("Labour per layer", labour)) if not np.isfinite(val)]
+        if missing:
+            res.notes[i].append(Note("error", "economic-costs",
+                                     "'Economic' needs " + ", ".join(missing) + "; give them, or leave "
+                                     "'Economic' blank", t.sheet, t.cell(i, "economic")))
+    return total
 
 
-def _dew_cached(t_air: float, rh: float) -> float:
-    if (t_air, rh) not in _DEW:
-        _DEW[(t_air, rh)] = float(dew_point(t_air, rh)[0])
-    return _DEW[(t_air, rh)]
+def layers_text(th: np.ndarray, materials: list[library.Material], us: bool,
+                t_interface: float = np.nan) -> str:
+    parts = []
+    for thick, m in zip(th, materials, strict=False):
+        if thick <= 0:
+            continue
+        count = max(1, math.ceil(thick / m.max_layer - 1e-9)) if np.isfinite(m.max_layer) else 1
+        each = show(thick / count, "thickness", us)
+        parts.append(f"{count} × {each} {m.name}" if count > 1 else f"{each} {m.name}")
+    text = " + ".join(parts) if parts else "bare"
+    if len(parts) == 2 and np.isfinite(t_interface):
+        text += f" (interface {show(t_interface, 'temperature', us)})"
+    return text
 
 
-def _layers(th: float, m: library.Material | None, us: bool) -> str:
-    if m is None:
-        return show(th, "thickness", us)
-    n = max(1, math.ceil(th / m.max_layer - 1e-9)) if np.isfinite(m.max_layer) else 1
-    each = show(th / n, "thickness", us)
-    return f"{n} × {each} {m.name}" if n > 1 else f"{each} {m.name}"
+def _notes(i, L, res, t, th, c, k, start, case_cond, given, meets, sol, loss, bare_loss, r_crit,
+           dew_case, first_case, us, margin, unmet, last, governing, gov_cond, tmax, qmax, tmin):
+    """Words for one computed line: the layers, then every warning and caution."""
+    dew = dew_case[first_case]
+    notes = res.notes[i]
+    sheet = t.sheet
+    v = res.values
+    v["layers"][i] = layers_text(th, L.materials, us, v["t_interface"][i])
+    names = " + ".join(m.name for m in L.materials)
+    hot = L.t_op >= L.conditions[0].t_air
+    ncase = len(L.conditions)
+    if unmet:
+        missed = [name for name in GOVERNING_ORDER if name in given and given[name][i] and not meets[name][i, last]]
+        thick = show(float(np.nansum(c.thickness[start, last])), "thickness", us)
+        cases = list(range(start, start + ncase))
 
+        def at(j):
+            return f" at condition '{case_cond[j].name}'" if ncase > 1 else ""
 
-def _missed(name, i, last, c, t, dew, st, us, L) -> str:
-    th = show(c.thickness[i, last], "thickness", us)
-    mat = L.material.name if L.material else ""
-    if name == "surface temperature":
-        return (f"'Max surface temperature' {show(t.get('max_surface_temperature')[i], 'temperature', us)} "
-                f"is not met by any sold thickness: {show(c.t_surface[i, last], 'temperature', us)} at "
-                f"{th}, the thickest of {mat}")
-    if name == "heat loss":
-        per_area = t.columns["max_heat_loss"].si_unit == "W/m**2"
-        kind = "per_area" if per_area else "per_length"
-        got = abs(c.q[i, last]) if per_area else abs(c.heat_rate[i, last])
-        return (f"'Max heat loss' {show(t.get('max_heat_loss')[i], kind, us)} is not met by any sold "
-                f"thickness: {show(got, kind, us)} at {th}, the thickest of {mat}")
-    if name == "minimum":
-        return (f"'Min thickness' {show(t.get('min_thickness')[i], 'thickness', us)} is more than the "
-                f"thickest sold {th} of {mat}")
-    if name == "condensation":
-        return (f"condensation is not prevented by any sold thickness: surface "
-                f"{show(c.t_surface[i, last], 'temperature', us)} at {th} against a dew point of "
-                f"{show(dew[i], 'temperature', us)} plus {show(float(st['condensation_margin']), 'difference', us)}")
-    return f"{name} target not met"
+        words, worst_j = [], []
+        for name in missed:
+            j = start
+            if name == "surface temperature":
+                j = max(cases, key=lambda j: c.t_surface[j, last])
+                words.append(f"'Max surface temperature' {show(tmax[i], 'temperature', us)} is not met by "
+                             f"any sold thickness: {show(c.t_surface[j, last], 'temperature', us)} at {thick}"
+                             f"{at(j)}, the thickest of {names}")
+            elif name == "heat loss":
+                per_area = t.columns["max_heat_loss"].si_unit == "W/m**2"
+                kind = "per_area" if per_area else "per_length"
+                size = np.abs(c.q[:, last]) if per_area else np.abs(c.heat_rate[:, last])
+                j = max(cases, key=lambda j: size[j])
+                words.append(f"'Max heat loss' {show(qmax[i], kind, us)} is not met by any sold thickness: "
+                             f"{show(size[j], kind, us)} at {thick}{at(j)}, the thickest of {names}")
+            elif name == "minimum":
+                words.append(f"'Min thickness' {show(tmin[i], 'thickness', us)} is more than the thickest "
+                             f"sold {thick} of {names}")
+            elif name == "condensation":
+                j = min(cases, key=lambda j: c.t_surface[j, last] - dew_case[j])
+                words.append(f"condensation is not prevented by any sold thickness: surface "
+                             f"{show(c.t_surface[j, last], 'temperature', us)} at {thick}{at(j)} against a dew "
+                             f"point of {show(dew_case[j], 'temperature', us)} plus {show(margin, 'difference', us)}")
+            elif name == "interface":
+                words.append(f"no sold inner thickness of {L.materials[0].name} keeps the interface within "
+                             f"{show(L.materials[1].max_temperature, 'temperature', us)}, the limit of "
+                             f"{L.materials[1].name}")
+            worst_j.append(j)
+        if not words:
+            words = ["no sold thickness gives a valid result: the material's conductivity points do not "
+                     "cover the temperatures of this line"]
+        notes.append(Note("error", "target-not-met", "; ".join(words), sheet, t.cell(i, "tag")))
+        res.values["governing"][i] = (missed[0] if missed else "none") + " (not met)"
+        if worst_j:
+            res.values["governing_condition"][i] = case_cond[worst_j[0]].name
+        return
+    if L.fixed:
+        for name in given:
+            if given[name][i] and not meets[name][i, 0]:
+                notes.append(Note("warning", "target-not-met",
+                                  f"the fixed thickness does not meet the {name} target", sheet,
+                                  t.cell(i, "fixed_thickness")))
+    if governing == "none":
+        notes.append(Note("warning", "no-target",
+                          "no target on this line: the thinnest sold thickness is shown; give 'Max surface "
+                          "temperature', 'Max heat loss', 'Prevent condensation', 'Min thickness' or "
+                          "'Economic'", sheet, t.cell(i, "tag")))
+    if ncase > 1 and gov_cond and governing not in ("fixed", "none"):
+        notes.append(Note("info", "governing-condition",
+                          f"{governing} judged at every named condition; '{gov_cond}' governed. Results "
+                          f"are given at '{L.conditions[0].name}'", sheet, t.cell(i, "condition")))
+    if not sol.converged[i] or abs(sol.residual[i]) > 1e-6:
+        notes.append(Note("error", "not-converged", "the surface balance did not converge; check the "
+                          "inputs of this line", sheet, t.cell(i, "tag")))
+    if th.sum() > 0 and not c.in_range[start, k]:
+        for j, m in enumerate(L.materials):
+            tm = 0.5 * (sol.faces[i, j] + sol.faces[i, j + 1])
+            if th[j] > 0 and not (m.mean_temperatures[0] - 1e-9 <= tm <= m.mean_temperatures[-1] + 1e-9):
+                notes.append(Note("error", "k-out-of-range",
+                                  f"{m.name}: conductivity is needed at a mean temperature of "
+                                  f"{show(tm, 'temperature', us)}, outside its points "
+                                  f"({show(m.mean_temperatures[0], 'temperature', us)} to "
+                                  f"{show(m.mean_temperatures[-1], 'temperature', us)}); add points to "
+                                  "the Materials sheet", sheet, t.cell(i, "insulation")))
+    if th.sum() > 0 and abs(loss[i]) > abs(bare_loss[i]) and L.geometry != FLAT:
+        notes.append(Note("warning", "more-than-bare",
+                          f"this system {'loses' if hot else 'gains'} more heat than the bare line "
+                          f"({show(abs(loss[i]), 'power', us)} against {show(abs(bare_loss[i]), 'power', us)}): "
+                          f"the outer radius {show(sol.r_outer[i], 'radius', us)} is below the critical "
+                          f"radius {show(r_crit[i], 'radius', us)} of {names}", sheet, t.cell(i, "tag")))
+    has_limit = tmax is not None and np.isfinite(tmax[i])
+    if hot and sol.t_surface[i] > PERSONNEL_LIMIT_K and not has_limit:
+        notes.append(Note("caution", "hot-surface",
+                          f"surface {show(sol.t_surface[i], 'temperature', us)} is above 60 °C, the usual "
+                          "personnel-protection limit (common practice; ASTM C1055 limits depend on contact "
+                          "time and surface material): guard it or set 'Max surface temperature'",
+                          sheet, t.cell(i, "tag")))
+    if not hot:
+        if sol.t_surface[i] < dew[i] + margin - 1e-9:
+            notes.append(Note("warning", "condensation",
+                              f"surface {show(sol.t_surface[i], 'temperature', us)} is below the dew point "
+                              f"{show(dew[i], 'temperature', us)} plus margin: condensation is expected; "
+                              "set 'Prevent condensation' yes", sheet, t.cell(i, "tag")))
+        notes.append(Note("caution", "vapour-retarder",
+                          "cold line: a continuous vapour retarder is required; this calculation does not "
+                          "cover moisture ingress", sheet, t.cell(i, "tag")))
+    if sol.convection.outside[i]:
+        notes.append(Note("info", "correlation-range",
+                          f"{' / '.join(CORRELATION_NAMES[L.shape])}: used outside its published range for "
+                          "this line; treat h as an estimate", sheet, t.cell(i, "tag")))
+    payback = res.values["payback"][i]
+    if np.isfinite(payback) and governing == "economic":
+        notes.append(Note("info", "payback", f"simple payback against bare: {payback:.1f} years",
+                          sheet, t.cell(i, "tag")))

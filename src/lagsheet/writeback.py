@@ -38,7 +38,7 @@ def lines_edits(raw: RawSheet, t: Table, res: Results, us: bool, currency: str) 
     next_col = max(t.last_col, 1)
     for out in schema.OUTPUTS:
         unit = out.us if us else out.si
-        if out.key in ("annual_cost", "annual_saving"):
+        if out.key in ("annual_cost", "annual_saving", "installed_cost"):
             unit = currency
         header = f"{out.header} [{unit}]" if unit else out.header
         col = existing.get(fold(out.header))

@@ -27,7 +27,8 @@ class System:
 
     ``geometry`` CYLINDER/FLAT/SPHERE; ``shape`` the convection code
     (:mod:`lagsheet.physics.surface`); ``r_inner`` bare outer radius [m] (flat: any);
-    ``height`` [m] for vertical free convection; ``thickness`` and ``material`` are
+    ``height`` [m] the free-convection length (height of vertical shapes, A/P of
+    horizontal plates); ``thickness`` and ``material`` are
     (n, layers), a zero thickness being no layer.
     """
 
@@ -42,6 +43,7 @@ class System:
     height: np.ndarray
     thickness: np.ndarray
     material: np.ndarray
+    flow_length: np.ndarray | None = None  # [m] along the wind, flat shapes (None: 1 m)
 
 
 @dataclass(frozen=True)
@@ -70,8 +72,9 @@ def solve(s: System, table: MaterialTable) -> Solution:
     radii = outer_radius(s.geometry, s.r_inner, s.thickness)
     g = geometric_lengths(s.geometry, radii)
     d_out = 2.0 * radii[:, -1]
+    flow = np.ones(n) if s.flow_length is None else s.flow_length
     q0, _ = surface_flux(s.shape, s.t_operating, s.t_air, s.t_surroundings, s.wind,
-                         s.emissivity, d_out, s.height)
+                         s.emissivity, d_out, s.height, flow)
     insulated = g.sum(axis=1) > 0
     zero = np.abs(q0) < 1e-12
     x = np.where(insulated & ~zero, np.nan, 1.0)
@@ -84,7 +87,8 @@ def solve(s: System, table: MaterialTable) -> Solution:
             q = xi * q0[idx]
             ts = march(table, s.material[idx], g[idx], s.t_operating[idx], q)[:, -1]
             qs, _ = surface_flux(s.shape[idx], ts, s.t_air[idx], s.t_surroundings[idx],
-                                 s.wind[idx], s.emissivity[idx], d_out[idx], s.height[idx])
+                                 s.wind[idx], s.emissivity[idx], d_out[idx], s.height[idx],
+                                 flow[idx])
             return xi - qs / q0[idx]
 
         res = find_root(residual, (np.zeros(todo.size), np.ones(todo.size)),
@@ -97,7 +101,7 @@ def solve(s: System, table: MaterialTable) -> Solution:
     faces = march(table, s.material, g, s.t_operating, q)
     ts = faces[:, -1]
     q_out, conv = surface_flux(s.shape, ts, s.t_air, s.t_surroundings, s.wind,
-                               s.emissivity, d_out, s.height)
+                               s.emissivity, d_out, s.height, flow)
     scale = np.maximum(np.maximum(np.abs(q), np.abs(q_out)), 1e-300)
     return Solution(
         q=q, faces=faces, radii=radii, convection=conv,

@@ -23,6 +23,7 @@ class AirProperties:
     """Air at the film temperature. Arrays of the same shape as the temperatures."""
 
     k: np.ndarray  # thermal conductivity [W/(m·K)]
+    mu: np.ndarray  # dynamic viscosity [Pa·s]
     nu: np.ndarray  # kinematic viscosity [m²/s]
     pr: np.ndarray  # Prandtl number [-]
     beta: np.ndarray  # volumetric expansion coefficient, ideal gas 1/T [1/K]
@@ -37,13 +38,13 @@ def air_coolprop(t: np.ndarray | float) -> AirProperties:
     k = np.asarray(PropsSI("L", "T", t, "P", P_ATM, "Air"), dtype=float)
     cp = np.asarray(PropsSI("C", "T", t, "P", P_ATM, "Air"), dtype=float)
     rho = np.asarray(PropsSI("D", "T", t, "P", P_ATM, "Air"), dtype=float)
-    return AirProperties(k=k, nu=mu / rho, pr=cp * mu / k, beta=1.0 / t)
+    return AirProperties(k=k, mu=mu, nu=mu / rho, pr=cp * mu / k, beta=1.0 / t)
 
 
 @lru_cache(maxsize=1)
-def _table() -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def _table() -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     a = air_coolprop(T_TABLE)
-    return a.k, a.nu, a.pr
+    return a.k, a.mu, a.nu, a.pr
 
 
 def air(t_film: np.ndarray) -> AirProperties:
@@ -52,10 +53,11 @@ def air(t_film: np.ndarray) -> AirProperties:
     Temperatures outside 150–1500 K are clamped to the table's ends (the solver may
     probe there while it brackets; final film temperatures of real lines lie inside).
     """
-    k, nu, pr = _table()
+    k, mu, nu, pr = _table()
     t = np.clip(np.asarray(t_film, dtype=float), T_TABLE[0], T_TABLE[-1])
     return AirProperties(
         k=np.interp(t, T_TABLE, k),
+        mu=np.interp(t, T_TABLE, mu),
         nu=np.interp(t, T_TABLE, nu),
         pr=np.interp(t, T_TABLE, pr),
         beta=1.0 / t,

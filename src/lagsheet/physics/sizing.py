@@ -1,9 +1,10 @@
-"""The thickness search: every candidate thickness of every line solved in one call.
+"""The thickness search: every candidate system of every line solved in one call.
 
-A line's candidates are the total thicknesses on sale for its material (a padded
-matrix, NaN where a line has fewer). The engine solves all (line, candidate) pairs as
-one flat :class:`~lagsheet.physics.balance.System` and returns matrices; choosing
-among them is the job of :mod:`lagsheet.spec`.
+A candidate is a set of layer thicknesses (one per material slot: inner, outer); a
+line's candidates form a padded array (lines × candidates × slots), NaN where a line
+has fewer. The engine solves all (line, candidate) pairs as one flat
+:class:`~lagsheet.physics.balance.System` and returns matrices; choosing among them is
+the job of :mod:`lagsheet.spec`.
 """
 
 from __future__ import annotations
@@ -12,7 +13,7 @@ from dataclasses import dataclass, fields
 
 import numpy as np
 
-from .balance import Solution, System, solve
+from .balance import System, solve
 from .layers import CYLINDER, SPHERE, MaterialTable
 
 
@@ -20,10 +21,11 @@ from .layers import CYLINDER, SPHERE, MaterialTable
 class Candidates:
     """Results per line (rows) and candidate (columns); NaN where no candidate."""
 
-    thickness: np.ndarray  # [m]
+    thickness: np.ndarray  # (n, m, slots) [m]
     q: np.ndarray  # outer heat flux [W/m²]
     t_surface: np.ndarray  # [K]
-    heat_rate: np.ndarray  # per unit length (cylinder) [W/m], per area (flat) [W/m²], whole (sphere) [W]
+    faces: np.ndarray  # (n, m, slots + 1) face temperatures [K], inner first
+    heat_rate: np.ndarray  # per length (cylinder) [W/m], per area (flat) [W/m²], whole (sphere) [W]
     r_outer: np.ndarray  # [m]
     in_range: np.ndarray  # every layer's mean temperature within its material's points
     converged: np.ndarray
@@ -35,46 +37,49 @@ def heat_rate(geometry, q, r_outer):
                      [q * 2 * np.pi * r_outer, q * 4 * np.pi * r_outer**2], q)
 
 
-def expand(base: System, thickness: np.ndarray, material: np.ndarray) -> tuple[System, np.ndarray]:
-    """One flat System of every (line, candidate) pair with a finite thickness.
-
-    ``base`` gives the per-line values (its own layers ignored); ``thickness`` is
-    (n, m) total thicknesses, built as one layer of ``material`` (n,).
-    Returns the system and the flat indices of the pairs.
-    """
-    n, m = thickness.shape
-    pick = np.flatnonzero(np.isfinite(thickness).ravel())
-    line = pick // m
-    per_line = {f.name: getattr(base, f.name) for f in fields(base)
-                if f.name not in ("thickness", "material")}
-    s = System(**{k: v[line] for k, v in per_line.items()},
-               thickness=thickness.ravel()[pick][:, None],
-               material=np.asarray(material)[line][:, None])
-    return s, pick
+def per_line(system: System, rows: np.ndarray, **replace) -> System:
+    """The lines ``rows`` of ``system`` (repeats allowed), with some fields replaced."""
+    values = {}
+    for f in fields(system):
+        if f.name in replace:
+            values[f.name] = replace[f.name]
+        else:
+            v = getattr(system, f.name)
+            values[f.name] = None if v is None else v[rows]
+    return System(**values)
 
 
 def evaluate(base: System, thickness: np.ndarray, material: np.ndarray,
              table: MaterialTable) -> Candidates:
-    """Solve every candidate of every line at once."""
-    n, m = thickness.shape
-    s, pick = expand(base, thickness, material)
-    sol: Solution = solve(s, table)
+    """Solve every candidate of every line at once.
+
+    ``base`` gives the per-line values (its own layers ignored); ``thickness`` is
+    (n, m, slots) and ``material`` (n, slots) the material of each slot.
+    """
+    n, m, k = thickness.shape
+    finite = np.isfinite(thickness).all(axis=2).ravel()
+    pick = np.flatnonzero(finite)
+    line = pick // m
+    s = per_line(base, line, thickness=thickness.reshape(n * m, k)[pick],
+                 material=np.asarray(material)[line])
+    sol = solve(s, table)
 
     def mat(values, fill=np.nan):
-        out = np.full(n * m, fill, dtype=np.asarray(values).dtype)
+        values = np.asarray(values)
+        out = np.full((n * m,) + values.shape[1:], fill, dtype=values.dtype)
         out[pick] = values
-        return out.reshape(n, m)
+        return out.reshape((n, m) + values.shape[1:])
 
-    faces = sol.faces
     in_range = np.ones(len(pick), dtype=bool)
-    for j in range(s.thickness.shape[1]):
+    for j in range(k):
         layer = s.thickness[:, j] > 0
-        ok = table.mean_in_range(s.material[:, j], faces[:, j], faces[:, j + 1])
+        ok = table.mean_in_range(s.material[:, j], sol.faces[:, j], sol.faces[:, j + 1])
         in_range &= ~layer | ok
     return Candidates(
         thickness=thickness,
         q=mat(sol.q),
         t_surface=mat(sol.t_surface),
+        faces=mat(sol.faces),
         heat_rate=mat(heat_rate(s.geometry, sol.q, sol.r_outer)),
         r_outer=mat(sol.r_outer),
         in_range=mat(in_range, False),

@@ -1,0 +1,229 @@
+"""One line's inputs resolved to what the engine needs: shape, dimensions, conditions,
+materials and candidates, with a note for every problem.
+
+A plain loop over lines (resolving names and choices, not physics); the engine then
+solves every line at once.
+"""
+
+from __future__ import annotations
+
+import difflib
+import itertools
+import math
+import re
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from . import library, schema
+from .check import Table
+from .display import show
+from .errors import Note
+from .inputs import Condition, Inputs
+from .io.table import fold
+from .physics.layers import CYLINDER, FLAT, SPHERE
+from .physics.surface import PIPE, RISER, SPHERE_SHAPE, TOP, UNDERSIDE, VESSEL, WALL
+
+# shape word -> (convection code, conduction geometry)
+SHAPE_CODES = {
+    "pipe": (PIPE, CYLINDER), "riser": (RISER, CYLINDER), "vessel": (VESSEL, CYLINDER),
+    "wall": (WALL, FLAT), "top": (TOP, FLAT), "underside": (UNDERSIDE, FLAT),
+    "sphere": (SPHERE_SHAPE, SPHERE),
+}
+MAX_PAIR_CANDIDATES = 12  # inner thicknesses tried under an outer material
+
+
+@dataclass
+class Line:
+    """Resolved inputs of one line, SI."""
+
+    ok: bool = True
+    word: str = "pipe"
+    shape: int = PIPE
+    geometry: int = CYLINDER
+    r_inner: float = np.nan  # bare outer radius [m] (cylinders, spheres)
+    length: float = np.nan  # run length, or height of vessels and walls [m]
+    area: float = np.nan  # bare surface area of flat shapes [m²]
+    free_length: float = 1.0  # free-convection length [m]
+    flow_length: float = 1.0  # length along the wind for flat shapes [m]
+    t_op: float = np.nan
+    conditions: list[Condition] = field(default_factory=list)
+    materials: list[library.Material] = field(default_factory=list)  # inner first
+    emissivity: float = np.nan
+    bare_emissivity: float = np.nan
+    candidates: list[tuple[float, ...]] = field(default_factory=list)  # thickness per slot [m]
+    fixed: bool = False
+    economic: bool = False
+
+    @property
+    def per_length(self) -> bool:
+        return self.geometry == CYLINDER
+
+
+def sold(material: library.Material, settings: dict) -> tuple[float, ...]:
+    """Total thicknesses on sale for a material: its list, or every step to the maximum."""
+    if material.thicknesses:
+        base = material.thicknesses
+    else:
+        step, top = float(settings["thickness_step"]), float(settings["max_thickness"])
+        base = tuple(step * k for k in range(1, int(math.floor(top / step + 1e-9)) + 1))
+    return base
+
+
+def split_conditions(text: str) -> list[str]:
+    return [p.strip() for p in re.split(r"[;,]", text) if p.strip()]
+
+
+def resolve(t: Table, inputs: Inputs, i: int, notes: list[Note]) -> Line:
+    L = Line()
+    sheet, us, st = t.sheet, inputs.us_units, inputs.settings
+
+    def err(code: str, key: str, message: str):
+        notes.append(Note("error", code, message, sheet, t.cell(i, key)))
+        L.ok = False
+
+    def text(key):
+        v = t.get(key)
+        return None if v is None or v[i] in (None, "") else str(v[i])
+
+    def num(key):
+        v = t.get(key)
+        return float(v[i]) if v is not None else np.nan
+
+    words = ", ".join(schema.SHAPE_WORDS)
+    shape_word = text("shape")
+    if shape_word is None:
+        err("blank-shape", "shape", f"'Shape' is blank; write one of: {words}")
+    else:
+        w = schema.SHAPES.get(fold(shape_word))
+        if w is None:
+            near = difflib.get_close_matches(fold(shape_word), list(schema.SHAPES), n=2, cutoff=0.5)
+            err("unknown-shape", "shape", f"shape {shape_word!r} is not known; use one of: {words}"
+                + (f" (did you mean {', '.join(repr(x) for x in near)}?)" if near else ""))
+        else:
+            L.word = w
+            L.shape, L.geometry = SHAPE_CODES[w]
+    _dimensions(L, t, i, num, text, err, notes, us)
+    L.t_op = num("operating_temperature")
+    if not np.isfinite(L.t_op):
+        err("no-temperature", "operating_temperature", "'Operating temperature' is blank")
+    _conditions(L, inputs, text("condition") or "indoor", err)
+    fixed = num("fixed_thickness")
+    _materials(L, inputs, text("insulation"), text("outer_insulation"), fixed, err, us)
+    fname = text("finish") or "aluminium"
+    fin = library.lookup(inputs.finishes, fname)
+    if fin is None:
+        err("unknown-finish", "finish", f"finish {fname!r} is not known; use one of: "
+            f"{', '.join(f.name for f in inputs.finishes.values())}")
+    eps = num("surface_emissivity")
+    L.emissivity = eps if np.isfinite(eps) else (fin.emissivity if fin else np.nan)
+    L.bare_emissivity = float(st["bare_emissivity"])
+    economic = t.get("economic")
+    L.economic = economic is not None and economic[i] is True
+    if np.isfinite(fixed):
+        L.fixed = True
+        if fixed == 0:
+            L.candidates = [tuple(0.0 for _ in (L.materials or [None]))]
+            L.emissivity = eps if np.isfinite(eps) else L.bare_emissivity
+        elif len(L.materials) == 2:
+            err("fixed-two-materials", "fixed_thickness",
+                "'Fixed thickness' with 'Outer insulation' is ambiguous; give the inner and outer "
+                "materials as two lines, or leave 'Fixed thickness' blank to size them")
+        else:
+            L.candidates = [(fixed,)]
+    elif len(L.materials) == 1:
+        L.candidates = [(th,) for th in sold(L.materials[0], st)]
+    elif len(L.materials) == 2:
+        inner = sold(L.materials[0], st)[:MAX_PAIR_CANDIDATES]
+        outer = sold(L.materials[1], st)
+        L.candidates = sorted(itertools.product(inner, outer), key=lambda p: (p[0] + p[1], p[0]))
+    return L
+
+
+def _dimensions(L: Line, t: Table, i: int, num, text, err, notes, us) -> None:
+    sheet = t.sheet
+    if L.geometry == FLAT:
+        L.area = num("surface_area")
+        if not np.isfinite(L.area):
+            err("no-area", "surface_area", f"a {L.word} needs its 'Surface area'")
+            return
+        width = num("width")
+        L.length = num("length")
+        if L.word == "wall":
+            if not np.isfinite(L.length):
+                err("no-height", "length", "a wall needs its height in 'Length' (for natural convection)")
+                return
+            L.free_length = L.length
+            L.flow_length = width if np.isfinite(width) else L.area / L.length
+        else:
+            side = width if np.isfinite(width) else math.sqrt(L.area)
+            other = L.area / side
+            L.free_length = L.area / (2 * (side + other))  # A/P
+            L.flow_length = side
+        L.r_inner = 0.0
+        return
+    od, size = num("outside_diameter"), text("size")
+    if size is not None:
+        od_size = library.pipe_outside_diameter(size)
+        if od_size is None:
+            err("unknown-size", "size", f"size {size!r} is not a nominal pipe size lagsheet knows; "
+                "write e.g. NPS 4, 4\" or DN 100, or give 'Outside diameter' instead")
+        elif np.isfinite(od) and abs(od - od_size) > 0.001:
+            notes.append(Note("warning", "size-od-differ",
+                              f"'Size' {size} has an outside diameter of {show(od_size, 'radius', us)}, "
+                              f"not {show(od, 'radius', us)}; the given 'Outside diameter' is used",
+                              sheet, t.cell(i, "outside_diameter")))
+        elif not np.isfinite(od):
+            od = od_size
+    if not np.isfinite(od) and L.ok and size is None:
+        err("no-diameter", "outside_diameter", "give 'Size' or 'Outside diameter' for this line")
+    L.r_inner = od / 2
+    L.length = num("length")
+    if L.word == "sphere":
+        L.free_length = od
+        return
+    if not np.isfinite(L.length):
+        what = "height" if L.word in ("vessel", "riser") else "run length"
+        err("no-length", "length", f"'Length' is blank; give the {what}")
+    L.free_length = L.length if L.word in ("riser", "vessel") else od
+
+
+def _conditions(L: Line, inputs: Inputs, cname: str, err) -> None:
+    names = split_conditions(cname)
+    for name in names or ["indoor"]:
+        cond = inputs.conditions.get(fold(name))
+        if cond is None:
+            err("unknown-condition", "condition", f"condition {name!r} is not defined; add it to the "
+                "Conditions sheet or use one of: "
+                f"{', '.join(sorted(c.name for c in inputs.conditions.values()))}")
+        else:
+            L.conditions.append(cond)
+
+
+def _materials(L: Line, inputs: Inputs, mname, oname, fixed, err, us) -> None:
+    if mname is None:
+        if not (np.isfinite(fixed) and fixed == 0):
+            err("no-insulation", "insulation", "'Insulation' is blank; name a material "
+                f"({', '.join(m.name for m in library.materials().values())}) or set 'Fixed thickness' 0 for bare")
+        return
+    for key, name in (("insulation", mname), ("outer_insulation", oname)):
+        if name is None:
+            continue
+        mat = library.lookup(inputs.materials, name)
+        if mat is None:
+            names = sorted({m.name for m in inputs.materials.values()})
+            near = difflib.get_close_matches(fold(name), [fold(n) for n in names], n=2, cutoff=0.5)
+            err("unknown-material", key, f"material {name!r} is not in the Materials sheet "
+                "or the built-in library" + (f"; did you mean {', '.join(repr(x) for x in near)}?" if near
+                                             else f"; known: {', '.join(names)}"))
+            continue
+        L.materials.append(mat)
+    if L.materials and np.isfinite(L.t_op):
+        mat = L.materials[0]
+        if not (mat.min_temperature <= L.t_op <= mat.max_temperature):
+            err("service-range", "operating_temperature",
+                f"{show(L.t_op, 'temperature', us)} is outside the service range of {mat.name} "
+                f"({show(mat.min_temperature, 'temperature', us)} to "
+                f"{show(mat.max_temperature, 'temperature', us)}); choose another material"
+                + (" or put a higher-temperature material inside it ('Outer insulation')"
+                   if L.t_op > mat.max_temperature else ""))
