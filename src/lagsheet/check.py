@@ -43,6 +43,7 @@ class Column:
     message: str = ""
     si_unit: str = ""
     values: np.ndarray | None = None  # SI floats (numbers) or object array (text)
+    alternate: set[int] = field(default_factory=set)  # rows whose cell gave the field's other unit
 
     def report(self, sheet: str) -> dict:
         return {"sheet": sheet, "header": self.header, "field": self.field.key,
@@ -191,9 +192,17 @@ def _convert(sheet: RawSheet, t: Table, c: Column) -> None:
                               "type the number alone", sheet.name, address(t.rows[i], c.col)))
                 continue
             if unit is not None:
-                if not _same_dimension(unit, c):
+                si = _cell_si(unit, c)
+                if si is None:
                     t.add(i, Note("error", "cell-unit",
                                   f"{v!r} is not a {f.header.lower()} (column unit {unit_label(c.unit)})",
+                                  sheet.name, address(t.rows[i], c.col)))
+                    continue
+                if si != c.si_unit:
+                    c.alternate.add(i)  # e.g. '60 W/m²' typed in a W/m column
+                    nums[i] = to_si([number], unit, si, difference=difference)[0]
+                    t.add(i, Note("info", "text-quantity", f"{f.header!r} typed as text {v!r}: read "
+                                  f"as {_fmt(nums[i])} {si.replace('**2', '²')}",
                                   sheet.name, address(t.rows[i], c.col)))
                     continue
                 nums[i] = to_si([number], unit, c.si_unit, difference=difference)[0]
@@ -240,8 +249,14 @@ def _range_message(f: schema.Field, c: Column, raw) -> str:
     return f"{f.header!r} must be {' and '.join(parts)} (in SI): {raw!r}"
 
 
-def _same_dimension(unit, c: Column) -> bool:
-    return is_unit(unit, c.si_unit)
+def _cell_si(unit, c: Column) -> str | None:
+    """The SI unit a cell's own unit converts to: the column's, an accepted alternative, or None."""
+    if is_unit(unit, c.si_unit):
+        return c.si_unit
+    for dim, si in ((c.field.unit, c.field.si), *c.field.alt_units):
+        if is_unit(unit, dim):
+            return si
+    return None
 
 
 def _column_unit(t: Table, c: Column, here: str) -> bool:

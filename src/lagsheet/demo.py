@@ -1,9 +1,12 @@
 """The bundled demo: an invented plant of our own, with a few deliberate problems.
 
 Every name and number here is invented for the demonstration; none is a real site.
-The problems (a header without its unit, a diameter typed as text, a size that
-disagrees with its diameter, a chilled line left without condensation control, a hot
-line with no surface limit, a line with no target) produce warnings, not errors.
+The plant has steam, process and building-services pipes, a vessel, duct walls, a tank
+roof, a duct underside, a chilled sphere, an economic line, a two-material
+high-temperature line and lines judged at two conditions. The problems (a header
+without its unit, a diameter typed as text, a size that disagrees with its diameter,
+a chilled line left without condensation control, a hot line with no surface limit,
+lines with no target) produce warnings, not errors.
 """
 
 from __future__ import annotations
@@ -13,9 +16,11 @@ from pathlib import Path
 HEADERS = ["Tag", "Area", "Service", "Shape", "Size", "Outside diameter [mm]", "Length",
            "Operating temperature [°C]", "Condition", "Insulation", "Finish",
            "Max surface temperature [°C]", "Max heat loss [W/m]", "Prevent condensation",
-           "Min thickness [mm]", "Fixed thickness [mm]"]
+           "Min thickness [mm]", "Fixed thickness [mm]", "Surface area [m²]", "Outer insulation",
+           "Economic"]
 
-# (tag, area, service, shape, size, od, length, T, condition, insulation, finish, Tsmax, qmax, cond, tmin, fixed)
+# (tag, area, service, shape, size, od, length, T, condition, insulation, finish, Tsmax, qmax, cond,
+#  tmin, fixed[, surface area, outer insulation, economic])
 LINES = [
     ("ST-1001", "Boiler house", "HP steam header", "pipe", "NPS 10", None, 24, 250, "indoor", "mineral wool", "aluminium", 55, None, None, None, None),
     ("ST-1002", "Boiler house", "HP steam to turbine", "pipe", "NPS 8", None, 36, 250, "indoor", "calcium silicate", "aluminium", 55, None, None, None, None),
@@ -60,6 +65,15 @@ LINES = [
     ("CW-6006", "Building services", "Brine line", "pipe", "DN 50", None, 40, -10, "plant room", "cellular glass", "aluminium", None, None, "yes", None, None),
     ("UT-7001", "Utilities", "Compressor discharge", "pipe", "NPS 3", None, 25, 130, "indoor", "mineral wool", "aluminium", 60, None, None, None, None),
     ("UT-7002", "Utilities", "Spare heater line", "pipe", "NPS 2", None, 10, 90, "indoor", "mineral wool", "aluminium", None, None, None, None, None),
+    ("ST-1009", "Steam distribution", "HP steam main (economic)", "pipe", "NPS 10", None, 380, 250, "outdoor", "mineral wool", "aluminium", None, None, None, None, None, None, None, "yes"),
+    ("ST-1010", "Boiler house", "Superheated steam, two materials", "pipe", "NPS 8", None, 60, 480, "indoor", "mineral wool", "aluminium", 55, None, None, None, None, None, "cellular glass", None),
+    ("VS-8001", "Boiler house", "Feed water tank shell", "vessel", None, 2800, 6, 105, "indoor", "mineral wool", "aluminium", 50, None, None, None, None),
+    ("DU-8101", "Process area", "Hot air duct, sides", "wall", None, None, 1.8, 180, "outdoor", "mineral wool", "galvanised steel", None, "90 W/m²", None, None, None, 86),
+    ("DU-8102", "Process area", "Hot air duct, underside", "underside", None, None, None, 180, "outdoor", "mineral wool", "galvanised steel", None, "90 W/m²", None, None, None, 43),
+    ("DU-8103", "Process area", "Hot air duct, top", "top", None, None, None, 180, "outdoor", "mineral wool", "galvanised steel", None, "90 W/m²", None, None, None, 43),
+    ("TK-8201", "Tank farm", "Heated tank roof", "top", None, None, None, 70, "outdoor", "mineral wool", "aluminium", None, None, None, 50, None, 310),
+    ("SP-8301", "Building services", "Chilled glycol buffer sphere", "sphere", None, 3500, None, -5, "outdoor; summer", "cellular glass", "aluminium", None, None, "yes", None, None),
+    ("PR-3009", "Process area", "Hot oil to outdoor cooler", "pipe", "NPS 4", None, 80, 230, "outdoor; summer", "mineral wool", "aluminium", 60, 120, None, None, None),
 ]
 
 CONDITIONS = [
@@ -68,6 +82,12 @@ CONDITIONS = [
     ("indoor", 25, 25, 0, 55, 8000),
     ("outdoor", 5, 0, 4, 80, 8400),
     ("plant room", 28, 28, 0, 70, 6000),
+    ("summer", 34, 34, 0, 60, 8400),
+]
+
+MATERIALS = [
+    ("Name", "Cost per volume [EUR/m³]"),
+    ("mineral wool", 380),
 ]
 
 SETTINGS = [
@@ -77,11 +97,15 @@ SETTINGS = [
     ("Heating efficiency", 88, "%"),
     ("Cooling COP", 3.5, None),
     ("Emission factor", 0.20, "kg/kWh"),
+    ("Jacket cost per area", 28, "EUR/m²"),
+    ("Labour per layer", 18, "EUR/m²"),
+    ("Discount rate", 6, "%"),
+    ("Service life", 20, "yr"),
 ]
 
 
 def write_demo(path: Path) -> None:
-    """Write the demo schedule workbook (Lines, Conditions, Settings) to ``path``."""
+    """Write the demo schedule workbook (Lines, Conditions, Materials, Settings) to ``path``."""
     import openpyxl
     from openpyxl.styles import Font
     from openpyxl.worksheet.datavalidation import DataValidation
@@ -99,12 +123,14 @@ def write_demo(path: Path) -> None:
     for row in LINES:
         ws.append(list(row))
     ws.freeze_panes = "B5"
-    for col, width in zip("ABCDEFGHIJKLMNOP", (10, 18, 28, 8, 10, 12, 8, 14, 11, 17, 15, 13, 12, 12, 11, 12), strict=True):
+    for col, width in zip("ABCDEFGHIJKLMNOPQRS", (10, 18, 28, 8, 10, 12, 8, 14, 15, 17, 15, 13, 12, 12,
+                                                   11, 12, 11, 15, 9), strict=True):
         ws.column_dimensions[col].width = width
-    dv = DataValidation(type="list", formula1='"pipe,riser"', allow_blank=True)
+    dv = DataValidation(type="list", formula1='"pipe,riser,vessel,wall,top,underside,sphere"',
+                        allow_blank=True)
     ws.add_data_validation(dv)
     dv.add(f"D5:D{4 + len(LINES)}")
-    for name, rows in (("Conditions", CONDITIONS), ("Settings", SETTINGS)):
+    for name, rows in (("Conditions", CONDITIONS), ("Materials", MATERIALS), ("Settings", SETTINGS)):
         s = wb.create_sheet(name)
         for r in rows:
             s.append(list(r))

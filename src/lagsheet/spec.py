@@ -182,16 +182,15 @@ def specify(inputs: Inputs) -> Results:
         worst["surface temperature"] = c.t_surface
     qmax = t.get("max_heat_loss")
     if qmax is not None:
-        per_area = t.columns["max_heat_loss"].si_unit == "W/m**2"
+        per_area = _per_area(t, n)
         g = np.isfinite(qmax)
-        if not per_area:
-            for i in np.flatnonzero(g & (geometry != CYLINDER) & ok):
-                res.notes[i].append(Note("error", "heat-loss-unit",
-                                         "'Max heat loss' is per length (W/m) but this line is flat or a "
-                                         "sphere; give its limit in a W/m² column", t.sheet,
-                                         t.cell(i, "max_heat_loss")))
-                lines[i].ok = ok[i] = False
-        measure = np.abs(c.q) if per_area else np.abs(c.heat_rate)
+        for i in np.flatnonzero(g & ~per_area & (geometry != CYLINDER) & ok):
+            res.notes[i].append(Note("error", "heat-loss-unit",
+                                     "'Max heat loss' is per length (W/m) but this line is flat or a "
+                                     "sphere; type its limit with its unit, e.g. '60 W/m²'", t.sheet,
+                                     t.cell(i, "max_heat_loss")))
+            lines[i].ok = ok[i] = False
+        measure = np.where(per_area[case_line][:, None], np.abs(c.q), np.abs(c.heat_rate))
         given["heat loss"] = g
         meets["heat loss"] = all_cases(measure <= qmax[case_line][:, None] * (1 + 1e-12))
         worst["heat loss"] = measure
@@ -334,6 +333,15 @@ def specify(inputs: Inputs) -> Results:
     return res
 
 
+def _per_area(t, n: int) -> np.ndarray:
+    """Per line: is its 'Max heat loss' per square metre of outer surface (else per metre)?"""
+    col = t.columns["max_heat_loss"]
+    base = col.si_unit == "W/m**2"
+    out = np.full(n, base)
+    out[list(col.alternate)] = not base
+    return out
+
+
 def _whole(geometry, rate, lengths, areas):
     """Whole-line heat flow [W] from the heat rate: × length (cylinders), × area (flats)."""
     extra = (1,) * (np.ndim(rate) - 1)
@@ -441,7 +449,7 @@ def _notes(i, L, res, t, th, c, k, start, case_cond, given, meets, sol, loss, ba
                              f"any sold thickness: {show(c.t_surface[j, last], 'temperature', us)} at {thick}"
                              f"{at(j)}, the thickest of {names}")
             elif name == "heat loss":
-                per_area = t.columns["max_heat_loss"].si_unit == "W/m**2"
+                per_area = bool(_per_area(t, res.n)[i])
                 kind = "per_area" if per_area else "per_length"
                 size = np.abs(c.q[:, last]) if per_area else np.abs(c.heat_rate[:, last])
                 j = max(cases, key=lambda j: size[j])

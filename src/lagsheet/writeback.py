@@ -46,6 +46,9 @@ def lines_edits(raw: RawSheet, t: Table, res: Results, us: bool, currency: str) 
             col = next_col
             next_col += 1
         e.values[(header_row, col)] = header
+        if col not in existing.values():
+            e.headers[(header_row, col)] = (header_row, _style_source(raw, header_row))
+            e.widths[col] = 60.0 if out.key == "notes" else max(10.0, min(len(header) + 2.0, 24.0))
         if t.units_row is not None:
             e.values[(t.units_row, col)] = unit or None
         values = _column(out, res, us)
@@ -61,6 +64,15 @@ def lines_edits(raw: RawSheet, t: Table, res: Results, us: bool, currency: str) 
                 if pos is not None and pos[0] == r:
                     e.comments[pos] = (e.comments[pos] + "\n" if pos in e.comments else "") + nt.message
     return e
+
+
+def _style_source(raw: RawSheet, header_row: int) -> int:
+    """The last header cell holding text: new headers copy its look."""
+    row = raw.grid[header_row] if header_row < len(raw.grid) else []
+    for c in range(len(row) - 1, -1, -1):
+        if row[c] not in ("", None):
+            return c
+    return 0
 
 
 def _column(out: schema.Output, res: Results, us: bool) -> list:

@@ -76,6 +76,8 @@ class SheetEdits:
     values: dict[tuple[int, int], Any] = field(default_factory=dict)
     number_formats: dict[tuple[int, int], str] = field(default_factory=dict)
     comments: dict[tuple[int, int], str] = field(default_factory=dict)
+    headers: dict[tuple[int, int], tuple[int, int]] = field(default_factory=dict)  # new header -> cell to copy style from
+    widths: dict[int, float] = field(default_factory=dict)  # column -> width (characters), new columns only
 
 
 class Book(Protocol):

@@ -58,7 +58,10 @@ class XlsxBook:
         return self._sheets[name]
 
     def save(self, edits: list[SheetEdits], out: Path) -> None:
+        from copy import copy
+
         from openpyxl.comments import Comment
+        from openpyxl.utils import get_column_letter
 
         for e in edits:
             ws = self._wb[e.sheet] if e.sheet in self._wb.sheetnames else self._wb.create_sheet(e.sheet)
@@ -71,6 +74,14 @@ class XlsxBook:
                 fmt = e.number_formats.get((r, c))
                 if fmt:
                     cell.number_format = fmt
+            for (r, c), (sr, sc) in e.headers.items():
+                src, dst = ws.cell(sr + 1, sc + 1), ws.cell(r + 1, c + 1)
+                if src.has_style:
+                    dst._style = copy(src._style)  # the header row's look, as openpyxl copies styles
+            for c, width in e.widths.items():
+                letter = get_column_letter(c + 1)
+                if ws.column_dimensions[letter].width in (None, 13.0):
+                    ws.column_dimensions[letter].width = width
             for (r, c), text in e.comments.items():
                 cell = ws.cell(r + 1, c + 1)
                 if cell.comment is None:  # a person's comment is never replaced
