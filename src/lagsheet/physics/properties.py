@@ -1,21 +1,34 @@
-"""Properties of air, from CoolProp, tabulated once and interpolated for the engine.
+"""Properties of air and of water vapour in air, from CoolProp, shipped as tables.
 
-One ``PropsSI`` call costs tens of microseconds; a schedule needs millions of property
-evaluations during the surface-balance solve, so the engine reads a table built from
-CoolProp at the first use (film temperatures 150 K to 1500 K at 101 325 Pa, every 2 K)
-and interpolates linearly. ``tests/reference/test_air_properties.py`` holds the table
-within 0.5 % of CoolProp between the knots.
+The engine needs millions of property values per run; one ``PropsSI`` call costs tens
+of microseconds and importing CoolProp several seconds. So the tables in
+``lagsheet/data`` are built from CoolProp by :func:`write_tables` (run
+``python -m lagsheet.physics.properties``) and the engine interpolates in them:
+
+- ``air_table.csv``: dry air at 101 325 Pa, 150–1500 K every 2 K: k, μ, ν, Pr
+  (``PropsSI`` 'L', 'V', 'D', 'C'); linear interpolation, held within 0.5 % of
+  CoolProp by ``tests/reference/test_air_properties.py``;
+- ``water_saturation.csv``: the partial pressure of water in saturated moist air at
+  101 325 Pa (``HAPropsSI('P_w', 'T', T, 'P', 101325, 'R', 1)``, enhancement factor
+  included), 190–360 K every 0.5 K; the dew point inverts it (ln p linear in T), and a
+  test holds it within 0.02 K of ``HAPropsSI('D', ...)``.
+
+A test rebuilds both tables from CoolProp and compares them with the shipped files.
 """
 
 from __future__ import annotations
 
+import csv
 from dataclasses import dataclass
 from functools import lru_cache
+from importlib.resources import files
+from pathlib import Path
 
 import numpy as np
 
 P_ATM = 101325.0  # Pa, standard atmosphere
-T_TABLE = np.arange(150.0, 1500.0 + 1e-9, 2.0)  # K
+T_AIR = np.arange(150.0, 1500.0 + 1e-9, 2.0)  # K, air table knots
+T_WATER = np.arange(190.0, 360.0 + 1e-9, 0.5)  # K, water saturation knots
 
 
 @dataclass(frozen=True)
@@ -41,41 +54,78 @@ def air_coolprop(t: np.ndarray | float) -> AirProperties:
     return AirProperties(k=k, mu=mu, nu=mu / rho, pr=cp * mu / k, beta=1.0 / t)
 
 
+def water_saturation_coolprop(t: np.ndarray) -> np.ndarray:
+    """Partial pressure of water in saturated moist air at ``t`` [K] and 101 325 Pa [Pa]."""
+    from CoolProp.HumidAirProp import HAPropsSI
+
+    return np.array([HAPropsSI("P_w", "T", float(x), "P", P_ATM, "R", 1.0) for x in np.atleast_1d(t)])
+
+
+def write_tables(folder: Path) -> None:
+    """Build both tables from CoolProp into ``folder`` (the shipped ones live in lagsheet/data)."""
+    a = air_coolprop(T_AIR)
+    with open(folder / "air_table.csv", "w", newline="", encoding="utf-8") as fh:
+        w = csv.writer(fh)
+        w.writerow(["T_K", "k_W_mK", "mu_Pa_s", "nu_m2_s", "Pr"])
+        for row in zip(T_AIR, a.k, a.mu, a.nu, a.pr, strict=True):
+            w.writerow([f"{row[0]:.1f}"] + [repr(float(x)) for x in row[1:]])
+    p = water_saturation_coolprop(T_WATER)
+    with open(folder / "water_saturation.csv", "w", newline="", encoding="utf-8") as fh:
+        w = csv.writer(fh)
+        w.writerow(["T_K", "p_ws_Pa"])
+        for t, x in zip(T_WATER, p, strict=True):
+            w.writerow([f"{t:.1f}", repr(float(x))])
+
+
+def _read(name: str) -> np.ndarray:
+    with files("lagsheet.data").joinpath(name).open(encoding="utf-8") as fh:
+        return np.loadtxt(fh, delimiter=",", skiprows=1, ndmin=2)
+
+
 @lru_cache(maxsize=1)
-def _table() -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    a = air_coolprop(T_TABLE)
-    return a.k, a.mu, a.nu, a.pr
+def _air() -> np.ndarray:
+    """(4, knots): k, mu, nu, Pr on the uniform T_AIR grid."""
+    table = _read("air_table.csv")
+    return np.ascontiguousarray(table[:, 1:5].T)
+
+
+@lru_cache(maxsize=1)
+def _water() -> tuple[np.ndarray, np.ndarray]:
+    table = _read("water_saturation.csv")
+    return table[:, 0], np.log(table[:, 1])
 
 
 def air(t_film: np.ndarray) -> AirProperties:
-    """Air at film temperature ``t_film`` [K], interpolated in the CoolProp table.
+    """Air at film temperature ``t_film`` [K], interpolated in the table.
 
     Temperatures outside 150–1500 K are clamped to the table's ends (the solver may
-    probe there while it brackets; final film temperatures of real lines lie inside).
+    probe there while it brackets; film temperatures of real lines lie inside).
     """
-    k, mu, nu, pr = _table()
-    t = np.clip(np.asarray(t_film, dtype=float), T_TABLE[0], T_TABLE[-1])
-    return AirProperties(
-        k=np.interp(t, T_TABLE, k),
-        mu=np.interp(t, T_TABLE, mu),
-        nu=np.interp(t, T_TABLE, nu),
-        pr=np.interp(t, T_TABLE, pr),
-        beta=1.0 / t,
-    )
+    props = _air()
+    t = np.clip(np.asarray(t_film, dtype=float), T_AIR[0], T_AIR[-1])
+    x = (t - T_AIR[0]) / (T_AIR[1] - T_AIR[0])  # uniform grid: the knot index is arithmetic
+    i = np.minimum(x.astype(np.intp), len(T_AIR) - 2)
+    w = x - i
+    lo, hi = props[:, i], props[:, i + 1]
+    k, mu, nu, pr = lo + w * (hi - lo)
+    return AirProperties(k=k, mu=mu, nu=nu, pr=pr, beta=1.0 / t)
 
 
 def dew_point(t_air: np.ndarray | float, rh: np.ndarray | float) -> np.ndarray:
     """Dew point [K] of moist air at ``t_air`` [K] and relative humidity ``rh`` [0–1].
 
-    CoolProp ``HAPropsSI('D', 'T', T, 'P', 101325, 'R', rh)``. Called once per design
-    condition, not per line. RH of 0 has no dew point: NaN.
+    The temperature at which saturated air holds the water of this air:
+    p_ws(T_d) = RH · p_ws(T). NaN for RH 0 or temperatures outside 190–360 K.
     """
-    from CoolProp.HumidAirProp import HAPropsSI
+    tk, lnp = _water()
+    t, r = np.broadcast_arrays(np.atleast_1d(np.asarray(t_air, dtype=float)),
+                               np.atleast_1d(np.asarray(rh, dtype=float)))
+    inside = (t >= tk[0]) & (t <= tk[-1]) & (r > 0)
+    with np.errstate(divide="ignore"):
+        target = np.interp(t, tk, lnp) + np.log(np.minimum(np.where(r > 0, r, 1.0), 1.0))
+    td = np.interp(target, lnp, tk)
+    return np.where(inside & (target >= lnp[0]), td, np.nan)
 
-    t = np.atleast_1d(np.asarray(t_air, dtype=float))
-    r = np.broadcast_to(np.atleast_1d(np.asarray(rh, dtype=float)), t.shape)
-    out = np.full(t.shape, np.nan)
-    for i, (ti, ri) in enumerate(zip(t, r, strict=True)):  # a handful of conditions
-        if ri > 0:
-            out[i] = HAPropsSI("D", "T", float(ti), "P", P_ATM, "R", float(min(ri, 1.0)))
-    return out
+
+if __name__ == "__main__":
+    write_tables(Path(__file__).resolve().parents[1] / "data")
