@@ -150,7 +150,7 @@ def pipe_outside_diameter(size: str) -> float | None:
     if m:
         return by_dn.get(int(m.group(1)))
     m = _NPS.match(text)
-    if m and (text.lower().startswith("nps") or re.search(r'("|in|\'\')\s*$', text, re.I)):
+    if m and (text.lower().startswith("nps") or re.search(r'("|in|inch|inches|\'\')\s*$', text, re.I)):
         try:
             return by_nps.get(round(_fraction(m.group(1)), 4))
         except (ValueError, ZeroDivisionError):

@@ -18,7 +18,8 @@ VALIDITY: dict[str, dict[str, tuple[float, float]]] = {
     "McAdams horizontal plate, buoyancy-assisted": {"Ra": (1e4, 1e11)},
     "McAdams horizontal plate, buoyancy-opposed": {"Ra": (1e5, 1e10)},
     "Churchill sphere": {"Ra": (0.0, 1e13)},
-    "Whitaker sphere": {"Re": (3.5, 7.6e4), "Pr": (0.71, 380.0), "mu_ratio": (1.0, 3.2)},
+    # Whitaker gives Pr 0.71-380; air near room temperature (Pr 0.707 in CoolProp) is taken as inside
+    "Whitaker sphere": {"Re": (3.5, 7.6e4), "Pr": (0.70, 380.0), "mu_ratio": (1.0, 3.2)},
     "flat plate in parallel flow": {"Re": (0.0, 1e8), "Pr": (0.6, 10.0)},
 }
 

@@ -22,8 +22,8 @@ def q_radiation(emissivity, t_surface, t_surroundings):
 
     Examples
     --------
-    >>> round(float(q_radiation(0.85, 400.0, 305.0)), 3)  # ht.radiation.q_rad gives 816.782
-    816.782
+    >>> round(float(q_radiation(0.85, 400.0, 305.0)), 3)  # ht.radiation.q_rad: 816.782 (CODATA 2014 σ)
+    816.783
     """
     ts = np.asarray(t_surface, dtype=float)
     tsur = np.asarray(t_surroundings, dtype=float)

@@ -49,7 +49,7 @@ def _horizontal_cylinder(ts, ta, wind, d, height, flow):
     nu_n = cr.nu_horizontal_cylinder_churchill_chu(ra, a.pr)
     nu_f = cr.nu_cylinder_churchill_bernstein(re, a.pr)
     nu = cr.nu_combined_churchill_usagi(nu_f, nu_n)
-    outside = cr.outside_validity("Churchill-Chu horizontal cylinder", Ra=np.maximum(ra, 1e-5))
+    outside = cr.outside_validity("Churchill-Chu horizontal cylinder", Ra=ra)
     outside |= (re > 0) & cr.outside_validity("Churchill-Bernstein cylinder in cross-flow", RePr=re * a.pr)
     return Convection(nu * a.k / d, ra, re, a.pr, nu_n, nu_f, nu, outside)
 
@@ -63,7 +63,7 @@ def _vertical_cylinder(ts, ta, wind, d, height, flow):
     nu = cr.nu_combined_churchill_usagi(nu_f, nu_n)
     gr = ra / a.pr
     thin = d / height < 35.0 / np.maximum(gr, 1e-30) ** 0.25  # plate result not valid for a thin cylinder
-    outside = thin | cr.outside_validity("Churchill-Chu vertical plate", Ra=np.maximum(ra, 1e-1))
+    outside = thin | cr.outside_validity("Churchill-Chu vertical plate", Ra=ra)
     outside |= (re > 0) & cr.outside_validity("Churchill-Bernstein cylinder in cross-flow", RePr=re * a.pr)
     return Convection(nu * a.k / d, ra, re, a.pr, nu_n, nu_f, nu, outside)
 
@@ -74,7 +74,7 @@ def _wall(ts, ta, wind, d, height, flow):
     nu_f_l = cr.nu_flat_plate_parallel(re, a.pr)  # wind along the wall, on its width
     nu_n = nu_n_h * flow / height  # both on the flow length before combining
     nu = cr.nu_combined_churchill_usagi(nu_f_l, nu_n)
-    outside = cr.outside_validity("Churchill-Chu vertical plate", Ra=np.maximum(ra, 1e-1))
+    outside = cr.outside_validity("Churchill-Chu vertical plate", Ra=ra)
     outside |= (re > 0) & cr.outside_validity("flat plate in parallel flow", Re=re, Pr=a.pr)
     return Convection(nu * a.k / flow, ra, re, a.pr, nu_n, nu_f_l, nu, outside)
 
@@ -103,7 +103,8 @@ def _sphere(ts, ta, wind, d, height, flow):
     free = air(ta)  # Whitaker: properties at the free stream, viscosity ratio to the surface
     re = wind * d / free.nu
     mu_ratio = free.mu / air(ts).mu
-    nu_f = cr.nu_sphere_whitaker(re, free.pr, mu_ratio)
+    # Whitaker's Nu is on free-stream conductivity: bring it to the film basis before combining
+    nu_f = cr.nu_sphere_whitaker(re, free.pr, mu_ratio) * free.k / a.k
     nu = cr.nu_combined_churchill_usagi(nu_f, nu_n)
     outside = cr.outside_validity("Churchill sphere", Ra=ra)
     outside |= (re > 0) & cr.outside_validity("Whitaker sphere", Re=re, Pr=free.pr, mu_ratio=mu_ratio)
