@@ -29,8 +29,8 @@ def note_text(notes) -> str:
 
 
 def lines_edits(raw: RawSheet, t: Table, res: Results, us: bool, currency: str) -> SheetEdits:
-    e = SheetEdits(raw.name)
     header_row = t.header_row
+    e = SheetEdits(raw.name, header_row)
     existing = {}
     for col, text in enumerate(raw.grid[header_row] if header_row < len(raw.grid) else []):
         if isinstance(text, str) and text.strip():

@@ -73,6 +73,7 @@ class SheetEdits:
     """What a writer changes in one sheet: cell values and our comments."""
 
     sheet: str
+    header_row: int | None = None  # the row of the headers lagsheet writes (tables follow it)
     values: dict[tuple[int, int], Any] = field(default_factory=dict)
     number_formats: dict[tuple[int, int], str] = field(default_factory=dict)
     comments: dict[tuple[int, int], str] = field(default_factory=dict)

@@ -1,106 +1,667 @@
-"""Excel workbooks (.xlsx, .xlsm) through openpyxl, with values read by calamine.
+"""Excel workbooks (.xlsx, .xlsm), read by calamine and written at the package level.
 
-openpyxl holds the workbook that is written back (formulas, styles, validations,
-VBA with ``keep_vba``); calamine reads the cell values, cached formula results
-included, many times faster than openpyxl's ``data_only`` pass. A formula cell that
-calamine reads as empty and openpyxl knows as a formula has no cached value.
+Reading: calamine gives typed cell values, cached formula results included; formula
+cells with no cached value are found in the sheet XML (calamine reads them as empty).
+
+Writing changes only what lagsheet adds. Every zip member it has no reason to touch is
+copied unchanged. In the parts it must touch — the sheet (new cells, column widths,
+dimension), its comments and VML drawing (our notes), the sheet's relationships,
+``[Content_Types].xml``, ``styles.xml`` (number formats of our cells) and the Lines
+table if there is one — the original text is kept and only our pieces are spliced
+in. Text is written as inline strings, never as a formula.
 """
 
 from __future__ import annotations
 
+import posixpath
+import re
 import zipfile
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
+from xml.sax.saxutils import escape
 
 from ..errors import WorkbookError
 from .save import atomic_write
-from .table import RawSheet, SheetEdits, fold
+from .table import RawSheet, SheetEdits, address, column_letter
 
 AUTHOR = "lagsheet"
 MARK = "lagsheet: "  # our comments start with this, so that a later run replaces them
 
+NS_MAIN = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
+NS_REL = "http://schemas.openxmlformats.org/officeDocument/2006/relationships"
+NS_PKG_REL = "http://schemas.openxmlformats.org/package/2006/relationships"
+REL_COMMENTS = NS_REL + "/comments"
+REL_VML = NS_REL + "/vmlDrawing"
+REL_TABLE = NS_REL + "/table"
+CT_COMMENTS = "application/vnd.openxmlformats-officedocument.spreadsheetml.comments+xml"
+CT_VML = "application/vnd.openxmlformats-officedocument.vmlDrawing"
+
+_ATTR = re.compile(r'([\w:]+)\s*=\s*"([^"]*)"')
+_INVALID_XML = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ufffe\uffff]")
+
+
+def _attrs(tag_text: str) -> dict[str, str]:
+    return dict(_ATTR.findall(tag_text))
+
+
+def _text(s: str) -> str:
+    return escape(_INVALID_XML.sub("", s))
+
+
+def _col_index(ref: str) -> int:
+    col = 0
+    for ch in ref:
+        if ch.isalpha():
+            col = col * 26 + (ord(ch.upper()) - 64)
+        else:
+            break
+    return col - 1
+
+
+def _rel_target(base_part: str, target: str) -> str:
+    """Resolve a relationship target against the part that holds the relationship."""
+    if target.startswith("/"):
+        return target.lstrip("/")
+    return posixpath.normpath(posixpath.join(posixpath.dirname(base_part), target))
+
+
+def _rels_path(part: str) -> str:
+    d, f = posixpath.split(part)
+    return posixpath.join(d, "_rels", f + ".rels")
+
+
+def _read_rels(zf: zipfile.ZipFile, part: str) -> list[dict[str, str]]:
+    path = _rels_path(part)
+    if path not in zf.namelist():
+        return []
+    xml = zf.read(path).decode("utf-8")
+    return [_attrs(m.group(0)) for m in re.finditer(r"<(?:\w+:)?Relationship\b[^>]*>", xml)]
+
+
+@dataclass
+class _Sheet:
+    name: str
+    part: str  # e.g. xl/worksheets/sheet1.xml
+
 
 class XlsxBook:
-    def __init__(self, path: Path, wb, values):
+    def __init__(self, path: Path, zf: zipfile.ZipFile, sheets: list[_Sheet], values):
         self.path = path
-        self._wb = wb
+        self._zip = zf
+        self._sheets = sheets
         self._values = values
-        self._sheets: dict[str, RawSheet] = {}
+        self._raw: dict[str, RawSheet] = {}
 
     @classmethod
     def open(cls, path: Path) -> XlsxBook:
-        import openpyxl
         import python_calamine
 
         if not zipfile.is_zipfile(path):
             raise WorkbookError(f"{path.name}: not an Excel workbook (the file is not a zip package)")
         try:
-            wb = openpyxl.load_workbook(path, keep_vba=path.suffix.lower() == ".xlsm",
-                                        keep_links=True, rich_text=True)
+            zf = zipfile.ZipFile(path)
+            wb_part = _workbook_part(zf)
+            rels = {r.get("Id"): r for r in _read_rels(zf, wb_part)}
+            xml = zf.read(wb_part).decode("utf-8")
+            sheets = []
+            for m in re.finditer(r"<(?:\w+:)?sheet\b[^>]*>", xml):
+                a = _attrs(m.group(0))
+                rid = next((v for k, v in a.items() if k.endswith(":id")), None)
+                rel = rels.get(rid)
+                if rel is None or not rel.get("Type", "").endswith("/worksheet"):
+                    continue
+                sheets.append(_Sheet(_unescape(a.get("name", "")), _rel_target(wb_part, rel["Target"])))
             values = python_calamine.CalamineWorkbook.from_path(str(path))
+        except WorkbookError:
+            raise
         except Exception as exc:  # any library failure means the file cannot be read
             raise WorkbookError(f"{path.name}: cannot be read as a workbook ({exc})") from exc
-        return cls(path, wb, values)
+        return cls(path, zf, sheets, values)
 
     def sheet_names(self) -> list[str]:
-        return list(self._wb.sheetnames)
+        return [s.name for s in self._sheets]
+
+    def _part(self, name: str) -> str:
+        return next(s.part for s in self._sheets if s.name == name)
 
     def sheet(self, name: str) -> RawSheet:
-        if name not in self._sheets:
-            grid = self._values.get_sheet_by_name(name).to_python(skip_empty_area=False)
-            ws = self._wb[name]
-            uncached = set()
-            for r, row in enumerate(grid):
-                for c, v in enumerate(row):
-                    if v == "" and ws.cell(r + 1, c + 1).data_type == "f":
-                        uncached.add((r, c))
-            self._sheets[name] = RawSheet(name, grid, uncached)
-        return self._sheets[name]
+        if name not in self._raw:
+            try:
+                grid = self._values.get_sheet_by_name(name).to_python(skip_empty_area=False)
+            except Exception as exc:
+                raise WorkbookError(f"{self.path.name}: sheet {name!r} cannot be read ({exc})") from exc
+            uncached = _uncached_formulas(self._zip.read(self._part(name)).decode("utf-8"))
+            self._raw[name] = RawSheet(name, grid, uncached)
+        return self._raw[name]
 
     def save(self, edits: list[SheetEdits], out: Path) -> None:
-        from copy import copy
-
-        from openpyxl.comments import Comment
-        from openpyxl.utils import get_column_letter
-
+        parts: dict[str, bytes] = {}
         for e in edits:
-            ws = self._wb[e.sheet] if e.sheet in self._wb.sheetnames else self._wb.create_sheet(e.sheet)
-            for cell in [c for row in ws.iter_rows() for c in row if c.comment is not None]:
-                if _ours(cell.comment):
-                    cell.comment = None
-            for (r, c), v in e.values.items():
-                cell = ws.cell(r + 1, c + 1)
-                _set(cell, v)
-                fmt = e.number_formats.get((r, c))
-                if fmt:
-                    cell.number_format = fmt
-            for (r, c), (sr, sc) in e.headers.items():
-                src, dst = ws.cell(sr + 1, sc + 1), ws.cell(r + 1, c + 1)
-                if src.has_style:
-                    dst._style = copy(src._style)  # the header row's look, as openpyxl copies styles
-            for c, width in e.widths.items():
-                letter = get_column_letter(c + 1)
-                if ws.column_dimensions[letter].width in (None, 13.0):
-                    ws.column_dimensions[letter].width = width
-            for (r, c), text in e.comments.items():
-                cell = ws.cell(r + 1, c + 1)
-                if cell.comment is None:  # a person's comment is never replaced
-                    cell.comment = Comment(MARK + text, AUTHOR, width=320, height=120)
-        atomic_write(out, self._wb.save, like=self.path)
+            if e.sheet not in self.sheet_names():
+                raise WorkbookError(f"sheet {e.sheet!r} is not in the workbook; lagsheet adds "
+                                    "no new sheets to .xlsx files in this version")
+            parts.update(_SheetPatch(self._zip, self._part(e.sheet), e, parts).run())
+
+        def write(tmp: str) -> None:
+            with zipfile.ZipFile(tmp, "w") as dst:
+                done = set()
+                for info in self._zip.infolist():
+                    data = parts.get(info.filename)
+                    dst.writestr(info, data if data is not None else self._zip.read(info.filename),
+                                 compress_type=info.compress_type)
+                    done.add(info.filename)
+                for name, data in parts.items():
+                    if name not in done:
+                        dst.writestr(name, data, compress_type=zipfile.ZIP_DEFLATED)
+
+        atomic_write(out, write, like=self.path)
 
 
-def _ours(comment) -> bool:
-    return comment.author == AUTHOR or str(comment.text).startswith(MARK)
+def _unescape(s: str) -> str:
+    return (s.replace("&lt;", "<").replace("&gt;", ">").replace("&quot;", '"')
+            .replace("&apos;", "'").replace("&amp;", "&"))
 
 
-def _set(cell, value: Any) -> None:
-    cell.value = value
-    if isinstance(value, str) and cell.data_type == "f":
-        cell.data_type = "s"  # text we write is never a formula
+def _workbook_part(zf: zipfile.ZipFile) -> str:
+    for r in _read_rels(zf, ""):
+        if r.get("Type", "").endswith("/officeDocument"):
+            return _rel_target("", r["Target"])
+    return "xl/workbook.xml"
 
 
-def find_sheet(names: list[str], wanted: str) -> str | None:
-    for n in names:
-        if fold(n) == fold(wanted):
-            return n
-    return None
+_CELL = re.compile(r"<(\w+:)?c\b([^>]*?)(?:/>|>(.*?)</\1?c>)", re.S)
+
+
+def _uncached_formulas(xml: str) -> set[tuple[int, int]]:
+    """0-based (row, col) of formula cells with no cached value."""
+    out = set()
+    if "<f" not in xml and ":f" not in xml:
+        return out
+    for m in _CELL.finditer(xml):
+        body = m.group(3) or ""
+        if re.search(r"<(\w+:)?f\b", body) and not re.search(r"<(\w+:)?v>[^<]", body):
+            ref = _attrs(m.group(2)).get("r")
+            if ref:
+                row = int(re.sub(r"[A-Za-z]", "", ref)) - 1
+                out.add((row, _col_index(ref)))
+    return out
+
+
+class _SheetPatch:
+    """Splices one SheetEdits into one sheet part and the parts that hang off it."""
+
+    def __init__(self, zf: zipfile.ZipFile, part: str, e: SheetEdits, done: dict[str, bytes]):
+        self.zf, self.part, self.e, self.done = zf, part, e, done
+        self.xml = zf.read(part).decode("utf-8")
+        m = re.search(r"<(\w+:)?worksheet\b", self.xml)
+        self.p = m.group(1) or "" if m else ""
+        self.out: dict[str, bytes] = {}
+        self.styles = _Styles(self._read("xl/styles.xml"))
+        self.content_types = self._read("[Content_Types].xml")
+
+    def _read(self, name: str) -> str:
+        if name in self.done:
+            return self.done[name].decode("utf-8")
+        return self.zf.read(name).decode("utf-8") if name in self.zf.namelist() else ""
+
+    def run(self) -> dict[str, bytes]:
+        cells = self._cells()
+        self._sheet_data(cells)
+        self._dimension(cells)
+        self._cols()
+        self._tables()
+        self._comments()
+        self.out[self.part] = self.xml.encode("utf-8")
+        if self.styles.changed:
+            self.out["xl/styles.xml"] = self.styles.xml.encode("utf-8")
+        if self.content_types != self._read("[Content_Types].xml"):
+            self.out["[Content_Types].xml"] = self.content_types.encode("utf-8")
+        return self.out
+
+    # -- cells ---------------------------------------------------------------------------
+
+    def _cells(self) -> dict[int, dict[int, str | None]]:
+        """Row -> col -> new cell XML (None: remove the cell there)."""
+        header_styles = self._header_styles()
+        rows: dict[int, dict[int, str | None]] = {}
+        for (r, c), v in self.e.values.items():
+            ref = address(r, c)
+            fmt = self.e.number_formats.get((r, c))
+            style = header_styles.get((r, c))
+            rows.setdefault(r, {})[c] = _cell_xml(self.p, ref, v, style, fmt, self.styles)
+        return rows
+
+    def _header_styles(self) -> dict[tuple[int, int], str | None]:
+        out = {}
+        for (r, c), (sr, sc) in self.e.headers.items():
+            out[(r, c)] = self._style_of(sr, sc)
+        return out
+
+    def _style_of(self, r: int, c: int) -> str | None:
+        ref = address(r, c)
+        m = re.search(rf'<{re.escape(self.p)}c\b[^>]*\br="{ref}"[^>]*>', self.xml)
+        return _attrs(m.group(0)).get("s") if m else None
+
+    def _sheet_data(self, cells: dict[int, dict[int, str | None]]) -> None:
+        p = re.escape(self.p)
+        m = re.search(rf"<{p}sheetData\s*/>|<{p}sheetData\b[^>]*>(.*?)</{p}sheetData>", self.xml, re.S)
+        if m is None:
+            raise WorkbookError("the sheet has no cell data section; save it again in a spreadsheet program")
+        if m.group(0).endswith("/>"):
+            start_tag, inner = f"<{self.p}sheetData>", ""
+        else:
+            start_tag = re.match(rf"<{p}sheetData\b[^>]*>", m.group(0)).group(0)
+            inner = m.group(1)
+        pieces, pos = [], 0
+        todo = sorted(cells)  # rows to write, in order
+        k = 0
+        row_re = re.compile(rf"<{p}row\b([^>]*?)(/>|>(.*?)</{p}row>)", re.S)
+        last_r = -1
+        for rm in row_re.finditer(inner):
+            if k >= len(todo):
+                break
+            a = _attrs(rm.group(1))
+            r = int(a["r"]) - 1 if "r" in a else last_r + 1
+            last_r = r
+            while k < len(todo) and todo[k] < r:  # new rows that come before this one
+                pieces.append(inner[pos:rm.start()])
+                pos = rm.start()
+                pieces.append(self._new_row(todo[k], cells[todo[k]]))
+                k += 1
+            if k < len(todo) and todo[k] == r:
+                pieces.append(inner[pos:rm.start()])
+                pieces.append(self._patch_row(rm, a, cells[r]))
+                pos = rm.end()
+                k += 1
+        pieces.append(inner[pos:])
+        pieces.extend(self._new_row(r, cells[r]) for r in todo[k:])
+        new = start_tag + "".join(pieces) + f"</{self.p}sheetData>"
+        self.xml = self.xml[:m.start()] + new + self.xml[m.end():]
+
+    def _new_row(self, r: int, cells: dict[int, str | None]) -> str:
+        body = "".join(x for _, x in sorted(cells.items()) if x is not None)
+        return f'<{self.p}row r="{r + 1}">{body}</{self.p}row>' if body else ""
+
+    def _patch_row(self, rm: re.Match, attrs: dict[str, str], cells: dict[int, str | None]) -> str:
+        head = rm.group(1)
+        body = rm.group(3) or ""
+        existing = []
+        tail = ""
+        pos = 0
+        last_c = -1
+        for cm in _CELL.finditer(body):
+            a = _attrs(cm.group(2))
+            c = _col_index(a["r"]) if "r" in a else last_c + 1
+            last_c = c
+            existing.append((c, body[pos:cm.end()]))
+            pos = cm.end()
+        tail = body[pos:]  # e.g. an extLst after the cells
+        merged = [(c, x) for c, x in existing if c not in cells]
+        merged += [(c, x) for c, x in cells.items() if x is not None]
+        merged.sort(key=lambda t: t[0])
+        if "spans" in attrs and merged:
+            lo, hi = (int(v) for v in attrs["spans"].split(":")[:2]) if ":" in attrs["spans"] else (1, 1)
+            lo, hi = min(lo, merged[0][0] + 1), max(hi, merged[-1][0] + 1)
+            head = re.sub(r'spans="[^"]*"', f'spans="{lo}:{hi}"', head)
+        return f"<{self.p}row{head}>" + "".join(x for _, x in merged) + tail + f"</{self.p}row>"
+
+    def _dimension(self, cells) -> None:
+        m = re.search(rf'<{re.escape(self.p)}dimension\b[^>]*\bref="([^"]*)"', self.xml)
+        if not m or not cells:
+            return
+        ref = m.group(1)
+        first, _, last = ref.partition(":")
+        last = last or first
+        max_col = max(max(cs) for cs in cells.values())
+        max_row = max(cells)
+        lr = int(re.sub(r"[A-Za-z]", "", last) or 1) - 1
+        lc = _col_index(last)
+        new_last = address(max(lr, max_row), max(lc, max_col))
+        if new_last != last:
+            self.xml = self.xml[:m.start(1)] + f"{first}:{new_last}" + self.xml[m.end(1):]
+
+    def _cols(self) -> None:
+        if not self.e.widths:
+            return
+        p = re.escape(self.p)
+        m = re.search(rf"<{p}cols>(.*?)</{p}cols>", self.xml, re.S)
+        covered = set()
+        if m:
+            for cm in re.finditer(rf"<{p}col\b[^>]*>", m.group(1)):
+                a = _attrs(cm.group(0))
+                covered.update(range(int(a.get("min", 1)) - 1, int(a.get("max", 1))))
+        new = "".join(f'<{self.p}col min="{c + 1}" max="{c + 1}" width="{w:g}" customWidth="1"/>'
+                      for c, w in sorted(self.e.widths.items()) if c not in covered)
+        if not new:
+            return
+        if m:
+            self.xml = self.xml[:m.end(1)] + new + self.xml[m.end(1):]
+            # keep <col> elements sorted by min, as the schema asks
+            m2 = re.search(rf"<{p}cols>(.*?)</{p}cols>", self.xml, re.S)
+            cols = re.findall(rf"<{p}col\b[^>]*>(?:</{p}col>)?", m2.group(1))
+            cols.sort(key=lambda x: int(_attrs(x).get("min", 1)))
+            self.xml = self.xml[:m2.start(1)] + "".join(cols) + self.xml[m2.end(1):]
+        else:
+            sd = re.search(rf"<{p}sheetData\b", self.xml)
+            self.xml = self.xml[:sd.start()] + f"<{self.p}cols>{new}</{self.p}cols>" + self.xml[sd.start():]
+
+    # -- the Lines table -------------------------------------------------------------------
+
+    def _tables(self) -> None:
+        hr = self.e.header_row
+        all_headers = {(r, c): v for (r, c), v in self.e.values.items() if r == hr and v is not None}
+        if hr is None or not all_headers:
+            return
+        for rel in _read_rels(self.zf, self.part):
+            if not rel.get("Type", "").endswith("/table"):
+                continue
+            tpart = _rel_target(self.part, rel["Target"])
+            txml = self._read(tpart)
+            m = re.search(r'<(\w+:)?table\b[^>]*\bref="([A-Z]+)(\d+):([A-Z]+)(\d+)"', txml)
+            if not m:
+                continue
+            p = m.group(1) or ""
+            r0 = int(m.group(3)) - 1
+            if r0 != hr:
+                continue
+            c0, c1, r1 = _col_index(m.group(2)), _col_index(m.group(4)), int(m.group(5)) - 1
+            new_cols = sorted(c for (_r, c) in all_headers if c > c1)
+            if not new_cols and not any(c0 <= c <= c1 for (_r, c) in all_headers):
+                continue
+            last = max([c1] + new_cols)
+            ref = f"{m.group(2)}{r0 + 1}:{column_letter(last)}{r1 + 1}"
+            txml = re.sub(r'(<(?:\w+:)?table\b[^>]*\bref=")[^"]*"', rf'\g<1>{ref}"', txml, count=1)
+            txml = re.sub(r'(<(?:\w+:)?autoFilter\b[^>]*\bref=")[^"]*"', rf'\g<1>{ref}"', txml, count=1)
+            ids = [int(x) for x in re.findall(r'<(?:\w+:)?tableColumn\b[^>]*\bid="(\d+)"', txml)]
+            next_id = max(ids, default=0) + 1
+            added = ""
+            # rename columns we overwrite in place, add ours past the end (names = header text)
+            for c in sorted(c for (_r, c) in all_headers if c0 <= c <= c1):
+                name = _text(str(all_headers[(hr, c)]))
+                k = c - c0
+                cols = list(re.finditer(r'<(?:\w+:)?tableColumn\b[^>]*?\bname="([^"]*)"', txml))
+                if k < len(cols):
+                    cm = cols[k]
+                    txml = txml[:cm.start(1)] + name + txml[cm.end(1):]
+            for c in new_cols:
+                added += f'<{p}tableColumn id="{next_id}" name="{_text(str(all_headers[(hr, c)]))}"/>'
+                next_id += 1
+            if added:
+                tc = re.search(r"</(\w+:)?tableColumns>", txml)
+                txml = txml[:tc.start()] + added + txml[tc.start():]
+                count = len(re.findall(r"<(?:\w+:)?tableColumn\b", txml))
+                txml = re.sub(r'(<(?:\w+:)?tableColumns\b[^>]*\bcount=")\d+"', rf'\g<1>{count}"', txml, count=1)
+            self.out[tpart] = txml.encode("utf-8")
+
+    # -- comments ----------------------------------------------------------------------------
+
+    def _comments(self) -> None:
+        rels = _read_rels(self.zf, self.part)
+        c_rel = next((r for r in rels if r.get("Type") == REL_COMMENTS), None)
+        v_rel = next((r for r in rels if r.get("Type") == REL_VML), None)
+        if c_rel is None and not self.e.comments:
+            return
+        if c_rel is not None:
+            c_part = _rel_target(self.part, c_rel["Target"])
+            cxml = self._read(c_part)
+        else:
+            c_part, cxml = None, ""
+        theirs, ours_refs, cxml = _strip_our_comments(cxml)
+        wanted = {address(r, c): text for (r, c), text in self.e.comments.items() if address(r, c) not in theirs}
+        if c_part is None and not wanted:
+            return
+        if c_part is None:
+            n = 1
+            while f"xl/comments{n}.xml" in self.zf.namelist() or f"xl/comments{n}.xml" in self.done:
+                n += 1
+            c_part = f"xl/comments{n}.xml"
+            cxml = (f'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<comments xmlns="{NS_MAIN}">'
+                    f"<authors></authors><commentList></commentList></comments>")
+            self._add_rel(REL_COMMENTS, "../" + posixpath.relpath(c_part, "xl"))
+            self._override(c_part, CT_COMMENTS)
+        cxml = _add_comments(cxml, wanted)
+        self.out[c_part] = cxml.encode("utf-8")
+        # the VML drawing that shows them
+        if v_rel is not None:
+            v_part = _rel_target(self.part, v_rel["Target"])
+            vml = self._read(v_part)
+        else:
+            n = 1
+            while f"xl/drawings/vmlDrawing{n}.vml" in self.zf.namelist():
+                n += 1
+            v_part = f"xl/drawings/vmlDrawing{n}.vml"
+            vml = _VML_HEAD + "</xml>"
+            rid = self._add_rel(REL_VML, "../" + posixpath.relpath(v_part, "xl"))
+            self._default("vml", CT_VML)
+            self._legacy_drawing(rid)
+        vml = _strip_vml(vml, ours_refs | set(wanted))
+        vml = _add_vml(vml, wanted)
+        self.out[v_part] = vml.encode("utf-8")
+
+    def _add_rel(self, rtype: str, target: str) -> str:
+        path = _rels_path(self.part)
+        xml = self.out.get(path, b"").decode("utf-8") or self._read(path) or (
+            f'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<Relationships xmlns="{NS_PKG_REL}"></Relationships>')
+        ids = set(re.findall(r'\bId="([^"]*)"', xml))
+        k = 1
+        while f"rIdLs{k}" in ids:
+            k += 1
+        rid = f"rIdLs{k}"
+        close = re.search(r"</(\w+:)?Relationships>", xml)
+        p = close.group(1) or ""
+        xml = xml[:close.start()] + f'<{p}Relationship Id="{rid}" Type="{rtype}" Target="{target}"/>' + xml[close.start():]
+        self.out[path] = xml.encode("utf-8")
+        return rid
+
+    def _override(self, part: str, ctype: str) -> None:
+        close = self.content_types.rfind("</")
+        self.content_types = (self.content_types[:close] + f'<Override PartName="/{part}" ContentType="{ctype}"/>'
+                              + self.content_types[close:])
+
+    def _default(self, ext: str, ctype: str) -> None:
+        if re.search(rf'<(\w+:)?Default\b[^>]*Extension="{ext}"', self.content_types, re.I):
+            return
+        m = re.search(r"<(\w+:)?Types\b[^>]*>", self.content_types)
+        self.content_types = (self.content_types[:m.end()] + f'<Default Extension="{ext}" ContentType="{ctype}"/>'
+                              + self.content_types[m.end():])
+
+    def _legacy_drawing(self, rid: str) -> None:
+        # legacyDrawing comes after these elements and before the rest (ECMA-376 CT_Worksheet order)
+        after = ("sheetPr", "dimension", "sheetViews", "sheetFormatPr", "cols", "sheetData", "sheetCalcPr",
+                 "sheetProtection", "protectedRanges", "scenarios", "autoFilter", "sortState", "dataConsolidate",
+                 "customSheetViews", "mergeCells", "phoneticPr", "conditionalFormatting", "dataValidations",
+                 "hyperlinks", "printOptions", "pageMargins", "pageSetup", "headerFooter", "rowBreaks",
+                 "colBreaks", "customProperties", "cellWatches", "ignoredErrors", "smartTags", "drawing")
+        pos = None
+        start = self.xml.find(f"</{self.p}sheetData>")  # every element after sheetData follows it
+        for name in after[after.index("sheetData") + 1:]:
+            for m in re.finditer(rf"<{re.escape(self.p)}{name}\b[^>]*?(?:/>|>.*?</{re.escape(self.p)}{name}>)",
+                                 self.xml[start:], re.S):
+                pos = start + m.end()
+        if pos is None:
+            pos = start + len(f"</{self.p}sheetData>")
+        rp = _rel_prefix(self.xml)
+        decl = "" if rp else f' xmlns:r="{NS_REL}"'
+        tag = f'<{self.p}legacyDrawing{decl} {rp or "r"}:id="{rid}"/>'
+        self.xml = self.xml[:pos] + tag + self.xml[pos:]
+
+
+def _rel_prefix(xml: str) -> str | None:
+    m = re.search(rf'xmlns:(\w+)="{re.escape(NS_REL)}"', xml[:4000])
+    return m.group(1) if m else None
+
+
+def _cell_xml(p: str, ref: str, v: Any, style: str | None, fmt: str | None, styles: _Styles) -> str | None:
+    if v is None:
+        return None
+    if isinstance(v, bool):
+        v = "yes" if v else "no"
+    if isinstance(v, (int, float)):
+        s = styles.xf_for(fmt) if fmt else style
+        sattr = f' s="{s}"' if s is not None else ""
+        return f'<{p}c r="{ref}"{sattr}><{p}v>{repr(float(v))}</{p}v></{p}c>'
+    text = str(v)
+    s = style
+    if text[:1] in ("=", "+", "-", "@"):
+        s = styles.quote_xf(style)  # shown as text even when retyped in a spreadsheet program
+    sattr = f' s="{s}"' if s is not None else ""
+    return (f'<{p}c r="{ref}"{sattr} t="inlineStr"><{p}is><{p}t xml:space="preserve">{_text(text)}</{p}t>'
+            f"</{p}is></{p}c>")
+
+
+class _Styles:
+    """Adds the few cell formats lagsheet needs to styles.xml, keeping everything else."""
+
+    def __init__(self, xml: str):
+        self.xml = xml
+        self.changed = False
+        self._fmt: dict[str, str] = {}
+        self._quote: dict[str | None, str] = {}
+        m = re.search(r"<(\w+:)?styleSheet\b", xml)
+        self.p = (m.group(1) or "") if m else ""
+
+    BUILTIN = {"0": 1, "0.00": 2, "#,##0": 3, "#,##0.00": 4, "@": 49}
+
+    def _num_fmt_id(self, code: str) -> int:
+        if code in self.BUILTIN:
+            return self.BUILTIN[code]
+        for m in re.finditer(r'<(?:\w+:)?numFmt\b[^>]*numFmtId="(\d+)"[^>]*formatCode="([^"]*)"', self.xml):
+            if _unescape(m.group(2)) == code:
+                return int(m.group(1))
+        ids = [int(x) for x in re.findall(r'numFmtId="(\d+)"', self.xml)]
+        new = max([163] + ids) + 1
+        el = f'<{self.p}numFmt numFmtId="{new}" formatCode="{_text(code)}"/>'
+        end = re.search(r"</(\w+:)?numFmts>", self.xml)
+        if end:
+            self.xml = self.xml[:end.start()] + el + self.xml[end.start():]
+            self._recount("numFmts", "numFmt")
+        else:
+            at = re.search(r"<(\w+:)?styleSheet\b[^>]*>", self.xml).end()
+            self.xml = self.xml[:at] + f'<{self.p}numFmts count="1">{el}</{self.p}numFmts>' + self.xml[at:]
+        return new
+
+    def _recount(self, parent: str, child: str) -> None:
+        m = re.search(rf"<(\w+:)?{parent}\b[^>]*>(.*?)</(\w+:)?{parent}>", self.xml, re.S)
+        if not m:
+            return
+        n = len(re.findall(rf"<(?:\w+:)?{child}\b", m.group(2)))
+        head = re.match(rf"<(\w+:)?{parent}\b[^>]*>", m.group(0)).group(0)
+        new_head = re.sub(r'count="\d+"', f'count="{n}"', head) if "count=" in head else head
+        self.xml = self.xml[:m.start()] + new_head + self.xml[m.start() + len(head):]
+
+    def _add_xf(self, xf: str) -> str:
+        m = re.search(r"<(\w+:)?cellXfs\b[^>]*>(.*?)</(\w+:)?cellXfs>", self.xml, re.S)
+        if not m:
+            raise WorkbookError("the workbook's styles part has no cell formats; save it again in a spreadsheet program")
+        index = len(re.findall(r"<(?:\w+:)?xf\b", m.group(2)))
+        self.xml = self.xml[:m.end(2)] + xf + self.xml[m.end(2):]
+        self._recount("cellXfs", "xf")
+        self.changed = True
+        return str(index)
+
+    def xf_for(self, code: str) -> str:
+        if code not in self._fmt:
+            fid = self._num_fmt_id(code)
+            self._fmt[code] = self._add_xf(
+                f'<{self.p}xf numFmtId="{fid}" fontId="0" fillId="0" borderId="0" xfId="0" applyNumberFormat="1"/>')
+        return self._fmt[code]
+
+    def quote_xf(self, base: str | None) -> str:
+        if base not in self._quote:
+            self._quote[base] = self._add_xf(
+                f'<{self.p}xf numFmtId="49" fontId="0" fillId="0" borderId="0" xfId="0" applyNumberFormat="1" '
+                'quotePrefix="1"/>')
+        return self._quote[base]
+
+
+def _strip_our_comments(cxml: str) -> tuple[set[str], set[str], str]:
+    """Remove lagsheet's comments; return the refs of people's comments, of ours, and the XML."""
+    if not cxml:
+        return set(), set(), cxml
+    authors = re.findall(r"<(?:\w+:)?author>(.*?)</(?:\w+:)?author>", cxml, re.S)
+    our_ids = {str(i) for i, a in enumerate(authors) if _unescape(a) == AUTHOR}
+    theirs, ours = set(), set()
+
+    def keep(m):
+        a = _attrs(re.match(r"<[^>]*>", m.group(0)).group(0))
+        text = re.sub(r"<[^>]+>", "", m.group(0))
+        if a.get("authorId") in our_ids or _unescape(text).startswith(MARK):
+            ours.add(a.get("ref"))
+            return ""
+        theirs.add(a.get("ref"))
+        return m.group(0)
+
+    cxml = re.sub(r"<(\w+:)?comment\b[^>]*>.*?</\1?comment>", keep, cxml, flags=re.S)
+    return theirs, ours, cxml
+
+
+def _add_comments(cxml: str, wanted: dict[str, str]) -> str:
+    if not wanted:
+        return cxml
+    m = re.search(r"<(\w+:)?comments\b", cxml)
+    p = m.group(1) or ""
+    authors = re.findall(r"<(?:\w+:)?author>(.*?)</(?:\w+:)?author>", cxml, re.S)
+    if AUTHOR in [_unescape(a) for a in authors]:
+        aid = [_unescape(a) for a in authors].index(AUTHOR)
+    else:
+        aid = len(authors)
+        if re.search(r"<(\w+:)?authors\s*/>", cxml):
+            cxml = re.sub(r"<(\w+:)?authors\s*/>", f"<{p}authors><{p}author>{AUTHOR}</{p}author></{p}authors>", cxml, count=1)
+        else:
+            end = re.search(r"</(\w+:)?authors>", cxml)
+            cxml = cxml[:end.start()] + f"<{p}author>{AUTHOR}</{p}author>" + cxml[end.start():]
+    body = "".join(
+        f'<{p}comment ref="{ref}" authorId="{aid}"><{p}text><{p}r><{p}t xml:space="preserve">'
+        f"{_text(MARK + text)}</{p}t></{p}r></{p}text></{p}comment>"
+        for ref, text in sorted(wanted.items(), key=lambda kv: (int(re.sub(r'[A-Z]', '', kv[0])), _col_index(kv[0]))))
+    if re.search(r"<(\w+:)?commentList\s*/>", cxml):
+        return re.sub(r"<(\w+:)?commentList\s*/>", f"<{p}commentList>{body}</{p}commentList>", cxml, count=1)
+    end = re.search(r"</(\w+:)?commentList>", cxml)
+    return cxml[:end.start()] + body + cxml[end.start():]
+
+
+_VML_HEAD = ('<xml xmlns:v="urn:schemas-microsoft-com:vml" xmlns:o="urn:schemas-microsoft-com:office:office" '
+             'xmlns:x="urn:schemas-microsoft-com:office:excel"><o:shapelayout v:ext="edit">'
+             '<o:idmap v:ext="edit" data="1"/></o:shapelayout><v:shapetype id="_x0000_t202" coordsize="21600,21600" '
+             'o:spt="202" path="m,l,21600r21600,l21600,xe"><v:stroke joinstyle="miter"/>'
+             '<v:path gradientshapeok="t" o:connecttype="rect"/></v:shapetype>')
+
+
+def _strip_vml(vml: str, refs: set[str]) -> str:
+    """Remove the note shapes anchored at ``refs`` that lagsheet wrote (marked by their id)."""
+    def keep(m):
+        return "" if 'id="lagsheet_' in m.group(0) else m.group(0)
+
+    return re.sub(r"<(\w+:)?shape\b[^>]*>.*?</\1?shape>", keep, vml, flags=re.S)
+
+
+def _add_vml(vml: str, wanted: dict[str, str]) -> str:
+    if not wanted:
+        return vml
+    prefixes = dict((v, k) for k, v in re.findall(r'xmlns:(\w+)="([^"]+)"', vml))
+    v = prefixes.get("urn:schemas-microsoft-com:vml")
+    x = prefixes.get("urn:schemas-microsoft-com:office:excel")
+    decl = ""
+    if v is None:
+        v, decl = "lsv", decl + ' xmlns:lsv="urn:schemas-microsoft-com:vml"'
+    if x is None:
+        x, decl = "lsx", decl + ' xmlns:lsx="urn:schemas-microsoft-com:office:excel"'
+    if 'id="_x0000_t202"' not in vml:
+        head = (f'<{v}:shapetype{decl} id="_x0000_t202" coordsize="21600,21600" path="m,l,21600r21600,l21600,xe">'
+                f'<{v}:stroke joinstyle="miter"/><{v}:path gradientshapeok="t"/></{v}:shapetype>')
+        decl = ""
+    else:
+        head = ""
+    shapes = []
+    for k, ref in enumerate(sorted(wanted)):
+        row = int(re.sub(r"[A-Z]", "", ref)) - 1
+        col = _col_index(ref)
+        shapes.append(
+            f'<{v}:shape{decl} id="lagsheet_{k + 1}" type="#_x0000_t202" style="position:absolute;margin-left:80pt;'
+            f'margin-top:2pt;width:240pt;height:90pt;z-index:{k + 1};visibility:hidden" fillcolor="#ffffe1">'
+            f'<{v}:fill color2="#ffffe1"/><{v}:textbox/><{x}:ClientData ObjectType="Note"><{x}:MoveWithCells/>'
+            f"<{x}:SizeWithCells/><{x}:AutoFill>False</{x}:AutoFill><{x}:Row>{row}</{x}:Row>"
+            f"<{x}:Column>{col}</{x}:Column></{x}:ClientData></{v}:shape>")
+    close = vml.rfind("</")
+    return vml[:close] + head + "".join(shapes) + vml[close:]
