@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from functools import lru_cache
+
 import numpy as np
 
 from .units import from_si
@@ -26,9 +28,18 @@ def show(value: float, kind: str, us: bool = False) -> str:
     unit = us_unit if us else si_unit
     if not np.isfinite(value):
         return "n/a"
-    v = float(from_si([value], _SI_BASE[kind], _text(unit), difference=kind == "difference")[0])
+    scale, offset = _linear(kind, unit)
+    v = value * scale + offset
     d = d_us if us else d_si
     return f"{v:.{d}f} {unit}"
+
+
+@lru_cache(maxsize=64)
+def _linear(kind: str, unit: str) -> tuple[float, float]:
+    """Every conversion used here is linear: ask pint once for its scale and offset."""
+    diff = kind == "difference"
+    a, b = from_si([0.0, 1.0], _SI_BASE[kind], _text(unit), difference=diff)
+    return float(b - a), float(a)
 
 
 def _text(unit: str) -> str:

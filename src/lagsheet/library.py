@@ -45,6 +45,7 @@ def _rows(name: str) -> list[dict]:
         return list(csv.DictReader(fh))
 
 
+@lru_cache(maxsize=4096)
 def key(name: str) -> str:
     """How names are compared: case-insensitive, spaces and hyphens folded."""
     return re.sub(r"[\s_\-]+", " ", str(name).strip().lower())
@@ -102,7 +103,7 @@ def lookup(table: dict, name: str):
     if k in table:
         return table[k]
     for rec in table.values():
-        if k in (key(a) for a in rec.aliases):
+        if any(k == key(a) for a in rec.aliases):
             return rec
     return None
 
@@ -139,6 +140,7 @@ _NPS = re.compile(r'^\s*(?:nps\s*)?([\d\s/½¼¾⅛⅜.\-]+?)\s*(?:"|in|inch|inc
 _DN = re.compile(r"^\s*dn\s*(\d+)\s*$", re.I)
 
 
+@lru_cache(maxsize=4096)
 def pipe_outside_diameter(size: str) -> float | None:
     """Outside diameter [m] of a nominal size (``NPS 4``, ``4"``, ``1 1/2"``, ``DN 100``).
 

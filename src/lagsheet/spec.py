@@ -264,12 +264,13 @@ def specify(inputs: Inputs) -> Results:
     pick = np.maximum(chosen, 0)
     case_pick = pick[case_line]
     gov_cond = np.full(n, None, dtype=object)
+    several = np.diff(np.r_[starts, len(case_line)]) > 1
     for name in worst:
-        sel = np.array([g == name for g in governing])
+        sel = np.array([g == name for g in governing]) & several & ok
         if not sel.any():
             continue
         w = worst[name][np.arange(len(case_line)), case_pick]
-        for i in np.flatnonzero(sel & ok):
+        for i in np.flatnonzero(sel):
             cs = slice(starts[i], starts[i] + len(lines[i].conditions))
             gov_cond[i] = case_cond[cs.start + int(np.nanargmax(w[cs]))].name
     for i in np.flatnonzero(ok & (gov_cond == None)):  # noqa: E711

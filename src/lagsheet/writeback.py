@@ -87,7 +87,10 @@ def _column(out: schema.Output, res: Results, us: bool) -> list:
         conv = from_si(np.nan_to_num(arr), _SI_BASE[unit], _PINT.get(unit, unit))
     else:
         conv = arr
-    return [None if not np.isfinite(a) else float(round(c, 6)) for a, c in zip(arr, conv, strict=True)]
+    out = np.round(np.asarray(conv, dtype=float), 6).tolist()
+    for i in np.flatnonzero(~np.isfinite(arr)):
+        out[i] = None
+    return out
 
 
 def _parse_address(a: str) -> tuple[int, int] | None:

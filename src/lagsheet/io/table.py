@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass, field
+from functools import lru_cache
 from pathlib import Path
 from typing import Any, Protocol
 
@@ -30,7 +31,12 @@ def address(row: int, col: int) -> str:
 
 def fold(text: Any) -> str:
     """Header and sheet-name matching: case-insensitive, surrounding and repeated spaces folded."""
-    return re.sub(r"\s+", " ", str(text if text is not None else "")).strip().lower()
+    return _fold(str(text if text is not None else ""))
+
+
+@lru_cache(maxsize=8192)
+def _fold(text: str) -> str:
+    return re.sub(r"\s+", " ", text).strip().lower()
 
 
 @dataclass

@@ -225,11 +225,17 @@ class _SheetPatch:
         """Row -> col -> new cell XML (None: remove the cell there)."""
         header_styles = self._header_styles()
         rows: dict[int, dict[int, str | None]] = {}
+        letters: dict[int, str] = {}
+        formats = self.e.number_formats
         for (r, c), v in self.e.values.items():
-            ref = address(r, c)
-            fmt = self.e.number_formats.get((r, c))
-            style = header_styles.get((r, c))
-            rows.setdefault(r, {})[c] = _cell_xml(self.p, ref, v, style, fmt, self.styles)
+            letter = letters.get(c)
+            if letter is None:
+                letter = letters[c] = column_letter(c)
+            row = rows.get(r)
+            if row is None:
+                row = rows[r] = {}
+            row[c] = _cell_xml(self.p, f"{letter}{r + 1}", v, header_styles.get((r, c)),
+                               formats.get((r, c)), self.styles)
         return rows
 
     def _header_styles(self) -> dict[tuple[int, int], str | None]:
@@ -286,6 +292,13 @@ class _SheetPatch:
     def _patch_row(self, rm: re.Match, attrs: dict[str, str], cells: dict[int, str | None]) -> str:
         head = rm.group(1)
         body = rm.group(3) or ""
+        fast = self._append_only(body, min(cells))
+        if fast is not None:  # the usual case: our cells all lie right of the row's last cell
+            add = "".join(x for _, x in sorted(cells.items()) if x is not None)
+            if "spans" in attrs:
+                lo = attrs["spans"].split(":")[0]
+                head = re.sub(r'spans="[^"]*"', f'spans="{lo}:{max(cells) + 1}"', head)
+            return f"<{self.p}row{head}>" + body[:fast] + add + body[fast:] + f"</{self.p}row>"
         existing = []
         tail = ""
         pos = 0
@@ -305,6 +318,22 @@ class _SheetPatch:
             lo, hi = min(lo, merged[0][0] + 1), max(hi, merged[-1][0] + 1)
             head = re.sub(r'spans="[^"]*"', f'spans="{lo}:{hi}"', head)
         return f"<{self.p}row{head}>" + "".join(x for _, x in merged) + tail + f"</{self.p}row>"
+
+    def _append_only(self, body: str, first_new: int) -> int | None:
+        """Where to insert when every new column is right of the row's last cell, else None."""
+        last_start = body.rfind(f"<{self.p}c ")
+        if last_start < 0:
+            return 0 if f"<{self.p}c" not in body else None
+        m = re.match(rf'<{re.escape(self.p)}c\b[^>]*?\br="([A-Z]+)\d+"', body[last_start:])
+        if not m or _col_index(m.group(1)) >= first_new:
+            return None
+        close = body.find(">", last_start)
+        if body[close - 1] == "/":
+            pos = close + 1
+        else:
+            pos = body.find(f"</{self.p}c>", close) + len(f"</{self.p}c>")
+        tail = body[pos:]
+        return pos if not re.search(rf"<{re.escape(self.p)}c\b", tail) else None
 
     def _dimension(self, cells) -> None:
         m = re.search(rf'<{re.escape(self.p)}dimension\b[^>]*\bref="([^"]*)"', self.xml)
