@@ -47,6 +47,8 @@ class Results:
     lines: list[Line] = field(default_factory=list)
     system: System | None = None  # the chosen systems at the first condition, for ``explain``
     table: MaterialTable | None = None
+    quantities: Quantities | None = None  # of the chosen systems (lines × 1 × slots)
+    chosen: np.ndarray | None = None  # chosen thickness per slot (lines × slots) [m]
 
     def __post_init__(self):
         for key in RESULT_KEYS:
@@ -285,6 +287,8 @@ def specify(inputs: Inputs) -> Results:
                         np.array([L.bare_emissivity for L in lines]))
     bare = solve(per_line(first_sys, rows, thickness=np.zeros((n, slots)), emissivity=bare_eps), table)
     res.system = first_sys
+    res.quantities = quantities(lines, chosen_th[:, None, :], base)
+    res.chosen = chosen_th
     rate = heat_rate(geometry, sol.q, sol.r_outer)
     bare_rate = heat_rate(geometry, bare.q, bare.r_outer)
     lengths = np.array([L.length for L in lines])
@@ -357,18 +361,24 @@ def _energy_cost(whole, hours, st):
     return bought * float(st["energy_price"])
 
 
-def _installed_cost(lines, cand, base, st, res, t):
-    """Installed cost of every candidate (lines × candidates), NaN where a cost is missing.
+@dataclass(frozen=True)
+class Quantities:
+    """Material take-off of candidate systems: per slot (inner, outer) and the jacket."""
 
-    insulation volume × 'Cost per volume' of its material + outer area × 'Jacket cost per
-    area' + Σ over layers of the layer's area at its mid-radius × 'Labour per layer'.
-    Lines with 'Economic' get an error naming what is missing.
+    volume: np.ndarray  # (..., slots) insulation volume [m³]
+    layers: np.ndarray  # (..., slots) number of layers the slot is built in
+    layer_area: np.ndarray  # (..., slots) Σ over its layers of the area at mid-radius [m²]
+    jacket_area: np.ndarray  # (...) outer surface [m²]
+
+
+def quantities(lines: list[Line], thickness: np.ndarray, base: System) -> Quantities:
+    """Volumes and areas of systems ``thickness`` (lines × candidates × slots) on ``lines``.
+
+    Cylinders per their length, flats per their area, spheres whole. Layers of one
+    material are equal (``Max layer``); each layer's area is taken at its mid-radius.
     """
-    n, m, slots = cand.shape
-    jacket = float(st["jacket_cost_per_area"])
-    labour = float(st["labour_per_layer"])
+    n, m, slots = thickness.shape
     geometry = base.geometry[:, None]
-    r0 = base.r_inner[:, None]
     lengths = np.array([L.length for L in lines])[:, None]
     areas = np.array([L.area for L in lines])[:, None]
 
@@ -381,17 +391,38 @@ def _installed_cost(lines, cand, base, st, res, t):
                          [np.pi * (r2**2 - r1**2) * lengths, 4 / 3 * np.pi * (r2**3 - r1**3)],
                          areas * (r2 - r1))
 
-    total = np.zeros((n, m))
-    r = np.broadcast_to(r0, (n, m)).copy()
+    vol, count, larea = (np.zeros((n, m, slots)) for _ in range(3))
+    r = np.broadcast_to(base.r_inner[:, None], (n, m)).copy()
     for j in range(slots):
-        th = np.nan_to_num(cand[:, :, j])
-        price = np.array([L.materials[j].cost_per_volume if j < len(L.materials) else 0.0 for L in lines])[:, None]
-        max_layer = np.array([L.materials[j].max_layer if j < len(L.materials) else np.inf for L in lines])[:, None]
-        layers = np.where(th > 0, np.ceil(th / max_layer - 1e-9), 0)
+        th = np.nan_to_num(thickness[:, :, j])
+        max_layer = np.array([L.materials[j].max_layer if j < len(L.materials) else np.inf
+                              for L in lines])[:, None]
+        k = np.where(th > 0, np.ceil(th / max_layer - 1e-9), 0)
         r2 = r + th
-        total = total + price * volume(r, r2) + labour * layers * area_at(0.5 * (r + r2))
+        vol[:, :, j] = volume(r, r2)
+        count[:, :, j] = k
+        # k equal layers: the sum of their mid-radius areas
+        step = np.where(k > 0, th / np.maximum(k, 1), 0)
+        mids = sum(area_at(r + (q + 0.5) * step) * (q < k) for q in range(int(count.max(initial=0))))
+        larea[:, :, j] = mids if np.ndim(mids) else 0.0
         r = r2
-    total = total + jacket * area_at(r)
+    return Quantities(vol, count, larea, area_at(r))
+
+
+def _installed_cost(lines, cand, base, st, res, t):
+    """Installed cost of every candidate (lines × candidates), NaN where a cost is missing.
+
+    insulation volume × 'Cost per volume' of its material + outer area × 'Jacket cost per
+    area' + Σ over layers of the layer's area at its mid-radius × 'Labour per layer'.
+    Lines with 'Economic' get an error naming what is missing.
+    """
+    n, m, slots = cand.shape
+    jacket = float(st["jacket_cost_per_area"])
+    labour = float(st["labour_per_layer"])
+    q = quantities(lines, cand, base)
+    price = np.array([[L.materials[j].cost_per_volume if j < len(L.materials) else 0.0 for j in range(slots)]
+                      for L in lines])[:, None, :]
+    total = (price * q.volume + labour * q.layer_area).sum(axis=2) + jacket * q.jacket_area
     total = np.where(np.isfinite(cand[:, :, 0]), total, np.nan)
     for i, L in enumerate(lines):
         if not (L.economic and L.ok):

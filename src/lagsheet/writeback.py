@@ -57,6 +57,10 @@ def lines_edits(raw: RawSheet, t: Table, res: Results, us: bool, currency: str) 
             e.values[(r, col)] = v
             if out.fmt and v is not None and not isinstance(v, str):
                 e.number_formats[(r, col)] = out.fmt
+    for nt in t.notes:  # column notes (a header without its unit, a unit that does not parse)
+        pos = _parse_address(nt.cell) if nt.cell and nt.level in ("error", "warning") else None
+        if pos is not None:
+            e.comments[pos] = (e.comments[pos] + "\n" if pos in e.comments else "") + nt.message
     for i, r in enumerate(t.rows):
         for nt in res.notes[i]:
             if nt.cell and nt.level in ("error", "warning") and nt.sheet == raw.name:

@@ -87,6 +87,29 @@ class SheetEdits:
     widths: dict[int, float] = field(default_factory=dict)  # column -> width (characters), new columns only
 
 
+@dataclass
+class NewSheet:
+    """A sheet lagsheet writes whole (Summary, Quantities): rows of values, formats, a chart."""
+
+    name: str
+    rows: list[list] = field(default_factory=list)
+    formats: dict[tuple[int, int], str] = field(default_factory=dict)
+    bold: set[int] = field(default_factory=set)
+    widths: dict[int, float] = field(default_factory=dict)
+    # {"title": str, "categories": (col, r0, r1), "series": [((row, col) of name, col, r0, r1), ...]}
+    chart: dict | None = None
+    MARK = "lagsheet "  # the first cell of every sheet lagsheet writes starts with this
+
+    def add(self, row: list, fmts: dict[int, str] | None = None, bold: bool = False) -> int:
+        self.rows.append(row)
+        r = len(self.rows) - 1
+        for c, f in (fmts or {}).items():
+            self.formats[(r, c)] = f
+        if bold:
+            self.bold.add(r)
+        return r
+
+
 class Book(Protocol):
     """An open workbook, as every adapter presents it."""
 
@@ -96,4 +119,4 @@ class Book(Protocol):
 
     def sheet(self, name: str) -> RawSheet: ...
 
-    def save(self, edits: list[SheetEdits], out: Path) -> None: ...
+    def save(self, edits: list[SheetEdits], out: Path, new_sheets: list[NewSheet] = ()) -> None: ...

@@ -135,18 +135,22 @@ class XlsxBook:
             self._raw[name] = RawSheet(name, grid, uncached)
         return self._raw[name]
 
-    def save(self, edits: list[SheetEdits], out: Path) -> None:
-        parts: dict[str, bytes] = {}
+    def save(self, edits: list[SheetEdits], out: Path, new_sheets=()) -> None:
+        pkg = _Package(self._zip)
         for e in edits:
             if e.sheet not in self.sheet_names():
-                raise WorkbookError(f"sheet {e.sheet!r} is not in the workbook; lagsheet adds "
-                                    "no new sheets to .xlsx files in this version")
-            parts.update(_SheetPatch(self._zip, self._part(e.sheet), e, parts).run())
+                raise WorkbookError(f"sheet {e.sheet!r} is not in the workbook")
+            _SheetPatch(pkg, self._part(e.sheet), e).run()
+        for sheet in new_sheets:
+            _put_sheet(pkg, self, sheet)
+        parts = pkg.finish()
 
         def write(tmp: str) -> None:
             with zipfile.ZipFile(tmp, "w") as dst:
                 done = set()
                 for info in self._zip.infolist():
+                    if info.filename in pkg.removed:
+                        continue
                     data = parts.get(info.filename)
                     dst.writestr(info, data if data is not None else self._zip.read(info.filename),
                                  compress_type=info.compress_type)
@@ -188,36 +192,99 @@ def _uncached_formulas(xml: str) -> set[tuple[int, int]]:
     return out
 
 
+class _Package:
+    """The parts a save changes, over the original package: reads see earlier changes."""
+
+    def __init__(self, zf: zipfile.ZipFile):
+        self.zf = zf
+        self.names = set(zf.namelist())
+        self.out: dict[str, bytes] = {}
+        self.removed: set[str] = set()
+        self.styles = _Styles(self.read("xl/styles.xml"))
+        self.content_types = self.read("[Content_Types].xml")
+
+    def read(self, name: str) -> str:
+        if name in self.out:
+            return self.out[name].decode("utf-8")
+        return self.zf.read(name).decode("utf-8") if name in self.names and name not in self.removed else ""
+
+    def write(self, name: str, text: str) -> None:
+        self.out[name] = text.encode("utf-8")
+        self.removed.discard(name)
+
+    def exists(self, name: str) -> bool:
+        return (name in self.names and name not in self.removed) or name in self.out
+
+    def free(self, pattern: str) -> str:
+        n = 1
+        while self.exists(pattern.format(n)):
+            n += 1
+        return pattern.format(n)
+
+    def add_rel(self, part: str, rtype: str, target: str) -> str:
+        path = _rels_path(part)
+        xml = self.read(path) or (f'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
+                                  f'<Relationships xmlns="{NS_PKG_REL}"></Relationships>')
+        ids = set(re.findall(r'\bId="([^"]*)"', xml))
+        k = 1
+        while f"rIdLs{k}" in ids:
+            k += 1
+        rid = f"rIdLs{k}"
+        close = re.search(r"</(\w+:)?Relationships>", xml)
+        p = close.group(1) or ""
+        xml = xml[:close.start()] + f'<{p}Relationship Id="{rid}" Type="{rtype}" Target="{target}"/>' + xml[close.start():]
+        self.write(path, xml)
+        return rid
+
+    def override(self, part: str, ctype: str) -> None:
+        if f'PartName="/{part}"' in self.content_types:
+            return
+        close = self.content_types.rfind("</")
+        self.content_types = (self.content_types[:close] + f'<Override PartName="/{part}" ContentType="{ctype}"/>'
+                              + self.content_types[close:])
+
+    def default(self, ext: str, ctype: str) -> None:
+        if re.search(rf'<(\w+:)?Default\b[^>]*Extension="{ext}"', self.content_types, re.I):
+            return
+        m = re.search(r"<(\w+:)?Types\b[^>]*>", self.content_types)
+        self.content_types = (self.content_types[:m.end()] + f'<Default Extension="{ext}" ContentType="{ctype}"/>'
+                              + self.content_types[m.end():])
+
+    def remove(self, part: str) -> None:
+        self.out.pop(part, None)
+        self.removed.add(part)
+        self.content_types = re.sub(rf'<(\w+:)?Override\b[^>]*PartName="/{re.escape(part)}"[^>]*/>', "",
+                                    self.content_types)
+
+    def finish(self) -> dict[str, bytes]:
+        if self.styles.changed:
+            self.write("xl/styles.xml", self.styles.xml)
+        if self.content_types != self.zf.read("[Content_Types].xml").decode("utf-8"):
+            self.write("[Content_Types].xml", self.content_types)
+        return self.out
+
+
 class _SheetPatch:
     """Splices one SheetEdits into one sheet part and the parts that hang off it."""
 
-    def __init__(self, zf: zipfile.ZipFile, part: str, e: SheetEdits, done: dict[str, bytes]):
-        self.zf, self.part, self.e, self.done = zf, part, e, done
-        self.xml = zf.read(part).decode("utf-8")
+    def __init__(self, pkg: _Package, part: str, e: SheetEdits):
+        self.pkg, self.zf, self.part, self.e = pkg, pkg.zf, part, e
+        self.xml = pkg.read(part)
         m = re.search(r"<(\w+:)?worksheet\b", self.xml)
         self.p = m.group(1) or "" if m else ""
-        self.out: dict[str, bytes] = {}
-        self.styles = _Styles(self._read("xl/styles.xml"))
-        self.content_types = self._read("[Content_Types].xml")
+        self.styles = pkg.styles
 
     def _read(self, name: str) -> str:
-        if name in self.done:
-            return self.done[name].decode("utf-8")
-        return self.zf.read(name).decode("utf-8") if name in self.zf.namelist() else ""
+        return self.pkg.read(name)
 
-    def run(self) -> dict[str, bytes]:
+    def run(self) -> None:
         cells = self._cells()
         self._sheet_data(cells)
         self._dimension(cells)
         self._cols()
         self._tables()
         self._comments()
-        self.out[self.part] = self.xml.encode("utf-8")
-        if self.styles.changed:
-            self.out["xl/styles.xml"] = self.styles.xml.encode("utf-8")
-        if self.content_types != self._read("[Content_Types].xml"):
-            self.out["[Content_Types].xml"] = self.content_types.encode("utf-8")
-        return self.out
+        self.pkg.write(self.part, self.xml)
 
     # -- cells ---------------------------------------------------------------------------
 
@@ -421,7 +488,7 @@ class _SheetPatch:
                 txml = txml[:tc.start()] + added + txml[tc.start():]
                 count = len(re.findall(r"<(?:\w+:)?tableColumn\b", txml))
                 txml = re.sub(r'(<(?:\w+:)?tableColumns\b[^>]*\bcount=")\d+"', rf'\g<1>{count}"', txml, count=1)
-            self.out[tpart] = txml.encode("utf-8")
+            self.pkg.write(tpart, txml)
 
     # -- comments ----------------------------------------------------------------------------
 
@@ -441,59 +508,26 @@ class _SheetPatch:
         if c_part is None and not wanted:
             return
         if c_part is None:
-            n = 1
-            while f"xl/comments{n}.xml" in self.zf.namelist() or f"xl/comments{n}.xml" in self.done:
-                n += 1
-            c_part = f"xl/comments{n}.xml"
+            c_part = self.pkg.free("xl/comments{}.xml")
             cxml = (f'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<comments xmlns="{NS_MAIN}">'
                     f"<authors></authors><commentList></commentList></comments>")
-            self._add_rel(REL_COMMENTS, "../" + posixpath.relpath(c_part, "xl"))
-            self._override(c_part, CT_COMMENTS)
+            self.pkg.add_rel(self.part, REL_COMMENTS, "../" + posixpath.relpath(c_part, "xl"))
+            self.pkg.override(c_part, CT_COMMENTS)
         cxml = _add_comments(cxml, wanted)
-        self.out[c_part] = cxml.encode("utf-8")
+        self.pkg.write(c_part, cxml)
         # the VML drawing that shows them
         if v_rel is not None:
             v_part = _rel_target(self.part, v_rel["Target"])
             vml = self._read(v_part)
         else:
-            n = 1
-            while f"xl/drawings/vmlDrawing{n}.vml" in self.zf.namelist():
-                n += 1
-            v_part = f"xl/drawings/vmlDrawing{n}.vml"
+            v_part = self.pkg.free("xl/drawings/vmlDrawing{}.vml")
             vml = _VML_HEAD + "</xml>"
-            rid = self._add_rel(REL_VML, "../" + posixpath.relpath(v_part, "xl"))
-            self._default("vml", CT_VML)
+            rid = self.pkg.add_rel(self.part, REL_VML, "../" + posixpath.relpath(v_part, "xl"))
+            self.pkg.default("vml", CT_VML)
             self._legacy_drawing(rid)
         vml = _strip_vml(vml, ours_refs | set(wanted))
         vml = _add_vml(vml, wanted)
-        self.out[v_part] = vml.encode("utf-8")
-
-    def _add_rel(self, rtype: str, target: str) -> str:
-        path = _rels_path(self.part)
-        xml = self.out.get(path, b"").decode("utf-8") or self._read(path) or (
-            f'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<Relationships xmlns="{NS_PKG_REL}"></Relationships>')
-        ids = set(re.findall(r'\bId="([^"]*)"', xml))
-        k = 1
-        while f"rIdLs{k}" in ids:
-            k += 1
-        rid = f"rIdLs{k}"
-        close = re.search(r"</(\w+:)?Relationships>", xml)
-        p = close.group(1) or ""
-        xml = xml[:close.start()] + f'<{p}Relationship Id="{rid}" Type="{rtype}" Target="{target}"/>' + xml[close.start():]
-        self.out[path] = xml.encode("utf-8")
-        return rid
-
-    def _override(self, part: str, ctype: str) -> None:
-        close = self.content_types.rfind("</")
-        self.content_types = (self.content_types[:close] + f'<Override PartName="/{part}" ContentType="{ctype}"/>'
-                              + self.content_types[close:])
-
-    def _default(self, ext: str, ctype: str) -> None:
-        if re.search(rf'<(\w+:)?Default\b[^>]*Extension="{ext}"', self.content_types, re.I):
-            return
-        m = re.search(r"<(\w+:)?Types\b[^>]*>", self.content_types)
-        self.content_types = (self.content_types[:m.end()] + f'<Default Extension="{ext}" ContentType="{ctype}"/>'
-                              + self.content_types[m.end():])
+        self.pkg.write(v_part, vml)
 
     def _legacy_drawing(self, rid: str) -> None:
         # legacyDrawing comes after these elements and before the rest (ECMA-376 CT_Worksheet order)
@@ -589,12 +623,28 @@ class _Styles:
         self.changed = True
         return str(index)
 
-    def xf_for(self, code: str) -> str:
-        if code not in self._fmt:
-            fid = self._num_fmt_id(code)
-            self._fmt[code] = self._add_xf(
-                f'<{self.p}xf numFmtId="{fid}" fontId="0" fillId="0" borderId="0" xfId="0" applyNumberFormat="1"/>')
-        return self._fmt[code]
+    def xf_for(self, code: str | None, bold: bool = False) -> str:
+        key = f"{code}|{bold}"
+        if key not in self._fmt:
+            fid = self._num_fmt_id(code) if code else 0
+            font = self._bold_font() if bold else 0
+            self._fmt[key] = self._add_xf(
+                f'<{self.p}xf numFmtId="{fid}" fontId="{font}" fillId="0" borderId="0" xfId="0" '
+                f'applyNumberFormat="1"{" applyFont=" + chr(34) + "1" + chr(34) if bold else ""}/>')
+        return self._fmt[key]
+
+    def _bold_font(self) -> int:
+        if getattr(self, "_bold", None) is None:
+            m = re.search(r"<(\w+:)?fonts\b[^>]*>(.*?)</(\w+:)?fonts>", self.xml, re.S)
+            if not m:
+                self._bold = 0
+                return 0
+            index = len(re.findall(r"<(?:\w+:)?font\b", m.group(2)))
+            p = self.p
+            self.xml = self.xml[:m.end(2)] + f'<{p}font><{p}b/><{p}sz val="11"/></{p}font>' + self.xml[m.end(2):]
+            self._recount("fonts", "font")
+            self._bold = index
+        return self._bold
 
     def quote_xf(self, base: str | None) -> str:
         if base not in self._quote:
@@ -694,3 +744,134 @@ def _add_vml(vml: str, wanted: dict[str, str]) -> str:
             f"<{x}:Column>{col}</{x}:Column></{x}:ClientData></{v}:shape>")
     close = vml.rfind("</")
     return vml[:close] + head + "".join(shapes) + vml[close:]
+
+
+REL_WORKSHEET = NS_REL + "/worksheet"
+REL_DRAWING = NS_REL + "/drawing"
+REL_CHART = NS_REL + "/chart"
+CT_WORKSHEET = "application/vnd.openxmlformats-officedocument.spreadsheetml.worksheet+xml"
+CT_DRAWING = "application/vnd.openxmlformats-officedocument.drawing+xml"
+CT_CHART = "application/vnd.openxmlformats-officedocument.drawingml.chart+xml"
+NS_DRAW = "http://schemas.openxmlformats.org/drawingml/2006/spreadsheetDrawing"
+NS_A = "http://schemas.openxmlformats.org/drawingml/2006/main"
+NS_C = "http://schemas.openxmlformats.org/drawingml/2006/chart"
+
+
+def _put_sheet(pkg: _Package, book: XlsxBook, sheet) -> None:
+    """Write a whole sheet of lagsheet's (Summary, Quantities), replacing our earlier one."""
+    from .table import NewSheet
+
+    name = sheet.name
+    while name in book.sheet_names():
+        grid = book.sheet(name).grid
+        first = grid[0][0] if grid and grid[0] else ""
+        if isinstance(first, str) and first.startswith(NewSheet.MARK):
+            break  # ours from an earlier run: replace it
+        name = f"{name} (lagsheet)"  # a person's sheet of that name is never touched
+    if name in book.sheet_names():
+        part = book._part(name)
+        for rel in _read_rels(pkg.zf, part):  # our old drawing and chart go with the old sheet
+            target = _rel_target(part, rel.get("Target", ""))
+            if rel.get("Type") == REL_DRAWING:
+                for r2 in _read_rels(pkg.zf, target):
+                    pkg.remove(_rel_target(target, r2.get("Target", "")))
+                pkg.remove(_rels_path(target))
+                pkg.remove(target)
+        pkg.remove(_rels_path(part))
+    else:
+        part = pkg.free("xl/worksheets/sheet{}.xml")
+        wb_part = _workbook_part(pkg.zf)
+        rid = pkg.add_rel(wb_part, REL_WORKSHEET, posixpath.relpath(part, posixpath.dirname(wb_part)))
+        wb = pkg.read(wb_part)
+        ids = [int(x) for x in re.findall(r'\bsheetId="(\d+)"', wb)]
+        m = re.search(r"</(\w+:)?sheets>", wb)
+        p = m.group(1) or ""
+        rp = _rel_prefix(wb) or "r"
+        decl = "" if _rel_prefix(wb) else f' xmlns:r="{NS_REL}"'
+        wb = (wb[:m.start()] + f'<{p}sheet name="{_text(name)}" sheetId="{max(ids, default=0) + 1}"{decl} '
+              f'{rp}:id="{rid}"/>' + wb[m.start():])
+        pkg.write(wb_part, wb)
+        pkg.override(part, CT_WORKSHEET)
+    styles = pkg.styles
+    rows_xml = []
+    for r, row in enumerate(sheet.rows):
+        cells = []
+        for c, v in enumerate(row):
+            if v is None or v == "":
+                continue
+            fmt = sheet.formats.get((r, c))
+            s = styles.xf_for(fmt, bold=r in sheet.bold) if (fmt or r in sheet.bold) else None
+            ref = f"{column_letter(c)}{r + 1}"
+            if isinstance(v, (int, float)) and not isinstance(v, bool):
+                if v != v or v in (float("inf"), float("-inf")):
+                    continue
+                sattr = f' s="{s}"' if s else ""
+                cells.append(f'<c r="{ref}"{sattr}><v>{repr(float(v))}</v></c>')
+            else:
+                text = str(v)
+                if text[:1] in ("=", "+", "-", "@"):
+                    s = styles.quote_xf(None)
+                sattr = f' s="{s}"' if s else ""
+                cells.append(f'<c r="{ref}"{sattr} t="inlineStr"><is><t xml:space="preserve">{_text(text)}</t></is></c>')
+        if cells:
+            rows_xml.append(f'<row r="{r + 1}">{"".join(cells)}</row>')
+    cols = "".join(f'<col min="{c + 1}" max="{c + 1}" width="{w:g}" customWidth="1"/>'
+                   for c, w in sorted(sheet.widths.items()))
+    drawing = ""
+    if sheet.chart:
+        d_part = pkg.free("xl/drawings/drawing{}.xml")
+        c_part = pkg.free("xl/charts/chart{}.xml")
+        drid = pkg.add_rel(part, REL_DRAWING, "../drawings/" + posixpath.basename(d_part))
+        crid = pkg.add_rel(d_part, REL_CHART, "../charts/" + posixpath.basename(c_part))
+        pkg.override(d_part, CT_DRAWING)
+        pkg.override(c_part, CT_CHART)
+        pkg.write(d_part, _drawing_xml(crid, len(sheet.rows) + 1))
+        pkg.write(c_part, _chart_xml(name, sheet))
+        drawing = f'<drawing r:id="{drid}"/>'
+    xml = (f'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<worksheet xmlns="{NS_MAIN}" '
+           f'xmlns:r="{NS_REL}"><dimension ref="A1:{column_letter(max((len(r) for r in sheet.rows), default=1) - 1)}'
+           f'{max(len(sheet.rows), 1)}"/><sheetViews><sheetView workbookViewId="0"/></sheetViews>'
+           f'<sheetFormatPr defaultRowHeight="15"/>' + (f"<cols>{cols}</cols>" if cols else "")
+           + f'<sheetData>{"".join(rows_xml)}</sheetData><pageMargins left="0.7" right="0.7" top="0.75" '
+           f'bottom="0.75" header="0.3" footer="0.3"/>{drawing}</worksheet>')
+    pkg.write(part, xml)
+
+
+def _drawing_xml(chart_rid: str, row: int) -> str:
+    return (f'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<xdr:wsDr xmlns:xdr="{NS_DRAW}" '
+            f'xmlns:a="{NS_A}"><xdr:twoCellAnchor><xdr:from><xdr:col>0</xdr:col><xdr:colOff>0</xdr:colOff>'
+            f"<xdr:row>{row}</xdr:row><xdr:rowOff>0</xdr:rowOff></xdr:from><xdr:to><xdr:col>8</xdr:col>"
+            f"<xdr:colOff>0</xdr:colOff><xdr:row>{row + 20}</xdr:row><xdr:rowOff>0</xdr:rowOff></xdr:to>"
+            '<xdr:graphicFrame macro=""><xdr:nvGraphicFramePr><xdr:cNvPr id="2" name="lagsheet chart"/>'
+            '<xdr:cNvGraphicFramePr/></xdr:nvGraphicFramePr><xdr:xfrm><a:off x="0" y="0"/><a:ext cx="0" cy="0"/>'
+            f'</xdr:xfrm><a:graphic><a:graphicData uri="{NS_C}"><c:chart xmlns:c="{NS_C}" '
+            f'xmlns:r="{NS_REL}" r:id="{chart_rid}"/></a:graphicData></a:graphic></xdr:graphicFrame>'
+            "<xdr:clientData/></xdr:twoCellAnchor></xdr:wsDr>")
+
+
+def _chart_xml(sheet_name: str, sheet) -> str:
+    ch = sheet.chart
+    q = "'" + sheet_name.replace("'", "''") + "'"
+
+    def rng(col, r0, r1):
+        letter = column_letter(col)
+        return f"{q}!${letter}${r0 + 1}:${letter}${r1 + 1}"
+
+    cat_col, c0, c1 = ch["categories"]
+    series = []
+    for k, ((nr, nc), col, r0, r1) in enumerate(ch["series"]):
+        series.append(
+            f'<c:ser><c:idx val="{k}"/><c:order val="{k}"/><c:tx><c:strRef><c:f>{_text(q)}!${column_letter(nc)}'
+            f"${nr + 1}</c:f></c:strRef></c:tx><c:cat><c:strRef><c:f>{_text(rng(cat_col, c0, c1))}</c:f></c:strRef>"
+            f"</c:cat><c:val><c:numRef><c:f>{_text(rng(col, r0, r1))}</c:f></c:numRef></c:val></c:ser>")
+    return (f'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<c:chartSpace xmlns:c="{NS_C}" '
+            f'xmlns:a="{NS_A}" xmlns:r="{NS_REL}"><c:chart><c:title><c:tx><c:rich><a:bodyPr/><a:p><a:r>'
+            f"<a:t>{_text(ch['title'])}</a:t></a:r></a:p></c:rich></c:tx><c:overlay val=\"0\"/></c:title>"
+            '<c:autoTitleDeleted val="0"/><c:plotArea><c:layout/><c:barChart><c:barDir val="col"/>'
+            '<c:grouping val="clustered"/><c:varyColors val="0"/>' + "".join(series)
+            + '<c:axId val="10"/><c:axId val="20"/></c:barChart><c:catAx><c:axId val="10"/><c:scaling>'
+            '<c:orientation val="minMax"/></c:scaling><c:delete val="0"/><c:axPos val="b"/><c:crossAx val="20"/>'
+            '</c:catAx><c:valAx><c:axId val="20"/><c:scaling><c:orientation val="minMax"/></c:scaling>'
+            '<c:delete val="0"/><c:axPos val="l"/><c:majorGridlines/><c:numFmt formatCode="#,##0" sourceLinked="0"/>'
+            '<c:crossAx val="10"/></c:valAx></c:plotArea><c:legend><c:legendPos val="b"/></c:legend>'
+            '<c:plotVisOnly val="1"/></c:chart></c:chartSpace>')
