@@ -91,6 +91,9 @@ def _check_tags(t, res: Results, lines: list[Line]) -> None:
             L.ok = False
         else:
             seen[fold(tag)] = i
+            if fold(tag).startswith("example"):
+                res.notes[i].append(Note("warning", "example-row", "example row from the lagsheet template: "
+                                         "replace it with your own line or delete it", t.sheet, t.cell(i, "tag")))
 
 
 def specify(inputs: Inputs) -> Results:
