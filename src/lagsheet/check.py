@@ -230,6 +230,29 @@ def _convert(sheet: RawSheet, t: Table, c: Column) -> None:
                           sheet.name, address(t.rows[i], c.col)))
             nums[i] = np.nan
     c.values = nums
+    _plausibility(sheet, t, c, raw, nums)
+
+
+def _plausibility(sheet: RawSheet, t: Table, c: Column, raw, nums) -> None:
+    """Column-level: do the values suggest another unit? Cell-level: outside the plausible range?"""
+    from . import plausibility
+
+    key = c.field.key
+    written = np.array([float(v) if isinstance(v, (int, float)) and not isinstance(v, bool) else np.nan
+                        for v in raw])
+    hint = plausibility.suggest(key, str(c.unit), written, nums)
+    if hint:
+        c.status = "warning" if c.status == "ok" else c.status
+        c.message = f"{c.field.header!r} is labelled {unit_label(c.unit)} but its values suggest {hint}; check the header"
+        t.notes.append(Note("warning", "likely-mislabelled", c.message, sheet.name, address(t.header_row, c.col)))
+    rng = plausibility.PLAUSIBLE.get(key)
+    if rng is None:
+        return
+    lo, hi = rng
+    for i in np.flatnonzero(np.isfinite(nums) & ((nums < lo) | (nums > hi))):
+        t.cell_notes.setdefault(int(i), []).append(Note(
+            "warning", "implausible", f"{c.field.header!r} of {raw[i]!r} {unit_label(c.unit)} is outside the "
+            "usual range for this field; check the value and its unit", sheet.name, address(t.rows[i], c.col)))
 
 
 def _fmt(x: float) -> str:

@@ -11,7 +11,7 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from . import library, schema
+from . import library, plausibility, schema
 from .check import Table, read_table, split_header
 from .errors import Note
 from .io.table import Book, address, fold
@@ -260,6 +260,15 @@ def _materials(book: Book, notes: list[Note], columns: list[dict]) -> dict[str, 
                 except ValueError as exc:
                     notes.append(Note("error", "bad-thicknesses", f"{exc}; write e.g. '25, 40, 50'",
                                       name, t.cell(idx[0], "thicknesses")))
+        if "conductivities" in fields:
+            floor = plausibility.below_still_air(str(names[idx[0]]), np.array(fields["mean_temperatures"]),
+                                                 np.array(fields["conductivities"]))
+            if floor is not None:
+                notes.append(Note("warning", "below-still-air",
+                                  f"material {names[idx[0]]!r} has a conductivity below still air "
+                                  f"({floor:.4f} W/(m·K) at that temperature, CoolProp); a conventional insulation "
+                                  "cannot do that (common practice): check the unit of 'Conductivity', or name "
+                                  "the material as an aerogel or vacuum insulation", name, t.cell(idx[0], "conductivity")))
         if base is not None:
             rec = replace(base, **fields, source=f"{name} sheet (overrides the built-in {base.name!r})")
         else:
