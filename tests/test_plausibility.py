@@ -3,10 +3,11 @@
 from __future__ import annotations
 
 import pytest
-from conftest import write_book
 
 from lagsheet.inputs import read_inputs
 from lagsheet.io import open_book
+
+from conftest import write_book
 
 
 def notes_of(tmp_path, rows, headers, sheets=None):

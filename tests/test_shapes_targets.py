@@ -6,8 +6,9 @@ import json
 
 import pytest
 
-from conftest import write_book
 from lagsheet.pipeline import fill
+
+from conftest import write_book
 
 HEADERS = ["Tag", "Shape", "Size", "Outside diameter [mm]", "Length [m]", "Surface area [m²]", "Width [m]",
            "Operating temperature [°C]", "Condition", "Insulation", "Outer insulation", "Finish",

@@ -6,9 +6,10 @@ import json
 
 import pytest
 
-from conftest import pipe, write_book
 from lagsheet.library import materials
 from lagsheet.pipeline import fill
+
+from conftest import pipe, write_book
 
 SOLD = materials()["mineral wool"].thicknesses  # m
 

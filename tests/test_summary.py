@@ -4,10 +4,11 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from conftest import write_book
 
 from lagsheet.pipeline import fill
 from lagsheet.summary import quantities_table, summary
+
+from conftest import write_book
 
 HEAD = ["Tag", "Area", "Shape", "Size", "Outside diameter [mm]", "Length [m]", "Surface area [m²]",
         "Operating temperature [°C]", "Insulation", "Outer insulation", "Max surface temperature [°C]",
