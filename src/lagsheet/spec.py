@@ -49,6 +49,7 @@ class Results:
     table: MaterialTable | None = None
     quantities: Quantities | None = None  # of the chosen systems (lines × 1 × slots)
     chosen: np.ndarray | None = None  # chosen thickness per slot (lines × slots) [m]
+    target_thickness: list[dict] = field(default_factory=list)  # per line: target -> its own thinnest [m]
 
     def __post_init__(self):
         for key in RESULT_KEYS:
@@ -253,6 +254,9 @@ def specify(inputs: Inputs) -> Results:
     governing = np.full(n, None, dtype=object)
     gov_name = np.full(n, None, dtype=object)
     own = {name: _first(meets[name] & valid) for name in meets}
+    res.target_thickness = [
+        {name: (float(total[i, own[name][i]]) if own[name][i] >= 0 else None)
+         for name in own if given[name][i]} for i in range(n)]
     for name in reversed(GOVERNING_ORDER):  # earlier names win ties
         if name in own:
             hit = given[name] & (own[name] == chosen)

@@ -1,0 +1,105 @@
+"""The whole calculation of one line, in words and numbers, for a checking engineer.
+
+Inputs as written and in SI; each layer's face temperatures and the conductivity used
+(the integral mean over the layer, ASTM C680); the dimensionless groups, correlations
+and coefficients at the outer surface; the balance residual; each target's own
+thinnest thickness and the governing one; the line's notes.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .display import show
+from .inputs import Inputs
+from .io.table import RawSheet, address, fold
+from .physics.balance import solve
+from .physics.layers import CYLINDER, FLAT, SPHERE
+from .physics.radiation import SIGMA
+from .physics.sizing import per_line
+from .physics.surface import CORRELATION_NAMES
+from .spec import Results
+
+
+def find_line(res: Results, tag: str) -> int | None:
+    for i, t in enumerate(res.tags):
+        if fold(t) == fold(tag):
+            return i
+    return None
+
+
+def explain(inputs: Inputs, raw: RawSheet, res: Results, i: int) -> list[str]:
+    """Lines of text explaining line ``i`` of the results."""
+    us = inputs.us_units
+    t = inputs.lines
+    L = res.lines[i]
+    out = [f"Line {res.tags[i]} ({t.sheet} row {t.rows[i] + 1}), status: {res.status[i]}", "", "Inputs as written:"]
+    for c in sorted(t.columns.values(), key=lambda c: c.col):
+        v = raw.value(t.rows[i], c.col)
+        if v is None:
+            continue
+        si = ""
+        if c.values is not None and c.values.dtype != object and np.isfinite(c.values[i]) and c.si_unit:
+            si = f"  ->  {c.values[i]:.6g} {c.si_unit.replace('**2', '²')}"
+        out.append(f"  {c.header} ({address(t.rows[i], c.col)}): {v!r}{si}")
+    if not L.ok or res.system is None or not np.isfinite(res.values["thickness"][i]):
+        out += ["", "Not computed:"] + [f"  {n.level}: {n.message}" for n in res.notes[i]]
+        return out
+    cond = L.conditions[0]
+    geo = {CYLINDER: "cylinder", FLAT: "flat", SPHERE: "sphere"}[L.geometry]
+    out += ["", f"Shape: {L.word} ({geo}); condition of record: {cond.name} — air "
+            f"{show(cond.t_air, 'temperature', us)}, surroundings {show(cond.t_surroundings, 'temperature', us)}, "
+            f"wind {cond.wind:g} m/s, RH {cond.rh * 100:.0f} %, {cond.hours:g} h/yr"]
+    if len(L.conditions) > 1:
+        out.append(f"  targets also judged at: {', '.join(c.name for c in L.conditions[1:])}")
+    s1 = per_line(res.system, np.array([i]))
+    sol = solve(s1, res.table)
+    faces, radii = sol.faces[0], sol.radii[0]
+    out += ["", "Layers, inner first (conductivity: integral mean over the layer):"]
+    out.append(f"  bare surface at {show(faces[0], 'temperature', us)}"
+               + (f", outside diameter {show(2 * radii[0], 'radius', us)}" if L.geometry != FLAT else ""))
+    for j in range(s1.thickness.shape[1]):
+        th = s1.thickness[0, j]
+        if th <= 0:
+            continue
+        m = int(s1.material[0, j])
+        k = float(res.table.mean_conductivity(np.array([m]), faces[j:j + 1], faces[j + 1:j + 2])[0])
+        out.append(f"  {show(th, 'thickness', us)} {res.table.names[m]}: {show(faces[j], 'temperature', us)} -> "
+                   f"{show(faces[j + 1], 'temperature', us)}, k = {k:.4f} W/(m·K)")
+    conv = sol.convection
+    free_name, forced_name = CORRELATION_NAMES[L.shape]
+    ts, q = float(sol.t_surface[0]), float(sol.q[0])
+    h_c, h_r = float(conv.h[0]), float(sol.h_radiation[0])
+    out += ["", "Outer surface:",
+            f"  surface temperature {show(ts, 'temperature', us)}, film {show(0.5 * (ts + cond.t_air), 'temperature', us)}",
+            f"  free convection: {free_name}, Ra = {conv.ra[0]:.4g}, Nu = {conv.nu_free[0]:.4g}",
+            f"  forced convection: {forced_name}, Re = {conv.re[0]:.4g}, Nu = {conv.nu_forced[0]:.4g}",
+            f"  combined (Churchill-Usagi, n = 3): Nu = {conv.nu[0]:.4g}, Pr = {conv.pr[0]:.4f}, "
+            f"h_conv = {h_c:.3f} W/(m²·K)",
+            f"  radiation: emissivity {float(s1.emissivity[0]):.2f}, sigma = {SIGMA:.6e} W/(m²·K⁴), "
+            f"q_rad = {float(sol.q_radiation[0]):.2f} W/m², h_rad (linearised) = {h_r:.3f} W/(m²·K)",
+            f"  heat flux {q:.3f} W/m² = convection {h_c * (ts - cond.t_air):.3f} + radiation "
+            f"{float(sol.q_radiation[0]):.3f}; balance residual {float(sol.residual[0]):.2e} (relative)"]
+    v = res.values
+    if L.geometry == CYLINDER:
+        out.append(f"  heat loss per length {show(float(v['heat_loss_per_length'][i]), 'per_length', us)}")
+    out.append(f"  heat loss {show(float(v['heat_loss'][i]), 'power', us)} (bare {show(float(v['bare_heat_loss'][i]), 'power', us)})")
+    if np.isfinite(v["critical_radius"][i]):
+        rule = "2k/h" if L.geometry == SPHERE else "k/h"
+        out.append(f"  critical radius {show(float(v['critical_radius'][i]), 'radius', us)} "
+                   f"({rule} with h = h_conv + h_rad = {h_c + h_r:.3f} W/(m²·K))")
+    out += ["", "Targets (each one's own thinnest sold thickness):"]
+    for name, th in (res.target_thickness[i] if res.target_thickness else {}).items():
+        out.append(f"  {name}: " + (show(th, "thickness", us) if th is not None else "not met by any sold thickness"))
+    out.append(f"  governing: {v['governing'][i]}" + (f" at '{v['governing_condition'][i]}'"
+                                                      if v["governing_condition"][i] else ""))
+    out.append(f"  chosen: {v['layers'][i]}")
+    cur = inputs.settings["currency"]
+    out += ["", f"Energy and money at '{cond.name}': annual energy {v['annual_energy'][i]:,.0f} kWh, "
+            f"cost {v['annual_cost'][i]:,.0f} {cur}, saving {v['annual_saving'][i]:,.0f} {cur}, "
+            f"CO2 {v['co2'][i]:,.0f} kg/yr"]
+    if res.notes[i]:
+        out += ["", "Notes:"] + [f"  {n.level}: {n.message}" for n in res.notes[i]]
+    out += ["", "Cautions: surface limits depend on contact time and surface material (ASTM C1055, ISO 13732-1); "
+            "follow local codes, the owner's specification and licensed practice."]
+    return out
