@@ -44,6 +44,9 @@ class System:
     thickness: np.ndarray
     material: np.ndarray
     flow_length: np.ndarray | None = None  # [m] along the wind, flat shapes (None: 1 m)
+    # a fixed combined surface coefficient [W/(m²·K)] in place of the correlations and radiation,
+    # NaN where not fixed (None: nowhere). For audits that reproduce simplified hand methods.
+    h_fixed: np.ndarray | None = None
 
 
 @dataclass(frozen=True)
@@ -73,8 +76,16 @@ def solve(s: System, table: MaterialTable) -> Solution:
     g = geometric_lengths(s.geometry, radii)
     d_out = 2.0 * radii[:, -1]
     flow = np.ones(n) if s.flow_length is None else s.flow_length
-    q0, _ = surface_flux(s.shape, s.t_operating, s.t_air, s.t_surroundings, s.wind,
-                         s.emissivity, d_out, s.height, flow)
+    fixed = np.full(n, np.nan) if s.h_fixed is None else np.asarray(s.h_fixed, dtype=float)
+
+    def flux(rows, ts):
+        q, c = surface_flux(s.shape[rows], ts, s.t_air[rows], s.t_surroundings[rows], s.wind[rows],
+                            s.emissivity[rows], d_out[rows], s.height[rows], flow[rows])
+        hf = fixed[rows]
+        return np.where(np.isfinite(hf), hf * (ts - s.t_air[rows]), q), c
+
+    every = np.arange(n)
+    q0, _ = flux(every, s.t_operating)
     insulated = g.sum(axis=1) > 0
     zero = np.abs(q0) < 1e-12
     x = np.where(insulated & ~zero, np.nan, 1.0)
@@ -86,9 +97,7 @@ def solve(s: System, table: MaterialTable) -> Solution:
             idx = idx.astype(np.intp)
             q = xi * q0[idx]
             ts = march(table, s.material[idx], g[idx], s.t_operating[idx], q)[:, -1]
-            qs, _ = surface_flux(s.shape[idx], ts, s.t_air[idx], s.t_surroundings[idx],
-                                 s.wind[idx], s.emissivity[idx], d_out[idx], s.height[idx],
-                                 flow[idx])
+            qs, _ = flux(idx, ts)
             return xi - qs / q0[idx]
 
         res = find_root(residual, (np.zeros(todo.size), np.ones(todo.size)),
@@ -100,8 +109,7 @@ def solve(s: System, table: MaterialTable) -> Solution:
     q = x * q0
     faces = march(table, s.material, g, s.t_operating, q)
     ts = faces[:, -1]
-    q_out, conv = surface_flux(s.shape, ts, s.t_air, s.t_surroundings, s.wind,
-                               s.emissivity, d_out, s.height, flow)
+    q_out, conv = flux(every, ts)
     scale = np.maximum(np.maximum(np.abs(q), np.abs(q_out)), 1e-300)
     return Solution(
         q=q, faces=faces, radii=radii, convection=conv,
