@@ -1,0 +1,611 @@
+"""How fast lagsheet sizes a large schedule, against plain baselines measured in the same run.
+
+    python bench/fill_speed.py --lines 50000 [--sample 200] [--repeat 3] [--keep DIR] [--profile 25]
+
+1. Writes a deterministic schedule workbook of N lines (the headers of ``lagsheet.demo``).
+2. Engine: ``lagsheet.physics.balance.solve`` on all N lines at one thickness, and
+   ``lagsheet.spec.specify`` (the full sizing: every sold thickness of every line), against
+   a plain per-line loop on a sample (scipy ``brentq`` on the surface temperature, CoolProp
+   ``PropsSI`` air properties at the film temperature on every iteration, the ``ht``
+   correlations, k at the mean temperature by ``np.interp``). Checks both agree on the
+   sample's heat loss.
+3. ``lagsheet.pipeline.fill`` end to end against openpyxl's bare ``load_workbook`` + ``save``
+   of the same workbook, with the peak memory of each in a fresh subprocess.
+
+Figures and ratios only: nothing here asserts a speed (the machines it runs on are noisy).
+Times are the best of ``--repeat`` runs unless said otherwise.
+"""
+
+from __future__ import annotations
+
+import argparse
+import cProfile
+import gc
+import math
+import os
+import platform
+import pstats
+import subprocess
+import sys
+import tempfile
+import time
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+# Targets the figures are read against (printed, never asserted).
+TARGET_ENGINE_RATIO = 200.0  # engine lines/s over per-line loop lines/s, at least
+TARGET_FILL_RATIO = 1.25  # fill time over bare openpyxl load + save, at most
+BENCH_THICKNESS = 0.050  # m, the one thickness of the engine-versus-loop comparison
+P_ATM = 101325.0
+
+# ---------------------------------------------------------------------------------------
+# 1. the schedule
+# ---------------------------------------------------------------------------------------
+
+HOT_MATERIALS = (  # (name, lowest, highest operating °C it is given for, weight)
+    ("mineral wool", 40, 450, 0.50),
+    ("calcium silicate", 150, 450, 0.15),
+    ("perlite", 150, 450, 0.05),
+    ("cellular glass", 40, 300, 0.15),
+    ("polyisocyanurate", 40, 120, 0.10),
+    ("elastomeric foam", 40, 90, 0.05),
+)
+HOT_FINISHES = (("aluminium", 0.50), ("stainless steel", 0.15), ("galvanised steel", 0.15),
+                ("painted", 0.10), ("mastic", 0.05), ("none", 0.05))
+COLD_FINISHES = (("none", 0.7), ("pvc", 0.3))
+
+
+@dataclass
+class Line:
+    """One generated line: what goes into the workbook, and the numbers behind it."""
+
+    tag: str
+    area: str
+    service: str
+    shape: str
+    size: str
+    od: float  # m
+    length: float  # m
+    t_op: float  # °C
+    condition: str
+    insulation: str
+    finish: str
+    ts_max: float | None
+    q_max: float | None
+    condensation: str | None
+    t_min: float | None  # mm
+    fixed: float | None  # mm
+
+    def row(self, headers: list[str]) -> list:
+        """The cells under ``headers`` (matched without their units; others left blank)."""
+        by_name = {"tag": self.tag, "area": self.area, "service": self.service,
+                   "shape": self.shape, "size": self.size, "length": self.length,
+                   "operating temperature": self.t_op, "condition": self.condition,
+                   "insulation": self.insulation, "finish": self.finish,
+                   "max surface temperature": self.ts_max, "max heat loss": self.q_max,
+                   "prevent condensation": self.condensation, "min thickness": self.t_min,
+                   "fixed thickness": self.fixed}
+        return [by_name.get(h.split("[")[0].strip().lower()) for h in headers]
+
+
+def _pick(rng, options):
+    names = [o[0] for o in options]
+    w = np.array([o[-1] for o in options], dtype=float)
+    return names[rng.choice(len(names), p=w / w.sum())]
+
+
+def make_lines(n: int, seed: int) -> list[Line]:
+    """N lines: NPS ½-24, 40-450 °C hot lines and 5 °C chilled ones, three conditions."""
+    from lagsheet import library
+
+    rng = np.random.default_rng(seed)
+    sizes = []  # (nps text, dn, od m), from the built-in table
+    for r in library._rows("pipe_sizes.csv"):
+        sizes.append((r["nps"], int(r["dn"]), float(r["outside_diameter_mm"]) / 1000))
+    size_w = 1.0 / (1.0 + np.arange(len(sizes))) ** 0.6  # small bores are the most common
+    size_w /= size_w.sum()
+    mats = library.materials()
+    areas = ("Boiler house", "Steam distribution", "Process area", "Tank farm", "Utilities",
+             "Building services")
+    lines = []
+    for i in range(n):
+        nps, dn, od = sizes[rng.choice(len(sizes), p=size_w)]
+        style = rng.random()
+        size = (f"NPS {nps}" if style < 0.6 else f"DN {dn}" if style < 0.85 else f'{nps}"')
+        shape = "riser" if rng.random() < 0.1 else "pipe"
+        length = float(rng.integers(3, 40) if shape == "riser" else rng.integers(5, 400))
+        chilled = rng.random() < 0.1
+        ts_max = q_max = cond_yes = t_min = fixed = None
+        if chilled:
+            t_op, material = 5.0, "elastomeric foam"
+            condition = "indoor" if rng.random() < 0.5 else "plant room"
+            finish = _pick(rng, COLD_FINISHES)
+            cond_yes = "yes"
+            service = "Chilled water"
+        else:
+            t_op = float(5 * round(rng.uniform(40, 450) / 5))
+            fits = [m for m in HOT_MATERIALS if m[1] <= t_op <= m[2]]
+            material = _pick(rng, [(m[0], m[3]) for m in fits])
+            c = rng.random()
+            condition = "indoor" if c < 0.45 else "outdoor" if c < 0.9 else "plant room"
+            finish = _pick(rng, HOT_FINISHES)
+            service = "Steam" if t_op >= 120 else "Hot water"
+            t = rng.random()
+            if t < 0.70:
+                ts_max = float(rng.choice((50, 55, 60)))
+            if 0.45 <= t < 0.90:
+                # a heat-loss limit that about 50 mm of k = 0.05 W/(m·K) would meet, ×0.8-1.6
+                r = od / 2
+                guide = 2 * math.pi * 0.05 * (t_op - 15) / math.log((r + 0.05) / r)
+                q_max = float(round(guide * rng.uniform(0.8, 1.6)))
+            if rng.random() < 0.03:
+                t_min = float(rng.choice((25, 40, 50)))
+        if rng.random() < 0.01:
+            fixed = float(round(rng.choice(mats[library.key(material)].thicknesses) * 1000))
+        lines.append(Line(f"L-{i + 1:06d}", areas[i % len(areas)], service, shape, size, od,
+                          length, t_op, condition, material, finish, ts_max, q_max, cond_yes,
+                          t_min, fixed))
+    return lines
+
+
+def write_schedule(path: Path, lines: list[Line]) -> None:
+    """The workbook, laid out like the demo's: title rows, header row 4, Conditions, Settings."""
+    import openpyxl
+    from openpyxl.styles import Font
+
+    from lagsheet.demo import CONDITIONS, HEADERS, SETTINGS
+
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "Lines"
+    ws["A1"] = f"Benchmark schedule: {len(lines)} generated lines (invented data)"
+    ws["A1"].font = Font(bold=True, size=13)
+    ws.append([])
+    ws.append([])
+    ws.append(HEADERS)
+    for cell in ws[4]:
+        cell.font = Font(bold=True)
+    for line in lines:
+        ws.append(line.row(HEADERS))
+    ws.freeze_panes = "B5"
+    for name, rows in (("Conditions", CONDITIONS), ("Settings", SETTINGS)):
+        s = wb.create_sheet(name)
+        for r in rows:
+            s.append(list(r))
+    wb.save(path)
+
+
+# ---------------------------------------------------------------------------------------
+# 2. engine against a per-line loop
+# ---------------------------------------------------------------------------------------
+
+def _conditions() -> dict[str, tuple[float, float, float]]:
+    """name -> (air K, surroundings K, wind m/s), from the demo's Conditions sheet."""
+    from lagsheet.demo import CONDITIONS
+
+    return {r[0]: (r[1] + 273.15, r[2] + 273.15, float(r[3])) for r in CONDITIONS[1:]}
+
+
+def build_system(lines: list[Line], thickness: float):
+    """All lines as one engine System at one thickness (one layer of each line's material)."""
+    from lagsheet import library
+    from lagsheet.physics.balance import System
+    from lagsheet.physics.layers import CYLINDER, MaterialTable
+    from lagsheet.physics.surface import PIPE, RISER
+
+    mats = library.materials()
+    table = MaterialTable.build({m.name: (np.array(m.mean_temperatures), np.array(m.conductivities))
+                                 for m in mats.values()})
+    fin = library.finishes()
+    cond = _conditions()
+    n = len(lines)
+    c = np.array([cond[x.condition] for x in lines])
+    s = System(
+        geometry=np.full(n, CYLINDER),
+        shape=np.array([RISER if x.shape == "riser" else PIPE for x in lines]),
+        t_operating=np.array([x.t_op + 273.15 for x in lines]),
+        t_air=c[:, 0].copy(), t_surroundings=c[:, 1].copy(), wind=c[:, 2].copy(),
+        emissivity=np.array([fin[library.key(x.finish)].emissivity for x in lines]),
+        r_inner=np.array([x.od / 2 for x in lines]),
+        height=np.array([x.length for x in lines]),
+        thickness=np.full((n, 1), thickness),
+        material=np.array([table.index(x.insulation) for x in lines])[:, None],
+    )
+    return s, table
+
+
+def _extend_linearly(t_pts, k_pts):
+    """Points carried on linearly from the end segments to 1 K and 4000 K, each end k held
+    within a quarter and four times its last given value (the engine's convention)."""
+    t, k = np.asarray(t_pts, dtype=float), np.asarray(k_pts, dtype=float)
+    lo_s = (k[1] - k[0]) / (t[1] - t[0]) if len(t) > 1 else 0.0
+    hi_s = (k[-1] - k[-2]) / (t[-1] - t[-2]) if len(t) > 1 else 0.0
+    k_lo = np.clip(k[0] + lo_s * (1.0 - t[0]), 0.25 * k[0], 4 * k[0])
+    k_hi = np.clip(k[-1] + hi_s * (4000.0 - t[-1]), 0.25 * k[-1], 4 * k[-1])
+    return np.concatenate(([1.0], t, [4000.0])), np.concatenate(([k_lo], k, [k_hi]))
+
+
+def _k_integral_mean(t_pts, k_pts, t1, t2):
+    """Mean of the piecewise-linear k(T) over [t2, t1] (np.interp between the points)."""
+    if abs(t1 - t2) < 1e-9:
+        return float(np.interp(t1, t_pts, k_pts))
+    lo, hi = min(t1, t2), max(t1, t2)
+    knots = np.concatenate(([lo], t_pts[(t_pts > lo) & (t_pts < hi)], [hi]))
+    return float(np.trapezoid(np.interp(knots, t_pts, k_pts), knots) / (hi - lo))
+
+
+def loop_line(line: Line, thickness: float, air_cond, eps: float, t_pts, k_pts,
+              k_mode: str = "mean"):
+    """One line, the plain way: brentq on the surface temperature; returns (W/m, Ts K).
+
+    ``k_mode`` "mean": k at the layer's mean temperature (the timed baseline); "integral":
+    the mean of k(T) over the two face temperatures, the points carried on past their ends,
+    as the engine takes it (a check of the agreement only, untimed).
+    """
+    from CoolProp.CoolProp import PropsSI
+    from ht.conv_external import Nu_cylinder_Churchill_Bernstein
+    from ht.conv_free_immersed import (
+        Nu_horizontal_cylinder_Churchill_Chu,
+        Nu_vertical_plate_Churchill,
+    )
+    from scipy.constants import Stefan_Boltzmann as SIGMA
+    from scipy.constants import g as G
+    from scipy.optimize import brentq
+
+    ti = line.t_op + 273.15
+    ta, tsur, wind = air_cond
+    ri = line.od / 2
+    ro = ri + thickness
+    d = 2 * ro
+    glen = ro * math.log(ro / ri)  # conduction: q_outer = k (Ti - Ts) / glen
+    riser = line.shape == "riser"
+
+    def q_surface(ts):
+        tf = 0.5 * (ts + ta)
+        mu = PropsSI("V", "T", tf, "P", P_ATM, "Air")
+        k = PropsSI("L", "T", tf, "P", P_ATM, "Air")
+        cp = PropsSI("C", "T", tf, "P", P_ATM, "Air")
+        rho = PropsSI("D", "T", tf, "P", P_ATM, "Air")
+        nu, pr = mu / rho, cp * mu / k
+        length = line.length if riser else d
+        gr = G * (1.0 / tf) * abs(ts - ta) * length**3 / (nu * nu)
+        if riser:  # vertical plate on the height, brought to the diameter
+            n_free = Nu_vertical_plate_Churchill(pr, gr) * d / line.length
+        else:
+            n_free = Nu_horizontal_cylinder_Churchill_Chu(pr, gr)
+        n_forced = Nu_cylinder_Churchill_Bernstein(wind * d / nu, pr) if wind > 0 else 0.0
+        h = (n_forced**3 + n_free**3) ** (1.0 / 3.0) * k / d
+        return h * (ts - ta) + eps * SIGMA * (ts**4 - tsur**4)
+
+    def balance(ts):
+        if k_mode == "mean":
+            k_ins = float(np.interp(0.5 * (ti + ts), t_pts, k_pts))
+        else:
+            k_ins = _k_integral_mean(t_pts, k_pts, ti, ts)
+        return k_ins * (ti - ts) / glen - q_surface(ts)
+
+    lo, hi = min(ti, ta, tsur), max(ti, ta, tsur)
+    ts = brentq(balance, lo, hi)
+    return q_surface(ts) * 2 * math.pi * ro, ts
+
+
+def run_loop(lines: list[Line], idx: np.ndarray, thickness: float, k_mode: str = "mean"):
+    from lagsheet import library
+
+    mats = library.materials()
+    fin = library.finishes()
+    cond = _conditions()
+    q = np.empty(len(idx))
+    ts = np.empty(len(idx))
+    for j, i in enumerate(idx):
+        x = lines[i]
+        m = mats[library.key(x.insulation)]
+        t_pts, k_pts = np.array(m.mean_temperatures), np.array(m.conductivities)
+        if k_mode == "integral":
+            t_pts, k_pts = _extend_linearly(t_pts, k_pts)
+        q[j], ts[j] = loop_line(x, thickness, cond[x.condition], fin[library.key(x.finish)].emissivity,
+                                t_pts, k_pts, k_mode)
+    return q, ts
+
+
+def _sub(s, idx):
+    """The lines ``idx`` of a System (fields left None stay None)."""
+    from dataclasses import fields
+
+    return type(s)(**{f.name: None if getattr(s, f.name) is None else getattr(s, f.name)[idx]
+                      for f in fields(s)})
+
+
+# ---------------------------------------------------------------------------------------
+# timing, memory, profile
+# ---------------------------------------------------------------------------------------
+
+def best(fn, repeat: int):
+    """(best seconds, median seconds, last result) of ``repeat`` calls."""
+    times, out = [], None
+    for _ in range(max(1, repeat)):
+        gc.collect()
+        t0 = time.perf_counter()
+        out = fn()
+        times.append(time.perf_counter() - t0)
+    return min(times), float(np.median(times)), out
+
+
+def bare_openpyxl(src: Path, out: Path) -> None:
+    import openpyxl
+
+    wb = openpyxl.load_workbook(src)
+    wb.save(out)
+
+
+def run_fill(src: Path, out: Path):
+    from lagsheet.pipeline import fill
+
+    return fill(src, out)
+
+
+_WRAP = ("import resource, subprocess, sys\n"
+         "subprocess.run(sys.argv[1:], check=True)\n"
+         "print('maxrss_kib', resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)\n")
+
+
+def peak_memory(job: str, src: Path, out: Path) -> tuple[float, float, float]:
+    """(peak RSS MiB, seconds of the work, seconds of the whole process) of ``job``, fresh.
+
+    A small wrapper process starts the job and reads ``getrusage(RUSAGE_CHILDREN).ru_maxrss``
+    after it ends: the peak resident set of that one child (imports included), KiB on Linux.
+    """
+    cmd = [sys.executable, "-c", _WRAP, sys.executable, str(Path(__file__).resolve()),
+           "--_job", job, str(src), str(out)]
+    t0 = time.perf_counter()
+    p = subprocess.run(cmd, check=True, capture_output=True, text=True)
+    wall = time.perf_counter() - t0
+    got = dict(line.split() for line in p.stdout.splitlines() if line.split()[:1] and
+               line.split()[0] in ("maxrss_kib", "seconds"))
+    return float(got["maxrss_kib"]) / 1024, float(got.get("seconds", "nan")), wall
+
+
+def _job(job: str, src: Path, out: Path) -> None:
+    if job == "small":  # the start-up floor: whatever fill imports and builds on first use
+        import lagsheet.pipeline  # noqa: F401
+        t0 = time.perf_counter()
+        run_fill(src, out)
+    elif job == "openpyxl":
+        import openpyxl  # noqa: F401
+        t0 = time.perf_counter()
+        bare_openpyxl(src, out)
+    elif job == "fill":
+        import lagsheet.pipeline  # noqa: F401
+        t0 = time.perf_counter()
+        run_fill(src, out)
+    else:
+        raise SystemExit(f"unknown job {job!r}")
+    print("seconds", time.perf_counter() - t0)
+
+
+def _label(filename: str, func: str) -> str:
+    for marker in ("site-packages/", "/src/", "/lib/python"):
+        if marker in filename:
+            tail = filename.split(marker, 1)[1]
+            if marker == "/lib/python":
+                tail = "stdlib:" + tail.split("/", 1)[-1]
+            return f"{tail}:{func}"
+    return f"{filename}:{func}" if filename != "~" else func
+
+
+def _group(filename: str, func: str) -> str:
+    if "site-packages/" in filename:
+        return filename.split("site-packages/", 1)[1].split("/", 1)[0]
+    if "/src/lagsheet/" in filename:
+        return "lagsheet." + filename.split("/src/lagsheet/", 1)[1].removesuffix(".py").replace("/", ".")
+    if "/lib/python" in filename:
+        return "stdlib:" + filename.split("/lib/python", 1)[1].split("/", 2)[1].removesuffix(".py")
+    return "builtins (C, called from the above)" if filename == "~" else filename
+
+
+def profile_fill(src: Path, out: Path, top: int) -> None:
+    prof = cProfile.Profile()
+    prof.enable()
+    run_fill(src, out)
+    prof.disable()
+    st = pstats.Stats(prof)
+    rows = [(ct, tt, nc, _label(f, fn)) for (f, _, fn), (_, nc, tt, ct, _) in st.stats.items()]
+    total = st.total_tt
+    print(f"\ncProfile of fill (total {total:.2f} s under the profiler; pure-Python code is "
+          "slowed more than C code)")
+    print(f"  top {top} by cumulative time:")
+    print(f"  {'cum s':>8} {'self s':>8} {'calls':>10}  function")
+    for ct, tt, nc, lab in sorted(rows, reverse=True)[:top]:
+        print(f"  {ct:8.2f} {tt:8.2f} {nc:10d}  {lab}")
+    groups: dict[str, float] = {}
+    for (f, _, fn), (_, _, tt, _, _) in st.stats.items():
+        groups[_group(f, fn)] = groups.get(_group(f, fn), 0.0) + tt
+    print("  self time by package/module:")
+    for g, tt in sorted(groups.items(), key=lambda kv: -kv[1])[:12]:
+        print(f"  {tt:8.2f} s {100 * tt / total:5.1f} %  {g}")
+
+
+# ---------------------------------------------------------------------------------------
+# main
+# ---------------------------------------------------------------------------------------
+
+def main(argv=None) -> int:
+    ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    ap.add_argument("--lines", type=int, default=2000, help="lines in the schedule (default 2000)")
+    ap.add_argument("--sample", type=int, default=200,
+                    help="lines in the per-line baseline sample (default 200)")
+    ap.add_argument("--repeat", type=int, default=3,
+                    help="runs of each in-process timing, best kept (default 3; fill and its "
+                         "baseline run max(1, repeat // 2) times)")
+    ap.add_argument("--seed", type=int, default=20240601, help="numpy default_rng seed")
+    ap.add_argument("--keep", type=Path, default=None, help="write the workbooks here and keep them")
+    ap.add_argument("--profile", type=int, default=0, metavar="TOP",
+                    help="also profile one fill with cProfile and print the TOP entries")
+    ap.add_argument("--_job", nargs=3, metavar=("JOB", "SRC", "OUT"), help=argparse.SUPPRESS)
+    a = ap.parse_args(argv)
+    if a._job:
+        _job(a._job[0], Path(a._job[1]), Path(a._job[2]))
+        return 0
+    if a.keep is not None:
+        a.keep.mkdir(parents=True, exist_ok=True)
+        return _bench(a, a.keep)
+    with tempfile.TemporaryDirectory(prefix="lagsheet-bench-") as tmp:
+        return _bench(a, Path(tmp))
+
+
+def _bench(a, folder: Path) -> int:
+    import CoolProp
+    import openpyxl
+    import scipy
+
+    n = a.lines
+    say = print
+    say(f"lagsheet fill benchmark: {n} lines, sample {min(a.sample, n)}, repeat {a.repeat}, "
+        f"seed {a.seed}")
+    say(f"python {platform.python_version()}, numpy {np.__version__}, scipy {scipy.__version__}, "
+        f"openpyxl {openpyxl.__version__}, CoolProp {CoolProp.__version__}; "
+        f"{os.cpu_count()} CPUs, load average {os.getloadavg()[0]:.2f} at start")
+
+    # 1. the workbook ------------------------------------------------------------------
+    t0 = time.perf_counter()
+    lines = make_lines(n, a.seed)
+    src = folder / f"schedule-{n}.xlsx"
+    write_schedule(src, lines)
+    say(f"[1] wrote {src.name} ({src.stat().st_size / 1e6:.1f} MB) in {time.perf_counter() - t0:.1f} s")
+    warm = folder / "warm-up.xlsx"
+    write_schedule(warm, make_lines(50, a.seed + 1))
+    run_fill(warm, folder / "warm-up-filled.xlsx")  # imports, tables, unit registry, dew points
+
+    eng = _engine_part(a, lines, src, say)
+    # nothing of part 2 stays alive: a heap full of live objects slows the garbage
+    # collector, and with it every allocation-heavy step of part 3
+    del lines
+    gc.collect()
+    io = _fill_part(a, src, warm, folder, say)
+    _table(n, eng, io)
+    if a.profile:
+        profile_fill(src, folder / f"schedule-{n}-profiled.xlsx", a.profile)
+    if a.keep is not None:
+        print(f"files kept in {a.keep}")
+    return 0
+
+
+def _engine_part(a, lines: list[Line], src: Path, say) -> dict:
+    """2. engine solve and specify against the per-line loop; figures only are returned."""
+    from lagsheet.inputs import read_inputs
+    from lagsheet.io import open_book
+    from lagsheet.physics.balance import solve
+    from lagsheet.physics.sizing import heat_rate
+    from lagsheet.spec import specify
+
+    n = len(lines)
+    system, table = build_system(lines, BENCH_THICKNESS)
+    solve(_sub(system, np.arange(min(n, 50))), table)  # warm
+    t_solve, t_solve_med, sol = best(lambda: solve(system, table), a.repeat)
+    q_engine = heat_rate(system.geometry, sol.q, sol.r_outer)
+    say(f"[2] engine solve, {n} lines at {BENCH_THICKNESS * 1000:.0f} mm: best {t_solve:.3f} s, "
+        f"median {t_solve_med:.3f} s; converged {int(sol.converged.sum())}/{n}")
+
+    rng = np.random.default_rng(a.seed + 2)
+    idx = np.sort(rng.choice(n, size=min(a.sample, n), replace=False))
+    t_loop, t_loop_med, (q_loop, ts_loop) = best(
+        lambda: run_loop(lines, idx, BENCH_THICKNESS), a.repeat)
+    say(f"    per-line loop (brentq + PropsSI + ht), {len(idx)} lines: best {t_loop:.3f} s, "
+        f"median {t_loop_med:.3f} s")
+    sub = _sub(system, idx)
+    t_small, _, _ = best(lambda: solve(sub, table), a.repeat)
+    rel = np.abs(q_loop - q_engine[idx]) / np.abs(q_engine[idx])
+    dts = np.abs(ts_loop - sol.t_surface[idx])
+    w = lines[idx[int(np.argmax(rel))]]
+    say(f"    agreement on the sample: heat loss max rel. diff {rel.max():.2e} (median "
+        f"{np.median(rel):.2e}), surface temperature max diff {dts.max():.3f} K; worst "
+        f"{w.tag} ({w.shape}, {w.insulation}, {w.t_op:g} °C, {w.condition})")
+    # the same loop, untimed, with k averaged over the face temperatures as the engine does:
+    # what is left is the air-property table and the correlations themselves
+    q_loop_i, ts_loop_i = run_loop(lines, idx, BENCH_THICKNESS, k_mode="integral")
+    rel_i = np.abs(q_loop_i - q_engine[idx]) / np.abs(q_engine[idx])
+    dts_i = np.abs(ts_loop_i - sol.t_surface[idx])
+    say(f"    same loop with k averaged over the faces (untimed): heat loss max rel. diff "
+        f"{rel_i.max():.2e} (median {np.median(rel_i):.2e}), surface temperature max diff "
+        f"{dts_i.max():.3f} K")
+
+    inputs = read_inputs(open_book(src))
+    t_spec, t_spec_med, res = best(lambda: specify(inputs), a.repeat)
+    status = {s: res.status.count(s) for s in ("ok", "warning", "error")}
+    say(f"    specify (full sizing, every sold thickness), {n} lines: best {t_spec:.3f} s, median "
+        f"{t_spec_med:.3f} s; status {status}")
+    return {"n": n, "sample": len(idx), "t_solve": t_solve, "t_loop": t_loop, "t_small": t_small,
+            "t_spec": t_spec, "rel": rel.max(), "dts": dts.max(), "rel_i": rel_i.max(),
+            "dts_i": dts_i.max()}
+
+
+def _fill_part(a, src: Path, warm: Path, folder: Path, say) -> dict:
+    """3. fill against bare openpyxl in this process, then each in a fresh one."""
+    n = a.lines
+    out_fill = folder / f"schedule-{n}-filled.xlsx"
+    out_bare = folder / f"schedule-{n}-openpyxl.xlsx"
+    k = max(1, a.repeat // 2)
+    tf, tb = [], []
+    for _ in range(k):  # interleaved, so that a noisy spell hits both
+        tb.append(best(lambda: bare_openpyxl(src, out_bare), 1)[0])
+        tf.append(best(lambda: run_fill(src, out_fill), 1)[0])
+    say(f"[3] fill {min(tf):.2f} s (runs {', '.join(f'{x:.2f}' for x in tf)}); openpyxl load + save "
+        f"{min(tb):.2f} s (runs {', '.join(f'{x:.2f}' for x in tb)}); output "
+        f"{out_fill.stat().st_size / 1e6:.1f} MB against {out_bare.stat().st_size / 1e6:.1f} MB")
+    mem = {job: peak_memory(job, warm if job == "small" else src, folder / f"mem-{job}.xlsx")
+           for job in ("small", "openpyxl", "fill")}
+    say("    fresh processes (peak RSS by getrusage(RUSAGE_CHILDREN).ru_maxrss in a wrapper, "
+        "imports included; work time after imports; whole process wall time):")
+    for j, (m, s_work, wall) in mem.items():
+        say(f"      {j:<9} {m:7.0f} MiB  work {s_work:7.2f} s  process {wall:7.2f} s")
+    return {"t_fill": min(tf), "t_bare": min(tb), "mem": mem}
+
+
+def _table(n: int, e: dict, io: dict) -> None:
+    """4. the figures, one table."""
+    mem = io["mem"]
+    e_rate, l_rate, s_rate = n / e["t_solve"], e["sample"] / e["t_loop"], n / e["t_spec"]
+    r_eng, r_spec, r_fill = e_rate / l_rate, s_rate / l_rate, io["t_fill"] / io["t_bare"]
+    rows = [
+        ("lines in the schedule", f"{n}"),
+        (f"engine solve, one thickness ({n} lines)", f"{e_rate:,.0f} lines/s"),
+        (f"engine solve, the sample only ({e['sample']} lines)",
+         f"{e['sample'] / e['t_small']:,.0f} lines/s"),
+        (f"per-line loop brentq+PropsSI+ht ({e['sample']} lines)", f"{l_rate:,.1f} lines/s"),
+        (f"ratio engine / loop (target >= {TARGET_ENGINE_RATIO:.0f}x)", f"{r_eng:,.0f}x"),
+        ("specify, every sold thickness", f"{s_rate:,.0f} lines/s"),
+        ("ratio specify / one-thickness loop", f"{r_spec:,.0f}x"),
+        ("heat loss, loop vs engine: max rel. diff", f"{e['rel']:.2e}"),
+        ("surface temperature, loop vs engine: max diff", f"{e['dts']:.3f} K"),
+        ("  same, loop with face-averaged k: heat loss", f"{e['rel_i']:.2e}"),
+        ("  same, loop with face-averaged k: surface temp.", f"{e['dts_i']:.3f} K"),
+        ("fill end to end", f"{io['t_fill']:.2f} s ({n / io['t_fill']:,.0f} lines/s)"),
+        ("openpyxl load_workbook + save, same workbook", f"{io['t_bare']:.2f} s"),
+        (f"ratio fill / openpyxl (target <= {TARGET_FILL_RATIO:.2f}x)", f"{r_fill:.2f}x"),
+        ("  same ratio, fresh processes (work after imports)",
+         f"{mem['fill'][1] / mem['openpyxl'][1]:.2f}x"),
+        ("fill, fresh process, wall (CLI-like: start, imports)", f"{mem['fill'][2]:.2f} s"),
+        ("openpyxl load + save, fresh process, wall", f"{mem['openpyxl'][2]:.2f} s"),
+        ("fill of the 50-line warm-up workbook, fresh, wall", f"{mem['small'][2]:.2f} s"),
+        ("peak RSS fill (fresh process, ru_maxrss)", f"{mem['fill'][0]:.0f} MiB"),
+        ("peak RSS openpyxl load + save (same way)", f"{mem['openpyxl'][0]:.0f} MiB"),
+        ("peak RSS fill of the 50-line workbook (floor)", f"{mem['small'][0]:.0f} MiB"),
+        ("ratio peak RSS fill / openpyxl", f"{mem['fill'][0] / mem['openpyxl'][0]:.2f}x"),
+        ("load average at the end (1 min)", f"{os.getloadavg()[0]:.2f}"),
+    ]
+    w = 58
+    print("\n" + "=" * (w + 22))
+    print(f"{'figure':<{w}}{'value':>22}")
+    print("-" * (w + 22))
+    for name, val in rows:
+        print(f"{name:<{w}}{val:>22}")
+    print("=" * (w + 22))
+    print("targets are read, not asserted: " +
+          f"engine/loop {'meets' if r_eng >= TARGET_ENGINE_RATIO else 'misses'} {TARGET_ENGINE_RATIO:.0f}x; "
+          f"fill/openpyxl {'meets' if r_fill <= TARGET_FILL_RATIO else 'misses'} {TARGET_FILL_RATIO:.2f}x")
+
+
+if __name__ == "__main__":
+    sys.exit(main())
