@@ -49,13 +49,28 @@ def per_line(system: System, rows: np.ndarray, **replace) -> System:
     return System(**values)
 
 
+CHUNK = 100_000  # (line, candidate) pairs solved together: bounds the solver's working memory
+
+
 def evaluate(base: System, thickness: np.ndarray, material: np.ndarray,
              table: MaterialTable) -> Candidates:
-    """Solve every candidate of every line at once.
+    """Solve every candidate of every line, in chunks of about :data:`CHUNK` pairs.
 
     ``base`` gives the per-line values (its own layers ignored); ``thickness`` is
     (n, m, slots) and ``material`` (n, slots) the material of each slot.
     """
+    n, m, k = thickness.shape
+    step = max(1, CHUNK // max(m, 1))
+    if n <= step:
+        return _evaluate(base, thickness, material, table)
+    parts = [_evaluate(per_line(base, np.arange(a, min(a + step, n))), thickness[a:a + step],
+                       np.asarray(material)[a:a + step], table) for a in range(0, n, step)]
+    return Candidates(**{f.name: np.concatenate([getattr(p, f.name) for p in parts])
+                         for f in fields(Candidates)})
+
+
+def _evaluate(base: System, thickness: np.ndarray, material: np.ndarray,
+              table: MaterialTable) -> Candidates:
     n, m, k = thickness.shape
     finite = np.isfinite(thickness).all(axis=2).ravel()
     pick = np.flatnonzero(finite)
