@@ -9,11 +9,18 @@ from .table import Book
 
 
 def open_book(path: Path) -> Book:
-    """Open a workbook by its suffix; only ``io`` knows which library does it."""
+    """Open a workbook by its suffix; only ``io`` knows which library does it.
+
+    The package is checked first (:func:`lagsheet.io.preflight.check_package`): no
+    library parses a file that is broken or hostile.
+    """
+    path = Path(path)
     suffix = path.suffix.lower()
     if suffix in (".xlsx", ".xlsm"):
+        from .preflight import check_package
         from .xlsx import XlsxBook
 
+        check_package(path)
         return XlsxBook.open(path)
     if suffix == ".ods":
         raise WorkbookError(
