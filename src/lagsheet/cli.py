@@ -114,5 +114,23 @@ def materials():
         typer.echo(f"finish {f.name}: emissivity {f.emissivity:.2f}; source: {f.source}")
 
 
+@app.command(help="Write a blank workbook FILE (.xlsx or .ods, by its suffix) with the Lines, Conditions, "
+                  "Materials and Settings sheets, units in the headers, dropdowns, instructions and two "
+                  "example rows.\n\n" + CAUTION)
+def new(
+    file: Path = typer.Argument(..., help="The workbook to write: a name ending in .xlsx or .ods."),
+    force: bool = typer.Option(False, "--force", help="Replace FILE if it already exists."),
+):
+    from .errors import LagsheetError
+    from .templates import write_new
+
+    try:
+        write_new(file, force=force)
+    except LagsheetError as exc:
+        typer.echo(f"lagsheet: {exc}", err=True)
+        raise typer.Exit(2) from None
+    typer.echo(f"written: {file}")
+
+
 def main() -> None:
     app()
