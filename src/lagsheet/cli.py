@@ -58,18 +58,32 @@ def fill(
     report: Path = typer.Option(None, "--report", dir_okay=False, help="Also write the JSON report here."),
     sheet: str = typer.Option("Lines", "--sheet", help="The sheet holding the lines."),
     in_place: bool = typer.Option(False, "--in-place", help="Overwrite the input (a backup copy is kept)."),
+    ignore_lock: bool = typer.Option(False, "--ignore-lock",
+                                     help="Write even if a spreadsheet program's lock file says the output "
+                                          "is open (for a stale lock left by a crash)."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="Print errors only."),
 ):
-    from .errors import LagsheetError
     from .pipeline import fill as run
 
+    outcome = _guarded(lambda: run(file, output, sheet=sheet, report_path=report, in_place=in_place,
+                                   ignore_lock=ignore_lock))
+    _print_summary(outcome, file if in_place else output, quiet)
+    raise typer.Exit(outcome.exit_code)
+
+
+def _guarded(job):
+    """Run ``job``; a LagsheetError is one line and exit 2, and so is anything unforeseen (no traceback)."""
+    from .errors import LagsheetError
+
     try:
-        outcome = run(file, output, sheet=sheet, report_path=report, in_place=in_place)
+        return job()
     except LagsheetError as exc:
         typer.echo(f"lagsheet: {exc}", err=True)
         raise typer.Exit(2) from None
-    _print_summary(outcome, file if in_place else output, quiet)
-    raise typer.Exit(outcome.exit_code)
+    except Exception as exc:  # a bug must not print a traceback at the user
+        typer.echo(f"lagsheet: internal error ({type(exc).__name__}: {exc}); files are only ever "
+                   "replaced whole, so none is half-written. Please report this with the workbook", err=True)
+        raise typer.Exit(2) from None
 
 
 @app.command(help="Write the bundled demo schedule into DIR and fill it: the main job on an example.")
@@ -134,3 +148,7 @@ def new(
 
 def main() -> None:
     app()
+
+
+if __name__ == "__main__":
+    main()

@@ -1,8 +1,14 @@
-"""The one-way flow of a run: read -> check -> solve/specify -> write. No printing here."""
+"""The one-way flow of a run: read -> check -> solve/specify -> write. No printing here.
+
+Before anything is read, :func:`fill` settles where it will write and refuses (exit 2)
+what could damage a file: an output that is the input (unless ``in_place``), a report
+that is the input or the output, a missing folder, and an output (or, in place, the
+input) that a spreadsheet program holds open. Everything that can fail on the
+workbook's content happens before the first byte is written.
+"""
 
 from __future__ import annotations
 
-import shutil
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -10,6 +16,8 @@ from . import report
 from .errors import Note, WorkbookError
 from .inputs import Inputs, read_inputs
 from .io import open_book
+from .io.locks import find_lock
+from .io.save import LOCK_PREFIXES, atomic_copy, remove_stale_temps
 from .spec import Results, specify
 from .writeback import lines_edits
 
@@ -29,8 +37,29 @@ def _same_file(a: Path, b: Path) -> bool:
         return False
 
 
+def backup_path(path: Path) -> Path:
+    """Where ``--in-place`` keeps the input's previous bytes."""
+    return path.with_name(f"{path.stem}.backup{path.suffix}")
+
+
+def _writable_target(p: Path, what: str) -> None:
+    folder = p.parent if str(p.parent) else Path(".")
+    if not folder.is_dir():
+        raise WorkbookError(f"{p}: the folder {folder} does not exist; create it or choose another {what}")
+    if p.is_dir():
+        raise WorkbookError(f"{p}: is a folder; give a file name for the {what}")
+    if p.name.startswith(LOCK_PREFIXES):
+        raise WorkbookError(f"{p.name}: names starting with '~$' or '.~lock.' are spreadsheet programs' "
+                            f"lock files; choose another {what} name")
+
+
+def _locked(lock, name: str) -> WorkbookError:
+    return WorkbookError(f"{name} is open in a spreadsheet program ({lock.by()}): close it, "
+                         "or pass --ignore-lock if the lock is stale")
+
+
 def fill(path: Path, out: Path | None, *, sheet: str = "Lines", report_path: Path | None = None,
-         in_place: bool = False) -> Outcome:
+         in_place: bool = False, ignore_lock: bool = False) -> Outcome:
     """Size and evaluate every line of ``path`` and write the filled workbook to ``out``."""
     path = Path(path)
     if in_place:
@@ -45,23 +74,50 @@ def fill(path: Path, out: Path | None, *, sheet: str = "Lines", report_path: Pat
                             "or give --in-place (a backup copy is kept)")
     if out.suffix.lower() != path.suffix.lower():
         raise WorkbookError(f"{out.name}: the output must have the input's type ({path.suffix})")
+    _writable_target(out, "output")
+    if report_path is not None:
+        report_path = Path(report_path)
+        if _same_file(report_path, path) or _same_file(report_path, out):
+            raise WorkbookError(f"{report_path}: the report would overwrite the workbook; "
+                                "choose another --report file")
+        _writable_target(report_path, "report")
+    notes: list[Note] = []
+    lock = find_lock(out)
+    if lock is not None:
+        if not ignore_lock:
+            raise _locked(lock, out.name)
+        notes.append(Note("warning", "lock-ignored",
+                          f"{out.name} looked open in a spreadsheet program ({lock.by()}, lock file "
+                          f"{lock.path.name}); written anyway because --ignore-lock was given"))
+    if not in_place:
+        in_lock = find_lock(path)
+        if in_lock is not None:
+            notes.append(Note("warning", "input-open",
+                              f"{path.name} is open in a spreadsheet program ({in_lock.by()}): "
+                              "the last saved version is read; unsaved changes there are not included"))
     book = open_book(path)
     inputs = read_inputs(book, sheet)
     fatal = [n for n in inputs.notes if n.level == "error" and n.code in
              ("no-lines-sheet", "no-header", "missing-column")]
     if fatal:
         raise WorkbookError("; ".join(n.message for n in fatal))
+    inputs.notes[:0] = notes
     res = specify(inputs)
     edits = [lines_edits(book.sheet(inputs.lines.sheet), inputs.lines, res, inputs.us_units,
                          str(inputs.settings["currency"]))]
+    stale = remove_stale_temps(out)
+    if stale:
+        inputs.notes.append(Note("info", "stale-temporary",
+                                 f"removed {len(stale)} temporary file(s) an interrupted run left: "
+                                 + ", ".join(stale)))
     if in_place:
-        backup = path.with_name(f"{path.stem}.backup{path.suffix}")
-        shutil.copy2(path, backup)
+        backup = backup_path(path)
+        atomic_copy(path, backup)
         inputs.notes.append(Note("info", "backup", f"the input was kept as {backup.name}"))
-    book.save(edits, out)
     rep = report.build(inputs, res, path, out)
+    book.save(edits, out)
     if report_path is not None:
-        report.write(rep, Path(report_path))
+        report.write(rep, report_path)
     errors = any(s == "error" for s in res.status) or any(
         n.level == "error" for n in inputs.notes) or any(c["status"] == "error" for c in inputs.columns)
     return Outcome(inputs, res, rep, 1 if errors else 0)
