@@ -23,10 +23,12 @@ def open_book(path: Path) -> Book:
         check_package(path)
         return XlsxBook.open(path)
     if suffix == ".ods":
-        raise WorkbookError(
-            f"{path.name}: .ods workbooks are not supported by this version yet; "
-            "save a copy as .xlsx in your spreadsheet program and run lagsheet on that")
+        from .ods import OdsBook
+        from .preflight import check_package
+
+        check_package(path)
+        return OdsBook.open(path)
     if suffix == ".xls":
         raise WorkbookError(
             f"{path.name}: legacy .xls is not supported; save it as .xlsx in your spreadsheet program")
-    raise WorkbookError(f"{path.name}: not a workbook lagsheet reads (.xlsx, .xlsm)")
+    raise WorkbookError(f"{path.name}: not a workbook lagsheet reads (.xlsx, .xlsm, .ods)")

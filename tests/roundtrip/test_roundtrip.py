@@ -1,0 +1,194 @@
+"""Round trip: `lagsheet fill` on every corpus workbook adds its columns and changes nothing else.
+
+Each corpus workbook (see ``corpus.py``) is filled once through the real command, in
+parallel; LibreOffice then converts every input and output to CSV in one run. The
+checks themselves are in ``checks.py`` and are tested against hand-made good and bad
+outputs in ``test_checks_selftest.py``.
+"""
+
+from __future__ import annotations
+
+import os
+import subprocess
+import sys
+import zipfile
+from concurrent.futures import ThreadPoolExecutor
+from dataclasses import dataclass
+from pathlib import Path
+
+import pytest
+
+from . import checks
+from .corpus import CORPUS, Entry, build_corpus, find_soffice, read_parts, soffice
+
+LAGSHEET = Path(sys.executable).parent / "lagsheet"
+XLSX = [e for e in CORPUS if not e.is_ods]
+ODS = [e for e in CORPUS if e.is_ods]
+WITH_COMMENTS = [e for e in XLSX if e.has("comments")]
+WITH_TABLE = [e for e in XLSX if e.has("table")]
+ODS_WITH_RANGE = [e for e in ODS if e.has("table")]
+
+
+def _ids(e: Entry) -> str:
+    return e.name
+
+
+@dataclass
+class Filled:
+    entry: Entry
+    src: Path
+    out: Path
+    returncode: int
+    output: str
+
+
+@pytest.fixture(scope="module")
+def work(tmp_path_factory) -> Path:
+    return tmp_path_factory.mktemp("roundtrip")
+
+
+@pytest.fixture(scope="module")
+def filled(work: Path) -> dict[str, Filled]:
+    """Build the corpus (ODS entries only where LibreOffice is installed) and fill every workbook."""
+    assert LAGSHEET.is_file(), f"no lagsheet command beside the interpreter: {LAGSHEET}"
+    names = [e.name for e in XLSX] + ([e.name for e in ODS] if find_soffice() else [])
+    files = build_corpus(work / "in", names, profile=work / "lo-profile")
+    (work / "out").mkdir()
+
+    def run(name: str) -> Filled:
+        e = next(x for x in CORPUS if x.name == name)
+        src, out = files[name], work / "out" / f"{name}-filled{e.suffix}"
+        r = subprocess.run([str(LAGSHEET), "fill", str(src), "-o", str(out), "-q"],
+                           capture_output=True, text=True, timeout=900, stdin=subprocess.DEVNULL)
+        return Filled(e, src, out, r.returncode, (r.stdout + r.stderr).strip())
+
+    with ThreadPoolExecutor(max_workers=max(2, os.cpu_count() or 2)) as pool:
+        return dict(zip(names, pool.map(run, names), strict=True))
+
+
+@pytest.fixture(scope="module")
+def csv_folder(filled: dict[str, Filled], work: Path) -> Path:
+    """LibreOffice's CSV of every sheet of every input and output, from one soffice run."""
+    checks.require_soffice()
+    folder = work / "csv"
+    files = [str(f.src) for f in filled.values()] + [str(f.out) for f in filled.values() if f.out.is_file()]
+    r = soffice(["--convert-to", checks.CSV_FILTER, "--outdir", str(folder), *files], work / "lo-profile")
+    assert folder.is_dir(), f"LibreOffice wrote nothing: {r.stdout}\n{r.stderr}"
+    return folder
+
+
+def done(filled: dict[str, Filled], entry: Entry) -> Filled:
+    """The filled workbook of ``entry``; fails (never skips) when lagsheet wrote none."""
+    if entry.is_ods:
+        checks.require_soffice()
+    f = filled[entry.name]
+    if not f.out.is_file():
+        pytest.fail(f"lagsheet fill wrote no output (exit {f.returncode}): {f.output}")
+    return f
+
+
+def _csv(folder: Path, book: Path) -> list[list[str]] | None:
+    p = folder / f"{book.stem}-Lines.csv"
+    return checks.read_csv(p) if p.is_file() else None
+
+
+@pytest.mark.parametrize("entry", CORPUS, ids=_ids)
+def test_fill_exits_0_on_every_corpus_workbook(filled, entry):
+    """lagsheet fill accepts every corpus workbook, whose lines are all valid, and exits 0."""
+    if entry.is_ods:
+        checks.require_soffice()
+    f = filled[entry.name]
+    assert f.returncode == 0, f.output
+    assert f.out.is_file()
+
+
+@pytest.mark.parametrize("entry", XLSX, ids=_ids)
+def test_parts_lagsheet_has_no_reason_to_touch_are_byte_identical(filled, entry):
+    """Every zip part but the Lines sheet, its rels, notes, table, styles and content types is byte-identical."""
+    f = done(filled, entry)
+    assert checks.check_untouched_parts(read_parts(f.src), read_parts(f.out)) == []
+
+
+@pytest.mark.parametrize("entry", XLSX, ids=_ids)
+def test_original_cells_keep_value_formula_cache_and_style(filled, entry):
+    """Every original cell of Lines keeps its value, type, formula, cached value and style index."""
+    f = done(filled, entry)
+    assert checks.check_original_cells(read_parts(f.src), read_parts(f.out)) == []
+
+
+@pytest.mark.parametrize("entry", XLSX, ids=_ids)
+def test_elements_outside_sheet_data_survive(filled, entry):
+    """Views, columns, merges, conditional formats, validations, drawings, tables and extLst survive."""
+    f = done(filled, entry)
+    assert checks.check_sheet_elements(read_parts(f.src), read_parts(f.out)) == []
+
+
+@pytest.mark.parametrize("entry", XLSX, ids=_ids)
+def test_styles_only_grow(filled, entry):
+    """styles.xml keeps every original font, fill, border, number format, xf and dxf at its index."""
+    f = done(filled, entry)
+    assert checks.check_styles_grow_only(read_parts(f.src), read_parts(f.out)) == []
+
+
+@pytest.mark.parametrize("entry", XLSX, ids=_ids)
+def test_only_the_output_columns_are_added(filled, entry):
+    """New cells appear only in the output columns of the header row and the lines, headers in order."""
+    f = done(filled, entry)
+    assert checks.check_only_output_cells_added(read_parts(f.src), read_parts(f.out)) == []
+
+
+@pytest.mark.parametrize("entry", WITH_COMMENTS, ids=_ids)
+def test_comments_by_people_are_unchanged(filled, entry):
+    """Legacy notes and threaded comments written by people come back unchanged."""
+    f = done(filled, entry)
+    assert checks.check_people_comments(read_parts(f.src), read_parts(f.out)) == []
+
+
+@pytest.mark.parametrize("entry", WITH_TABLE, ids=_ids)
+def test_the_lines_table_covers_the_new_columns(filled, entry):
+    """The Excel table named Lines grows over the output columns, named as their headers."""
+    f = done(filled, entry)
+    assert checks.check_table(read_parts(f.src), read_parts(f.out)) == []
+
+
+@pytest.mark.parametrize("entry", CORPUS, ids=_ids)
+def test_libreoffice_opens_the_output_and_shows_the_results(filled, csv_folder, entry):
+    """LibreOffice opens the output and shows the original cells, formula values and results in place."""
+    f = done(filled, entry)
+    if entry.is_ods:
+        with zipfile.ZipFile(f.src) as z:
+            formulas = checks.ods_formula_cells(z.read("content.xml"))
+    else:
+        formulas = checks.xlsx_formula_cells(read_parts(f.src))
+    assert checks.check_csv(_csv(csv_folder, f.src), _csv(csv_folder, f.out), formulas) == []
+
+
+@pytest.mark.parametrize("entry", ODS, ids=_ids)
+def test_ods_parts_but_content_are_byte_identical(filled, entry):
+    """Every ODS part but content.xml, manifest.xml and meta.xml is byte-identical; mimetype comes first."""
+    f = done(filled, entry)
+    assert checks.check_ods_parts(f.src, f.out) == []
+
+
+@pytest.mark.parametrize("entry", ODS, ids=_ids)
+def test_ods_original_cells_are_unchanged(filled, entry):
+    """In content.xml every original cell, row, column, style, validation and other sheet is unchanged."""
+    f = done(filled, entry)
+    with zipfile.ZipFile(f.src) as zi, zipfile.ZipFile(f.out) as zo:
+        assert checks.check_ods_cells(zi.read("content.xml"), zo.read("content.xml")) == []
+
+
+@pytest.mark.parametrize("entry", ODS, ids=_ids)
+def test_ods_results_are_added_in_the_output_columns(filled, entry):
+    """The ODS output holds the output headers in order and numbers in every line's result cells."""
+    f = done(filled, entry)
+    with zipfile.ZipFile(f.src) as zi, zipfile.ZipFile(f.out) as zo:
+        assert checks.check_ods_additions(zi.read("content.xml"), zo.read("content.xml")) == []
+
+
+@pytest.mark.parametrize("entry", ODS_WITH_RANGE, ids=_ids)
+def test_ods_database_range_lines_covers_the_new_columns(filled, entry):
+    """The ODS database range named Lines grows over the output columns."""
+    f = done(filled, entry)
+    with zipfile.ZipFile(f.src) as zi, zipfile.ZipFile(f.out) as zo:
+        assert checks.check_ods_database_range(zi.read("content.xml"), zo.read("content.xml")) == []
