@@ -19,6 +19,7 @@ from .io import open_book
 from .io.locks import find_lock
 from .io.save import LOCK_PREFIXES, atomic_copy, remove_stale_temps
 from .spec import Results, specify
+from .summary import quantities_table, summary
 from .writeback import lines_edits
 
 
@@ -115,7 +116,7 @@ def fill(path: Path, out: Path | None, *, sheet: str = "Lines", report_path: Pat
         atomic_copy(path, backup)
         inputs.notes.append(Note("info", "backup", f"the input was kept as {backup.name}"))
     rep = report.build(inputs, res, path, out)
-    book.save(edits, out)
+    book.save(edits, out, [summary(inputs, res), quantities_table(inputs, res)])
     if report_path is not None:
         report.write(rep, report_path)
     errors = any(s == "error" for s in res.status) or any(

@@ -76,7 +76,8 @@ def suggest(key: str, unit_name: str, written: np.ndarray, si: np.ndarray) -> st
 
     ``written`` are the numbers as typed (in the header's unit), ``si`` the same in SI.
     """
-    w = written[np.isfinite(written)]
+    both = np.isfinite(written) & np.isfinite(si)
+    w, si = written[both], si[both]
     if w.size == 0:
         return None
     if key == "outside_diameter":
@@ -101,7 +102,7 @@ def suggest(key: str, unit_name: str, written: np.ndarray, si: np.ndarray) -> st
         else:
             return None
         alt_ok = (alt >= lo) & (alt <= hi)
-        if _share(~ok[np.isfinite(si)] & alt_ok) and not ok.all():
+        if _share(~ok & alt_ok) and not ok.all():
             return f"{other}: the values are implausible as written but plausible in {other}"
     if key == "conductivity":
         if unit_name.startswith("watt") and _share((w >= 0.15) & (w <= 1.5)):

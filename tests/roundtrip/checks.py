@@ -942,7 +942,11 @@ def check_ods_cells(inp_content: bytes, out_content: bytes) -> list[str]:
     sp_o = ro.find(f"{q(OFFICE, 'body')}/{q(OFFICE, 'spreadsheet')}")
     tables_i = [t.get(q(TABLE, "name")) for t in sp_i.iter(q(TABLE, "table")) if _owning_table(t) is None]
     tables_o = [t.get(q(TABLE, "name")) for t in sp_o.iter(q(TABLE, "table")) if _owning_table(t) is None]
-    if tables_i != tables_o:
+    # lagsheet appends its own Summary and Quantities sheets (renamed '... (lagsheet)' when a person's
+    # sheet has the name); the original sheets keep their order
+    extra = tables_o[len(tables_i):]
+    ours = all(n in ("Summary", "Quantities") or n.endswith(" (lagsheet)") for n in extra)
+    if tables_o[:len(tables_i)] != tables_i or not ours:
         problems.append(f"the sheets changed: {tables_i} -> {tables_o}")
     for e in sp_i:
         n = local(e.tag)

@@ -18,8 +18,8 @@ from typing import Any
 from xml.sax.saxutils import escape, quoteattr
 
 from ..errors import WorkbookError
-from .save import atomic_write
-from .table import RawSheet, SheetEdits
+from .save import VERIFIERS, atomic_write
+from .table import RawSheet, SheetEdits, post_write_check
 
 AUTHOR = "lagsheet"
 MARK = "lagsheet: "
@@ -141,7 +141,15 @@ class OdsBook:
                     body = data if info.filename == "content.xml" else self._zip.read(info.filename)
                     dst.writestr(info, body, compress_type=info.compress_type)
 
-        atomic_write(out, write, like=self.path)
+        before = {e.sheet: self.sheet(e.sheet) for e in edits}
+        written = {e.sheet: set(e.values) for e in edits}
+        names = set(self._zip.namelist())
+
+        def verify(tmp: Path) -> None:
+            VERIFIERS[".ods"](tmp)
+            post_write_check(tmp, before, written, names)
+
+        atomic_write(out, write, like=self.path, verify=verify)
 
 
 def _new_table(sheet, n: _Names, styles: _AutoStyles) -> str:

@@ -120,3 +120,47 @@ class Book(Protocol):
     def sheet(self, name: str) -> RawSheet: ...
 
     def save(self, edits: list[SheetEdits], out: Path, new_sheets: list[NewSheet] = ()) -> None: ...
+
+
+def kept(before: RawSheet, after_grid: list[list[Any]], written: set[tuple[int, int]],
+         limit: int = 5) -> list[str]:
+    """Addresses of original cells whose value changed although lagsheet did not write them."""
+    bad = []
+    for r, row in enumerate(before.grid):
+        other = after_grid[r] if r < len(after_grid) else []
+        for c, v in enumerate(row):
+            if (r, c) in written or v in ("", None):
+                continue
+            w = other[c] if c < len(other) else ""
+            if w != v and not (isinstance(v, float) and isinstance(w, float) and abs(v - w) <= 1e-12 * abs(v)):
+                bad.append(address(r, c))
+                if len(bad) >= limit:
+                    return bad
+    return bad
+
+
+def post_write_check(tmp: Path, before: dict[str, RawSheet], written: dict[str, set[tuple[int, int]]],
+                     parts_before: set[str], removed: set[str] = frozenset()) -> None:
+    """Reopen what was written: every original part is there and every original cell kept.
+
+    Raises :class:`~lagsheet.errors.WorkbookError` (the temporary file is then discarded,
+    and the previous output stays as it was).
+    """
+    import zipfile
+
+    import python_calamine
+
+    from ..errors import WorkbookError
+
+    with zipfile.ZipFile(tmp) as z:
+        missing = sorted(parts_before - set(z.namelist()) - set(removed))
+    if missing:
+        raise WorkbookError(f"the written file lacks parts of the input ({', '.join(missing[:5])}); "
+                            "nothing was written. Please report this with the workbook")
+    wb = python_calamine.CalamineWorkbook.from_path(str(tmp))
+    for name, raw in before.items():
+        grid = wb.get_sheet_by_name(name).to_python(skip_empty_area=False)
+        bad = kept(raw, grid, written.get(name, set()))
+        if bad:
+            raise WorkbookError(f"the written file changed cells lagsheet does not write ({name}!"
+                                f"{', '.join(bad)}); nothing was written. Please report this with the workbook")

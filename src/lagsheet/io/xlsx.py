@@ -22,8 +22,8 @@ from typing import Any
 from xml.sax.saxutils import escape
 
 from ..errors import WorkbookError
-from .save import atomic_write
-from .table import RawSheet, SheetEdits, address, column_letter
+from .save import VERIFIERS, atomic_write
+from .table import RawSheet, SheetEdits, address, column_letter, post_write_check
 
 AUTHOR = "lagsheet"
 MARK = "lagsheet: "  # our comments start with this, so that a later run replaces them
@@ -159,7 +159,15 @@ class XlsxBook:
                     if name not in done:
                         dst.writestr(name, data, compress_type=zipfile.ZIP_DEFLATED)
 
-        atomic_write(out, write, like=self.path)
+        before = {e.sheet: self.sheet(e.sheet) for e in edits}
+        written = {e.sheet: set(e.values) for e in edits}
+        names = set(self._zip.namelist())
+
+        def verify(tmp: Path) -> None:
+            VERIFIERS[out.suffix.lower()](tmp)
+            post_write_check(tmp, before, written, names, pkg.removed)
+
+        atomic_write(out, write, like=self.path, verify=verify)
 
 
 def _unescape(s: str) -> str:
@@ -551,7 +559,9 @@ class _SheetPatch:
 
 
 def _rel_prefix(xml: str) -> str | None:
-    m = re.search(rf'xmlns:(\w+)="{re.escape(NS_REL)}"', xml[:4000])
+    """The prefix the root element declares for the relationships namespace, if any."""
+    root = re.search(r"<(?!\?)[^>]*>", xml)
+    m = re.search(rf'xmlns:(\w+)="{re.escape(NS_REL)}"', root.group(0)) if root else None
     return m.group(1) if m else None
 
 
