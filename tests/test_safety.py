@@ -1,13 +1,23 @@
-"""What lagsheet guarantees about the user's files: input untouched, atomic saves, locks, no formulas from text."""
+"""What lagsheet guarantees about the user's files: input untouched, atomic saves, locks, no formulas from text.
+
+Also the acceptance check of atomic saving: ``fill`` killed with SIGKILL at 20 random
+moments of a large save leaves at the output either the complete previous file or the
+complete new one, and the next run removes the temporary files it left.
+"""
 
 from __future__ import annotations
 
+import contextlib
 import json
 import os
+import random
 import re
+import shutil
+import signal
 import stat
 import subprocess
 import sys
+import time
 import zipfile
 from pathlib import Path
 
@@ -426,3 +436,172 @@ def test_the_writer_never_turns_a_string_into_a_formula(tmp_path):
         assert "<f" not in inner and 't="inlineStr"' in attrs, (ref, attrs, inner)
         assert ws[ref].value == t and ws[ref].data_type == "s"
     assert "<f>" in cells["P2"][1]
+
+
+# -- kill -9 during a large save ------------------------------------------------------------------
+
+SERVER = r"""
+import json, os, sys
+from pathlib import Path
+from lagsheet import cli
+from lagsheet.pipeline import fill
+fill(Path(sys.argv[1]), Path(sys.argv[2]))  # load every library once, so each run below is only the work
+print("ready", flush=True)
+for line in sys.stdin:
+    args = json.loads(line)
+    pid = os.fork()
+    if pid == 0:  # the whole `lagsheet fill` command, in a process of its own
+        null = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(null, 1)
+        os.dup2(null, 2)
+        sys.argv = ["lagsheet", *args]
+        code = 0
+        try:
+            cli.main()
+        except SystemExit as exc:
+            code = exc.code if isinstance(exc.code, int) else 1
+        except BaseException:
+            code = 70
+        os._exit(code)
+    print(pid, flush=True)
+    _, status = os.waitpid(pid, 0)
+    print(json.dumps({"signal": os.WTERMSIG(status) if os.WIFSIGNALED(status) else 0,
+                      "exit": os.WEXITSTATUS(status) if os.WIFEXITED(status) else None}), flush=True)
+"""
+
+KILLS = 20  # in two streams of 10, one per core, each with its own folder and output
+LINES = 2000
+
+
+def big_schedule(path: Path) -> Path:
+    """The demo workbook with its line shapes repeated to LINES lines (fresh tags)."""
+    from lagsheet.demo import LINES as DEMO
+    from lagsheet.demo import write_demo
+
+    write_demo(path)
+    wb = openpyxl.load_workbook(path)
+    ws = wb["Lines"]
+    for i in range(LINES - len(DEMO)):
+        row = list(DEMO[i % len(DEMO)])
+        row[0] = f"{row[0]}-{i:05d}"
+        ws.append(row)
+    wb.save(path)
+    return path
+
+
+def members(path: Path) -> dict[str, bytes]:
+    with zipfile.ZipFile(path) as z:
+        assert z.testzip() is None
+        return {n: z.read(n) for n in z.namelist()}
+
+
+def kill_campaign(work: Path, schedule: Path, previous: Path, warm: Path, seed: int, kills: int, env) -> dict:
+    """Fill ``schedule`` into a folder holding ``previous``, SIGKILL it ``kills`` times mid-save; check each time."""
+    rng = random.Random(seed)
+    work.mkdir()
+    src = work / schedule.name
+    shutil.copyfile(schedule, src)
+    out = work / "plant-filled.xlsx"
+    old_bytes = previous.read_bytes()
+    out.write_bytes(old_bytes)
+    old_hash = sha256(out)
+    pattern = temp_pattern(out)
+    server = subprocess.Popen([sys.executable, "-c", SERVER, str(warm), str(work.parent / f"{work.name}-warm.xlsx")],
+                              stdin=subprocess.PIPE, stdout=subprocess.PIPE, text=True, env=env)
+
+    def start() -> int:
+        server.stdin.write(json.dumps(["fill", str(src), "-o", str(out), "-q"]) + "\n")
+        server.stdin.flush()
+        return int(server.stdout.readline())
+
+    def ours(pid: int) -> list[str]:
+        return [n for n in os.listdir(work) if (m := pattern.match(n)) and int(m.group(1)) == pid]
+
+    def wait_for_temp(pid: int) -> float | None:
+        t0 = time.perf_counter()
+        while time.perf_counter() - t0 < 300:
+            if ours(pid):
+                return time.perf_counter()
+            try:
+                os.kill(pid, 0)
+            except ProcessLookupError:
+                return None
+            time.sleep(0.0005)
+        raise AssertionError("the save never started")
+
+    try:
+        assert server.stdout.readline().strip() == "ready"
+        # calibration: one complete run gives the new output and how long its temporary file lives
+        pid = start()
+        t_temp = wait_for_temp(pid)
+        assert t_temp is not None
+        while ours(pid):
+            time.sleep(0.0005)
+        window = time.perf_counter() - t_temp
+        assert json.loads(server.stdout.readline()) == {"signal": 0, "exit": 0}
+        new = members(out)
+        outcomes = []
+        for _ in range(kills):
+            out.write_bytes(old_bytes)
+            pid = start()
+            assert wait_for_temp(pid) is not None, "the run ended before its save began"
+            time.sleep(rng.uniform(0, 1.2 * window))  # a few land after the rename
+            with_temp = bool(ours(pid))
+            with contextlib.suppress(ProcessLookupError):  # it may have finished already
+                os.kill(pid, signal.SIGKILL)
+            status = json.loads(server.stdout.readline())
+            left = ours(pid)
+            others = set(os.listdir(work)) - {out.name, src.name}
+            assert all(pattern.match(n) for n in others), others  # nothing but our own temporaries
+            if sha256(out) == old_hash:
+                state = "previous"
+            else:
+                assert members(out) == new, "the output is neither the previous nor the new workbook"
+                state = "new"
+            outcomes.append({"output": state, "killed": status["signal"] == signal.SIGKILL,
+                             "mid_save": with_temp, "temporaries_left": len(left)})
+    finally:
+        server.stdin.close()
+        server.wait(timeout=60)
+        server.stdout.close()
+    return {"work": work, "src": src, "out": out, "new": new, "window_s": window, "outcomes": outcomes,
+            "stale": [n for n in os.listdir(work) if pattern.match(n)]}
+
+
+def test_kill_9_during_a_large_save_never_leaves_a_partial_output(tmp_path):
+    """20 SIGKILLs at seeded random moments of the save: the output is the whole old or whole new file.
+
+    Each killed ``lagsheet fill`` is a process forked from one that has already loaded the
+    libraries (CoolProp alone takes seconds to import), so the 20 runs cost only their
+    work. Then a plain ``python -m lagsheet fill`` removes the temporaries they left.
+    """
+    from concurrent.futures import ThreadPoolExecutor
+
+    from lagsheet.demo import write_demo
+
+    env = dict(os.environ, OPENBLAS_NUM_THREADS="1", OMP_NUM_THREADS="1")
+    schedule = big_schedule(tmp_path / "plant.xlsx")
+    warm = write_book(tmp_path / "small.xlsx", [pipe()])
+    old_src = tmp_path / "old.xlsx"
+    write_demo(old_src)  # the previous output is the demo-sized schedule filled: old and new differ
+    previous = tmp_path / "previous.xlsx"
+    p = subprocess.run([sys.executable, "-m", "lagsheet", "fill", str(old_src), "-o", str(previous), "-q"],
+                       capture_output=True, text=True, env=env, timeout=600)
+    assert p.returncode == 0, p.stderr
+    with ThreadPoolExecutor(2) as pool:
+        runs = list(pool.map(lambda k: kill_campaign(tmp_path / f"work{k}", schedule, previous, warm,
+                                                     20261201 + k, KILLS // 2, env), range(2)))
+    outcomes = [o for r in runs for o in r["outcomes"]]
+    assert len(outcomes) == KILLS
+    mid_save = [o for o in outcomes if o["killed"] and o["mid_save"]]
+    assert len(mid_save) >= KILLS // 4, outcomes
+    assert all(o["temporaries_left"] <= (1 if o["output"] == "previous" else 0) for o in outcomes), outcomes
+    assert any(o["temporaries_left"] for o in outcomes), outcomes  # some kills did cut a save short
+    for r in runs:  # the next run, a real `python -m lagsheet` process, removes what the killed ones left
+        p = subprocess.run([sys.executable, "-m", "lagsheet", "fill", str(r["src"]), "-o", str(r["out"])],
+                           capture_output=True, text=True, env=env, timeout=600)
+        assert p.returncode == 0, p.stderr
+        if r["stale"]:
+            assert f"removed {len(r['stale'])} temporary file(s)" in p.stderr
+        assert sorted(os.listdir(r["work"])) == sorted([r["src"].name, r["out"].name])
+        assert members(r["out"]) == r["new"]

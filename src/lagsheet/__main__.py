@@ -1,0 +1,5 @@
+"""``python -m lagsheet``: the same command as ``lagsheet``."""
+
+from .cli import main
+
+main()
