@@ -146,6 +146,125 @@ def new(
     typer.echo(f"written: {file}")
 
 
+def _open_and_specify(file: Path, sheet: str):
+    from .errors import WorkbookError
+    from .inputs import read_inputs
+    from .io import open_book
+    from .spec import specify
+
+    book = open_book(file)
+    inputs = read_inputs(book, sheet)
+    fatal = [n for n in inputs.notes if n.level == "error" and n.code in
+             ("no-lines-sheet", "no-header", "missing-column")]
+    if fatal:
+        raise WorkbookError("; ".join(n.message for n in fatal))
+    return book, inputs, specify(inputs)
+
+
+@app.command(help="Check every column, unit and cell of FILE and list what is wrong, with the fix. "
+                  "Writes nothing unless --annotate OUT (a copy with a comment on every offending cell).")
+def check(
+    file: Path = typer.Argument(..., exists=True, dir_okay=False, help="The workbook (.xlsx/.xlsm/.ods)."),
+    annotate: Path = typer.Option(None, "--annotate", dir_okay=False, help="Save a commented copy here."),
+    report: Path = typer.Option(None, "--report", dir_okay=False, help="Also write the findings as JSON."),
+    sheet: str = typer.Option("Lines", "--sheet", help="The sheet holding the lines."),
+    quiet: bool = typer.Option(False, "--quiet", "-q", help="Print errors only."),
+):
+    from rich.console import Console
+    from rich.table import Table
+
+    from .checking import check as run
+
+    if annotate is not None and Path(annotate).resolve() == Path(file).resolve():
+        typer.echo("lagsheet: --annotate would overwrite the input; choose another file", err=True)
+        raise typer.Exit(2)
+    outcome = _guarded(lambda: run(file, sheet, annotate))
+    shown = [n for n in outcome.notes if n.level == "error" or (not quiet and n.level == "warning")]
+    console = Console(width=160)
+    if shown:
+        table = Table(title=f"lagsheet check: {file.name}", show_lines=False)
+        for col in ("level", "where", "what", "message"):
+            table.add_column(col, overflow="fold")
+        for n in shown:
+            table.add_row(n.level, f"{n.sheet}!{n.cell}" if n.sheet and n.cell else n.sheet, n.code, n.message)
+        console.print(table)
+    errors = sum(n.level == "error" for n in outcome.notes)
+    warnings = sum(n.level == "warning" for n in outcome.notes)
+    typer.echo(f"{errors} errors, {warnings} warnings" + (f"; annotated copy: {annotate}" if annotate else ""))
+    if report is not None:
+        from .report import write_json
+
+        write_json({"input": str(file), "notes": [n.as_dict() for n in outcome.notes],
+                    "columns": outcome.inputs.columns, "errors": errors, "warnings": warnings}, report)
+    raise typer.Exit(outcome.exit_code)
+
+
+@app.command(help="Print the whole calculation of the line TAG of FILE: inputs, layers, coefficients, "
+                  "balance, targets. --plot OUT.png draws heat loss and surface temperature against thickness.")
+def explain(
+    file: Path = typer.Argument(..., exists=True, dir_okay=False, help="The workbook."),
+    tag: str = typer.Argument(..., help="The Tag of the line."),
+    plot: Path = typer.Option(None, "--plot", dir_okay=False, help="Also draw the line's curves to this PNG."),
+    sheet: str = typer.Option("Lines", "--sheet", help="The sheet holding the lines."),
+):
+    from .explain import explain as words
+    from .explain import find_line
+
+    book, inputs, res = _guarded(lambda: _open_and_specify(file, sheet))
+    i = find_line(res, tag)
+    if i is None:
+        typer.echo(f"lagsheet: no line with Tag {tag!r} in {inputs.lines.sheet}", err=True)
+        raise typer.Exit(2)
+    typer.echo("\n".join(words(inputs, book.sheet(inputs.lines.sheet), res, i)))
+    if plot is not None:
+        if not (res.lines[i].ok and res.lines[i].materials):
+            typer.echo("lagsheet: this line has no computed insulated system to plot", err=True)
+            raise typer.Exit(1)
+        from .plot import plot_line
+
+        _guarded(lambda: plot_line(inputs, res, i, plot))
+        typer.echo(f"plot: {plot}")
+    raise typer.Exit(1 if res.status[i] == "error" else 0)
+
+
+@app.command(help="Recompute FILE, a schedule someone already filled, and list every result that differs "
+                  "beyond tolerance, with the most likely cause. Exit 1 when anything differs.")
+def audit(
+    file: Path = typer.Argument(..., exists=True, dir_okay=False, help="The filled workbook."),
+    map_: list[str] = typer.Option([], "--map", help="'Their header=Thickness': read their column as ours "
+                                                    "(Thickness, Surface temperature, Heat loss, Heat loss per length)."),
+    surface_k: float = typer.Option(2.0, "--surface-tolerance", help="Surface temperature tolerance [K]."),
+    loss_pct: float = typer.Option(5.0, "--loss-tolerance", help="Heat loss tolerance [%]."),
+    sheet: str = typer.Option("Lines", "--sheet", help="The sheet holding the lines."),
+    report: Path = typer.Option(None, "--report", dir_okay=False, help="Also write the findings as JSON."),
+):
+    from dataclasses import asdict
+
+    from .audit import audit as run
+
+    mapping = {}
+    for m in map_:
+        theirs, sep, ours = m.partition("=")
+        if not sep or not theirs.strip() or not ours.strip():
+            typer.echo(f"lagsheet: --map {m!r}: write it as 'Their header=Thickness'", err=True)
+            raise typer.Exit(2)
+        mapping[theirs.strip()] = ours.strip()
+    book, inputs, res = _guarded(lambda: _open_and_specify(file, sheet))
+    try:
+        found = run(inputs, book.sheet(inputs.lines.sheet), res, mapping, surface_k, loss_pct / 100)
+    except ValueError as exc:
+        typer.echo(f"lagsheet: {exc}", err=True)
+        raise typer.Exit(2) from None
+    for f in found:
+        typer.echo(f"{f.tag or 'row ' + str(f.row)}: {f.message}")
+    typer.echo(f"{len(found)} results differ beyond tolerance" if found else "every audited result agrees")
+    if report is not None:
+        from .report import write_json
+
+        write_json({"input": str(file), "differences": [asdict(f) for f in found]}, report)
+    raise typer.Exit(1 if found else 0)
+
+
 def main() -> None:
     app()
 

@@ -78,6 +78,11 @@ def build(inputs: Inputs, res: Results, input_path: Path, output_path: Path | No
     }
 
 
+def write_json(data: dict, path: Path) -> None:
+    """Any JSON document lagsheet writes, saved atomically."""
+    write(data, path)
+
+
 def write(report: dict, path: Path) -> None:
     from .io.save import atomic_write
 
