@@ -43,12 +43,20 @@ def _print_summary(outcome, out: Path, quiet: bool) -> None:
             if n["level"] == "error":
                 typer.echo(f"error: {line['tag'] or 'row ' + str(line['row'])}: {n['message']} "
                            f"({n['sheet']}!{n['cell']})", err=True)
-    typer.echo(f"{s['lines']} lines: {s['lines'] - s['errors'] - s['warnings']} ok, "
-               f"{s['warnings']} with warnings, {s['errors']} with errors")
-    typer.echo(f"heat loss {s['heat_loss_W'] / 1000:,.1f} kW insulated, "
-               f"{s['bare_heat_loss_W'] / 1000:,.1f} kW bare; annual cost {s['annual_cost']:,.0f} {cur}, "
-               f"saving {s['annual_saving']:,.0f} {cur} a year")
-    typer.echo(f"written: {out}")
+    from rich.console import Console
+    from rich.table import Table
+
+    table = Table(title="lagsheet fill", show_header=False)
+    table.add_column("what")
+    table.add_column("value", justify="right")
+    table.add_row("lines", f"{s['lines']}: {s['lines'] - s['errors'] - s['warnings']} ok, "
+                  f"{s['warnings']} with warnings, {s['errors']} with errors")
+    table.add_row("heat loss, insulated", f"{s['heat_loss_W'] / 1000:,.1f} kW")
+    table.add_row("heat loss, bare", f"{s['bare_heat_loss_W'] / 1000:,.1f} kW")
+    table.add_row("annual cost", f"{s['annual_cost']:,.0f} {cur}")
+    table.add_row("annual saving", f"{s['annual_saving']:,.0f} {cur}")
+    table.add_row("written", str(out))
+    Console(width=100).print(table)
 
 
 @app.command(help="Size and evaluate every line and write the filled workbook to OUT.\n\n" + CAUTION)
@@ -65,10 +73,38 @@ def fill(
 ):
     from .pipeline import fill as run
 
-    outcome = _guarded(lambda: run(file, output, sheet=sheet, report_path=report, in_place=in_place,
-                                   ignore_lock=ignore_lock))
+    with _progress(quiet) as stage:
+        outcome = _guarded(lambda: run(file, output, sheet=sheet, report_path=report, in_place=in_place,
+                                       ignore_lock=ignore_lock, progress=stage))
     _print_summary(outcome, file if in_place else output, quiet)
     raise typer.Exit(outcome.exit_code)
+
+
+class _progress:
+    """A progress line on stderr while reading, solving and writing; silent with --quiet or no terminal."""
+
+    def __init__(self, quiet: bool):
+        import sys
+
+        self.live = not quiet and sys.stderr.isatty()
+        self.status = None
+
+    def __enter__(self):
+        if self.live:
+            from rich.console import Console
+
+            self.status = Console(stderr=True).status("lagsheet: starting")
+            self.status.start()
+        return self.update
+
+    def update(self, stage: str) -> None:
+        if self.status is not None:
+            self.status.update(f"lagsheet: {stage} ...")
+
+    def __exit__(self, *exc):
+        if self.status is not None:
+            self.status.stop()
+        return False
 
 
 def _guarded(job):

@@ -60,8 +60,13 @@ def _locked(lock, name: str) -> WorkbookError:
 
 
 def fill(path: Path, out: Path | None, *, sheet: str = "Lines", report_path: Path | None = None,
-         in_place: bool = False, ignore_lock: bool = False) -> Outcome:
-    """Size and evaluate every line of ``path`` and write the filled workbook to ``out``."""
+         in_place: bool = False, ignore_lock: bool = False, progress=None) -> Outcome:
+    """Size and evaluate every line of ``path`` and write the filled workbook to ``out``.
+
+    ``progress``, if given, is called with the name of each stage as it starts
+    ('reading', 'solving', 'writing'); the CLI shows it.
+    """
+    step = progress or (lambda stage: None)
     path = Path(path)
     if in_place:
         out = path
@@ -96,6 +101,7 @@ def fill(path: Path, out: Path | None, *, sheet: str = "Lines", report_path: Pat
             notes.append(Note("warning", "input-open",
                               f"{path.name} is open in a spreadsheet program ({in_lock.by()}): "
                               "the last saved version is read; unsaved changes there are not included"))
+    step("reading")
     book = open_book(path)
     inputs = read_inputs(book, sheet)
     fatal = [n for n in inputs.notes if n.level == "error" and n.code in
@@ -103,7 +109,9 @@ def fill(path: Path, out: Path | None, *, sheet: str = "Lines", report_path: Pat
     if fatal:
         raise WorkbookError("; ".join(n.message for n in fatal))
     inputs.notes[:0] = notes
+    step("solving")
     res = specify(inputs)
+    step("writing")
     edits = [lines_edits(book.sheet(inputs.lines.sheet), inputs.lines, res, inputs.us_units,
                          str(inputs.settings["currency"]))]
     stale = remove_stale_temps(out)
