@@ -12,7 +12,7 @@ import math
 
 import numpy as np
 
-from . import __version__
+from . import __version__, schema
 from .display import show
 from .inputs import Inputs
 from .io.table import NewSheet as SheetTable
@@ -88,13 +88,17 @@ def summary(inputs: Inputs, res: Results, today: _dt.date | None = None) -> Shee
                "series": [((header_row, 4), 4, first, first + len(order) - 1),
                           ((header_row, 6), 6, first, first + len(order) - 1)]}
     s.add([])
-    s.add(["Settings used", "Value"], bold=True)
+    s.add(["Settings used", "Value", "Unit", "Source"], bold=True)
     given = inputs.settings.get("_given", set())
-    for key, value in inputs.settings.items():
-        if key.startswith("_"):
-            continue
-        s.add([key.replace("_", " "), value if not isinstance(value, float) or math.isfinite(value) else None,
-               "given" if key in given else "default"])
+    for key, (title, dim, si, _default, _kind) in schema.SETTINGS.items():
+        value = inputs.settings.get(key)
+        unit = {"dimensionless": "", "1/kWh": f"{cur}/kWh", "1/m**2": f"{cur}/m²", "m": "m", "K": "K",
+                "kg/kWh": "kg/kWh", "year": "years", "": ""}.get(si, si)
+        if dim == "%" and isinstance(value, float):
+            value, unit = value * 100, "%"
+        if isinstance(value, float) and not math.isfinite(value):
+            value = None
+        s.add([title, value, unit, "given" if key in given else ("default" if value is not None else "not set")])
     s.add([])
     s.add(["Conditions used", "Ambient", "Surroundings", "Wind [m/s]", "RH [%]", "Hours [h/yr]"], bold=True)
     used = {c.name for L in res.lines for c in L.conditions}
