@@ -102,3 +102,40 @@ def test_the_same_schedule_in_us_units_gives_the_same_totals(tmp_path):
     qb = quantities_table(b_in, b_res)
     row = next(r for r in qb.rows if r and r[0] == "mineral wool total")
     assert row[4] == pytest.approx(100.0, rel=1e-9)  # feet of pipe
+
+
+def _soffice():
+    import os
+    import shutil
+
+    exe = shutil.which("soffice") or shutil.which("libreoffice")
+    if exe is None:
+        if os.environ.get("CI", "").lower() in ("true", "1", "yes"):
+            pytest.fail("LibreOffice (soffice) is needed under CI; .ci/run installs it")
+        pytest.skip("LibreOffice (soffice) is not installed here")
+    return exe
+
+
+def test_the_filled_demo_opens_in_libreoffice_and_its_summary_has_the_same_totals(tmp_path, cli):
+    """LibreOffice converts the filled demo's Summary to CSV; its Total row equals the report's totals."""
+    import csv
+    import json
+    import subprocess
+
+    exe = _soffice()
+    assert cli("demo", tmp_path).exit_code == 0
+    rep = json.loads((tmp_path / "demo-plant-report.json").read_text())
+    subprocess.run([exe, "--headless", f"-env:UserInstallation=file://{tmp_path}/lo-profile", "--convert-to",
+                    "csv:Text - txt - csv (StarCalc):44,34,76,1,,0,false,true,false,false,false,-1",
+                    "--outdir", str(tmp_path / "csv"), str(tmp_path / "demo-plant-filled.xlsx")],
+                   check=True, capture_output=True, timeout=240)
+    with (tmp_path / "csv" / "demo-plant-filled-Summary.csv").open(encoding="utf-8") as fh:
+        rows = list(csv.reader(fh))
+    head = next(r for r in rows if r and r[0] == "Area")
+    total = next(r for r in rows if r and r[0] == "Total")
+    value = dict(zip(head, total, strict=False))
+    assert int(value["Lines"]) == rep["summary"]["lines"]
+    assert float(value["Heat loss [kW]"]) == pytest.approx(
+        sum(x["results"]["heat_loss_W"] for x in rep["lines"] if (x["results"]["heat_loss_W"] or 0) > 0) / 1000, rel=1e-6)
+    assert float(value["Annual cost [EUR]"]) == pytest.approx(rep["summary"]["annual_cost"], rel=1e-6)
+    assert float(value["Annual saving [EUR]"]) == pytest.approx(rep["summary"]["annual_saving"], rel=1e-6)
