@@ -183,17 +183,10 @@ def new(
 
 
 def _open_and_specify(file: Path, sheet: str):
-    from .errors import WorkbookError
-    from .inputs import read_inputs
-    from .io import open_book
+    from .pipeline import load
     from .spec import specify
 
-    book = open_book(file)
-    inputs = read_inputs(book, sheet)
-    fatal = [n for n in inputs.notes if n.level == "error" and n.code in
-             ("no-lines-sheet", "no-header", "missing-column")]
-    if fatal:
-        raise WorkbookError("; ".join(n.message for n in fatal))
+    book, inputs = load(file, sheet)
     return book, inputs, specify(inputs)
 
 

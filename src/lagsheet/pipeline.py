@@ -59,6 +59,17 @@ def _locked(lock, name: str) -> WorkbookError:
                          "or pass --ignore-lock if the lock is stale")
 
 
+def load(path: Path, sheet: str = "Lines"):
+    """Open and check a workbook; exit-2 problems (no Lines sheet, header or required column) raise."""
+    book = open_book(Path(path))
+    inputs = read_inputs(book, sheet)
+    fatal = [n for n in inputs.notes if n.level == "error" and n.code in
+             ("no-lines-sheet", "no-header", "missing-column")]
+    if fatal:
+        raise WorkbookError("; ".join(n.message for n in fatal))
+    return book, inputs
+
+
 def fill(path: Path, out: Path | None, *, sheet: str = "Lines", report_path: Path | None = None,
          in_place: bool = False, ignore_lock: bool = False, progress=None) -> Outcome:
     """Size and evaluate every line of ``path`` and write the filled workbook to ``out``.
@@ -102,12 +113,7 @@ def fill(path: Path, out: Path | None, *, sheet: str = "Lines", report_path: Pat
                               f"{path.name} is open in a spreadsheet program ({in_lock.by()}): "
                               "the last saved version is read; unsaved changes there are not included"))
     step("reading")
-    book = open_book(path)
-    inputs = read_inputs(book, sheet)
-    fatal = [n for n in inputs.notes if n.level == "error" and n.code in
-             ("no-lines-sheet", "no-header", "missing-column")]
-    if fatal:
-        raise WorkbookError("; ".join(n.message for n in fatal))
+    book, inputs = load(path, sheet)
     inputs.notes[:0] = notes
     step("solving")
     res = specify(inputs)
