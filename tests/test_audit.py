@@ -37,6 +37,8 @@ def planted(res, cause):
         s = replace(s, emissivity=np.zeros_like(s.emissivity))
     elif cause == "fixed h = 10":
         s = replace(s, h_fixed=np.full(len(s.emissivity), 10.0))
+    elif cause == "inches read as mm":
+        s = replace(s, r_inner=s.r_inner / 0.0254 * 0.001)
     elif cause == "nominal size as OD":
         s = replace(s, r_inner=np.array([4.0, 1.0, 12.0]) * 0.0254 / 2)
     elif cause == "k at ambient":
@@ -67,7 +69,8 @@ def filled_by_colleague(tmp_path, cause):
     return tmp_path / "theirs.xlsx"
 
 
-@pytest.mark.parametrize("cause", ["no radiation", "fixed h = 10", "nominal size as OD", "k at ambient"])
+@pytest.mark.parametrize("cause", ["no radiation", "fixed h = 10", "nominal size as OD", "k at ambient",
+                                   "inches read as mm"])
 def test_each_planted_cause_is_named(tmp_path, cause):
     """A sheet computed by the engine with one slip switched in is flagged, and that slip is its cause."""
     path = filled_by_colleague(tmp_path, cause)

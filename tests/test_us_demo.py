@@ -1,0 +1,82 @@
+"""A US-customary copy of the demo: the same physics within 0.1 %, results in US units, check and audit clean."""
+
+from __future__ import annotations
+
+import json
+
+import openpyxl
+import pytest
+
+from lagsheet import demo
+
+# exact definitions (NIST SP 811): 1 in = 25.4 mm, 1 ft = 0.3048 m; Btu/(h·ft) = 0.9615194 W/m
+US_HEADERS = {
+    "Outside diameter [mm]": ("Outside diameter [in]", lambda v: v / 25.4),
+    "Length": ("Length [ft]", lambda v: v / 0.3048),
+    "Operating temperature [°C]": ("Operating temperature [°F]", lambda v: v * 9 / 5 + 32),
+    "Max surface temperature [°C]": ("Max surface temperature [°F]", lambda v: v * 9 / 5 + 32),
+    "Max heat loss [W/m]": ("Max heat loss [Btu/(h·ft)]", lambda v: v / 0.9615194),
+    "Min thickness [mm]": ("Min thickness [in]", lambda v: v / 25.4),
+    "Fixed thickness [mm]": ("Fixed thickness [in]", lambda v: v / 25.4),
+    "Surface area [m²]": ("Surface area [ft²]", lambda v: v / 0.3048**2),
+}
+
+
+def write_us_demo(path):
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "Lines"
+    heads = [US_HEADERS.get(h, (h, None))[0] for h in demo.HEADERS]
+    ws.append(heads)
+    for row in demo.LINES:
+        out = []
+        for h, v in zip(demo.HEADERS, list(row) + [None] * (len(demo.HEADERS) - len(row)), strict=True):
+            conv = US_HEADERS.get(h, (h, None))[1]
+            if conv is not None and isinstance(v, (int, float)):
+                v = conv(v)
+            elif isinstance(v, str) and v.endswith("W/m²"):
+                v = f"{float(v.split()[0]) / 3.15459075:.6f} Btu/(h·ft²)"  # 1 Btu/(h·ft²) = 3.15459075 W/m²
+            elif h == "Outside diameter [mm]" and isinstance(v, str):
+                pass  # '2 in' stays a text quantity
+            out.append(v)
+        ws.append(out)
+    c = wb.create_sheet("Conditions")
+    c.append(["Name", "Ambient temperature [°F]", "Surroundings temperature [°F]", "Wind speed [mph]",
+              "Relative humidity [%]", "Operating hours [h]"])
+    for r in demo.CONDITIONS[1:]:
+        c.append([r[0], r[1] * 9 / 5 + 32, r[2] * 9 / 5 + 32, r[3] / 0.44704, r[4], r[5]])
+    for name, rows in (("Materials", demo.MATERIALS), ("Settings", demo.SETTINGS)):
+        s = wb.create_sheet(name)
+        for r in rows:
+            s.append(list(r))
+    wb.save(path)
+    return path
+
+
+def test_the_us_copy_of_the_demo_gives_the_same_physics_in_us_units(tmp_path, cli):
+    """Every line's heat loss and surface temperature equal the SI demo's within 0.1 %; outputs are in °F, in, Btu/h."""
+    assert cli("demo", tmp_path / "si").exit_code == 0
+    si = json.loads((tmp_path / "si" / "demo-plant-report.json").read_text())["lines"]
+    src = write_us_demo(tmp_path / "us.xlsx")
+    r = cli("fill", src, "-o", tmp_path / "us-out.xlsx", "--report", tmp_path / "us.json")
+    assert r.exit_code == 0, r.output
+    us = json.loads((tmp_path / "us.json").read_text())["lines"]
+    assert [x["tag"] for x in us] == [x["tag"] for x in si]
+    for a, b in zip(si, us, strict=True):
+        assert b["results"]["thickness_m"] == pytest.approx(a["results"]["thickness_m"], rel=1e-9), a["tag"]
+        for key in ("heat_loss_W", "surface_temperature_K", "bare_heat_loss_W"):
+            assert b["results"][key] == pytest.approx(a["results"][key], rel=1e-3), (a["tag"], key)
+    heads = [c.value for c in openpyxl.load_workbook(tmp_path / "us-out.xlsx")["Lines"][1]]
+    for h in ("Thickness [in]", "Surface temperature [°F]", "Heat loss [Btu/h]", "Heat loss per length [Btu/(h·ft)]"):
+        assert h in heads
+
+
+def test_check_explain_and_audit_work_on_the_us_copy(tmp_path, cli):
+    """check finds no error, explain prints °F, and audit of the filled US copy agrees with itself."""
+    src = write_us_demo(tmp_path / "us.xlsx")
+    assert cli("check", src).exit_code == 0
+    r = cli("explain", src, "ST-1001")
+    assert r.exit_code == 0 and "°F" in r.output
+    cli("fill", src, "-o", tmp_path / "out.xlsx")
+    r = cli("audit", tmp_path / "out.xlsx")
+    assert r.exit_code == 0 and "every audited result agrees" in r.output
