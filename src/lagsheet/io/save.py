@@ -150,7 +150,8 @@ def atomic_write(out: Path, write: Callable[[str], None], *, like: Path | None =
         with contextlib.suppress(OSError):
             os.unlink(tmp)
         if isinstance(exc, WorkbookError):
-            raise WorkbookError(f"{out}: {exc}; nothing was replaced") from None
+            tail = "" if "nothing was" in str(exc) else "; nothing was replaced"
+            raise WorkbookError(f"{out}: {exc}{tail}") from None
         if isinstance(exc, OSError):
             raise WorkbookError(f"{out}: cannot be written ({exc.strerror or exc}); "
                                 "nothing was replaced") from None
