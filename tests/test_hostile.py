@@ -492,6 +492,21 @@ def test_a_non_finite_number_in_the_sheet_xml_is_an_error_on_its_line(tmp_path, 
     assert any(n["code"] == "out-of-range" and n["cell"] == "E2" for n in bad["notes"]), bad["notes"]
 
 
+@pytest.mark.parametrize("error", ["#DIV/0!", "#N/A", "#NUM!", "#VALUE!"])
+def test_an_error_cell_in_a_number_column_is_an_error_on_its_line(tmp_path, cli, error):
+    """A formula whose cached result is an error value (#DIV/0! ...) leaves its line in error, exit 1."""
+    src = write_book(tmp_path / "in.xlsx", [pipe(**{"Length [m]": 7}), pipe("P-2")])
+    xml = _sheet_xml_of(src)
+    new = xml.replace('<c r="E2" t="n"><v>7</v></c>', f'<c r="E2" t="e"><f>1/0</f><v>{error}</v></c>')
+    assert new != xml
+    _replace_sheet(src, new)
+    r = cli("fill", src, "-o", tmp_path / "out.xlsx", "--report", tmp_path / "r.json")
+    assert r.exit_code == 1, r.output
+    bad, good = json.loads((tmp_path / "r.json").read_text())["lines"]
+    assert bad["status"] == "error" and any(n["level"] == "error" and n["cell"] == "E2" for n in bad["notes"])
+    assert good["status"] != "error"
+
+
 def _sheet_xml_of(path: Path) -> str:
     with zipfile.ZipFile(path) as z:
         return z.read("xl/worksheets/sheet1.xml").decode()
