@@ -101,6 +101,10 @@ def _us_units(t: Table | None) -> bool:
     return us > si
 
 
+# settings that divide or step: 0 is no value for them
+_POSITIVE = {"heating_efficiency", "cooling_cop", "service_life", "thickness_step", "max_thickness"}
+
+
 def _settings(book: Book, notes: list[Note]) -> dict[str, object]:
     values = {k: v[3] for k, v in schema.SETTINGS.items()}
     values["_given"] = set()
@@ -145,7 +149,10 @@ def _settings(book: Book, notes: list[Note]) -> dict[str, object]:
             unit = parse_unit(unit_text if unit_text else "1")
             if not is_unit(unit, dim):
                 raise UnitTextError(f"unit {unit_text!r} is not like {dim}")
-            values[key] = float(to_si([number], unit, si, difference=kind == schema.DIFFERENCE)[0])
+            converted = float(to_si([number], unit, si, difference=kind == schema.DIFFERENCE)[0])
+            if not np.isfinite(converted) or (key in _POSITIVE and converted <= 0) or converted < 0:
+                raise ValueError("it must be a finite number" + (" above 0" if key in _POSITIVE else " of 0 or more"))
+            values[key] = converted
             values["_given"].add(key)
             if currency and "currency" not in values["_given"]:
                 values["currency"] = currency
@@ -187,7 +194,7 @@ def _conditions(book: Book, notes: list[Note], columns: list[dict]) -> dict[str,
         base = BUILTIN_CONDITIONS.get(fold(label), BUILTIN_CONDITIONS["indoor"])
         out[fold(label)] = Condition(
             str(label), ta, tsur if np.isfinite(tsur) else ta,
-            _or(_num(t, "wind_speed", i), 0.0), _or(_num(t, "relative_humidity", i), base.rh),
+            max(0.0, _or(_num(t, "wind_speed", i), 0.0)), _or(_num(t, "relative_humidity", i), base.rh),
             _or(_num(t, "operating_hours", i), 8760.0), source=f"{name}!{t.cell(i, 'name')}")
     return out
 

@@ -98,7 +98,16 @@ def _check_tags(t, res: Results, lines: list[Line]) -> None:
 
 
 def specify(inputs: Inputs) -> Results:
-    """Choose and evaluate the insulation system of every line of ``inputs.lines``."""
+    """Choose and evaluate the insulation system of every line of ``inputs.lines``.
+
+    Lines whose numbers overflow or come out NaN are reported as errors; numpy's
+    floating-point warnings are not raised at the user for them.
+    """
+    with np.errstate(all="ignore"):
+        return _specify(inputs)
+
+
+def _specify(inputs: Inputs) -> Results:
     t = inputs.lines
     n = len(t.rows) if t is not None else 0
     res = Results(n)
@@ -530,7 +539,8 @@ def _notes(i, L, res, t, th, c, k, start, case_cond, given, meets, sol, loss, ba
         notes.append(Note("info", "governing-condition",
                           f"{governing} judged at every named condition; '{gov_cond}' governed. Results "
                           f"are given at '{L.conditions[0].name}'", sheet, t.cell(i, "condition")))
-    if not sol.converged[i] or abs(sol.residual[i]) > 1e-6:
+    if not sol.converged[i] or not np.isfinite(sol.residual[i]) or abs(sol.residual[i]) > 1e-6 \
+            or not np.isfinite(sol.q[i]):
         notes.append(Note("error", "not-converged", "the surface balance did not converge; check the "
                           "inputs of this line", sheet, t.cell(i, "tag")))
     if th.sum() > 0 and not c.in_range[start, k]:

@@ -132,7 +132,9 @@ def kept(before: RawSheet, after_grid: list[list[Any]], written: set[tuple[int, 
             if (r, c) in written or v in ("", None):
                 continue
             w = other[c] if c < len(other) else ""
-            if w != v and not (isinstance(v, float) and isinstance(w, float) and abs(v - w) <= 1e-12 * abs(v)):
+            same_float = isinstance(v, float) and isinstance(w, float) and (
+                abs(v - w) <= 1e-12 * abs(v) or (v != v and w != w))  # NaN stays NaN
+            if w != v and not same_float:
                 bad.append(address(r, c))
                 if len(bad) >= limit:
                     return bad

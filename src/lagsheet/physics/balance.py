@@ -70,7 +70,16 @@ class Solution:
 
 
 def solve(s: System, table: MaterialTable) -> Solution:
-    """Solve the surface balance of every line of ``s``, conductivities from ``table``."""
+    """Solve the surface balance of every line of ``s``, conductivities from ``table``.
+
+    Degenerate inputs (overflowing magnitudes, NaN) give NaN results for their lines, which
+    the caller reports; numpy's floating-point warnings are not raised for them.
+    """
+    with np.errstate(all="ignore"):
+        return _solve(s, table)
+
+
+def _solve(s: System, table: MaterialTable) -> Solution:
     n = s.t_operating.shape[0]
     radii = outer_radius(s.geometry, s.r_inner, s.thickness)
     g = geometric_lengths(s.geometry, radii)
