@@ -61,3 +61,18 @@ def cli():
         return runner.invoke(app, [str(a) for a in args], catch_exceptions=False)
 
     return run
+
+
+def _register_fuzz_profile() -> None:
+    """The hypothesis profile of tests/test_fuzz.py: 500 derandomized examples, LAGSHEET_FUZZ_EXAMPLES for more."""
+    import os
+
+    from hypothesis import HealthCheck, settings
+
+    settings.register_profile(
+        "lagsheet-fuzz", max_examples=int(os.environ.get("LAGSHEET_FUZZ_EXAMPLES", "500")),
+        derandomize=True, database=None, deadline=None,
+        suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
+
+
+_register_fuzz_profile()
