@@ -19,7 +19,7 @@ from xml.sax.saxutils import escape, quoteattr
 
 from ..errors import WorkbookError
 from .save import VERIFIERS, atomic_write
-from .table import RawSheet, SheetEdits, post_write_check
+from .table import RawSheet, SheetEdits, calamine_grid, post_write_check, sheet_name_for
 
 AUTHOR = "lagsheet"
 MARK = "lagsheet: "
@@ -85,38 +85,20 @@ class OdsBook:
 
     def _put_sheet(self, content: str, sheet, styles: _AutoStyles) -> str:
         """Add a whole sheet of lagsheet's, replacing our earlier one; never a person's."""
-        from .table import NewSheet
-
-        name = sheet.name
-        while name in self._names:
-            grid = self.sheet(name).grid
-            first = grid[0][0] if grid and grid[0] else ""
-            if isinstance(first, str) and first.startswith(NewSheet.MARK):
-                a, b = _span(content, name, self.n)
-                content = content[:a] + content[b:]
-                break
-            name = f"{name} (lagsheet)"
+        name, ours = sheet_name_for(self, sheet.name)
+        if ours:
+            a, b = _span(content, name, self.n)
+            content = content[:a] + content[b:]
         if name != sheet.name:
             sheet = type(sheet)(**{**sheet.__dict__, "name": name})
         last = content.rfind(f"</{self.n.table}:table>")
         at = last + len(f"</{self.n.table}:table>")
         return content[:at] + _new_table(sheet, self.n, styles) + content[at:]
 
-    def _table_span(self, name: str) -> tuple[int, int]:
-        t = re.escape(self.n.table)
-        for m in re.finditer(rf'<{t}:table\b[^>]*\b{t}:name="([^"]*)"[^>]*>', self._content):
-            if _unescape(m.group(1)) == name:
-                end = self._content.find(f"</{self.n.table}:table>", m.end())
-                return m.start(), end + len(f"</{self.n.table}:table>")
-        raise KeyError(name)
-
     def sheet(self, name: str) -> RawSheet:
         if name not in self._raw:
-            try:
-                grid = self._values.get_sheet_by_name(name).to_python(skip_empty_area=False)
-            except Exception as exc:
-                raise WorkbookError(f"{self.path.name}: sheet {name!r} cannot be read ({exc})") from exc
-            a, b = self._table_span(name)
+            grid = calamine_grid(self._values, name, self.path)
+            a, b = _span(self._content, name, self.n)
             self._raw[name] = RawSheet(name, grid, _uncached(self._content[a:b], self.n))
         return self._raw[name]
 

@@ -110,6 +110,30 @@ class NewSheet:
         return r
 
 
+def calamine_grid(values, name: str, path: Path) -> list[list[Any]]:
+    """The cell values of sheet ``name`` from A1, by calamine (cached results for formulas)."""
+    from ..errors import WorkbookError
+
+    try:
+        return values.get_sheet_by_name(name).to_python(skip_empty_area=False)
+    except Exception as exc:  # calamine raises its own kinds; all mean "cannot be read"
+        raise WorkbookError(f"{path.name}: sheet {name!r} cannot be read ({exc})") from exc
+
+
+def sheet_name_for(book: Book, wanted: str) -> tuple[str, bool]:
+    """Where a sheet of lagsheet's goes: (name, replace). Ours from an earlier run (its first
+    cell starts with :attr:`NewSheet.MARK`) is replaced; a person's sheet of that name is never
+    touched, ours is then named '<name> (lagsheet)'."""
+    name = wanted
+    while name in book.sheet_names():
+        grid = book.sheet(name).grid
+        first = grid[0][0] if grid and grid[0] else ""
+        if isinstance(first, str) and first.startswith(NewSheet.MARK):
+            return name, True
+        name = f"{name} (lagsheet)"
+    return name, False
+
+
 class Book(Protocol):
     """An open workbook, as every adapter presents it."""
 

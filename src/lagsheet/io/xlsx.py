@@ -23,7 +23,15 @@ from xml.sax.saxutils import escape
 
 from ..errors import WorkbookError
 from .save import VERIFIERS, atomic_write
-from .table import RawSheet, SheetEdits, address, column_letter, post_write_check
+from .table import (
+    RawSheet,
+    SheetEdits,
+    address,
+    calamine_grid,
+    column_letter,
+    post_write_check,
+    sheet_name_for,
+)
 
 AUTHOR = "lagsheet"
 MARK = "lagsheet: "  # our comments start with this, so that a later run replaces them
@@ -127,10 +135,7 @@ class XlsxBook:
 
     def sheet(self, name: str) -> RawSheet:
         if name not in self._raw:
-            try:
-                grid = self._values.get_sheet_by_name(name).to_python(skip_empty_area=False)
-            except Exception as exc:
-                raise WorkbookError(f"{self.path.name}: sheet {name!r} cannot be read ({exc})") from exc
+            grid = calamine_grid(self._values, name, self.path)
             uncached = _uncached_formulas(self._zip.read(self._part(name)).decode("utf-8"))
             self._raw[name] = RawSheet(name, grid, uncached)
         return self._raw[name]
@@ -769,16 +774,8 @@ NS_C = "http://schemas.openxmlformats.org/drawingml/2006/chart"
 
 def _put_sheet(pkg: _Package, book: XlsxBook, sheet) -> None:
     """Write a whole sheet of lagsheet's (Summary, Quantities), replacing our earlier one."""
-    from .table import NewSheet
-
-    name = sheet.name
-    while name in book.sheet_names():
-        grid = book.sheet(name).grid
-        first = grid[0][0] if grid and grid[0] else ""
-        if isinstance(first, str) and first.startswith(NewSheet.MARK):
-            break  # ours from an earlier run: replace it
-        name = f"{name} (lagsheet)"  # a person's sheet of that name is never touched
-    if name in book.sheet_names():
+    name, ours = sheet_name_for(book, sheet.name)
+    if ours:
         part = book._part(name)
         for rel in _read_rels(pkg.zf, part):  # our old drawing and chart go with the old sheet
             target = _rel_target(part, rel.get("Target", ""))
