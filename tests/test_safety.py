@@ -78,6 +78,29 @@ def test_no_command_modifies_its_input(tmp_path, cli, scenario):
         assert files(tmp_path) == ["in.xlsx"]
 
 
+OTHER_COMMANDS = {
+    "check": (lambda d, src: ["check", src], []),
+    "check --annotate": (lambda d, src: ["check", src, "--annotate", d / "notes.xlsx", "--report", d / "c.json"],
+                         ["c.json", "notes.xlsx"]),
+    "check --annotate onto the input": (lambda d, src: ["check", src, "--annotate", src], []),
+    "explain": (lambda d, src: ["explain", src, "P-1"], []),
+    "audit of the filled copy": (lambda d, src: ["audit", d / "filled.xlsx"], ["filled.xlsx"]),
+}
+
+
+@pytest.mark.parametrize("command", OTHER_COMMANDS)
+def test_no_other_command_modifies_the_files_it_reads(tmp_path, cli, command):
+    """check, explain and audit leave the workbooks they read byte-identical and write only what is named."""
+    make, written = OTHER_COMMANDS[command]
+    src = write_book(tmp_path / "in.xlsx", [pipe(), pipe("P-2", Insulation="unobtainium")])
+    assert cli("fill", src, "-o", tmp_path / "filled.xlsx").exit_code == 1
+    before = {p.name: sha256(p) for p in tmp_path.iterdir()}
+    r = cli(*make(tmp_path, src))
+    assert r.exit_code in (0, 1, 2), r.output
+    assert {n: sha256(tmp_path / n) for n in before} == before
+    assert sorted(files(tmp_path)) == sorted({"in.xlsx", "filled.xlsx", *written})
+
+
 def test_a_symlink_or_hard_link_to_the_input_is_refused_as_output(tmp_path, cli):
     """Another name for the input file is still the input: refused without --in-place."""
     src = write_book(tmp_path / "in.xlsx", [pipe()])
