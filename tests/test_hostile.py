@@ -513,3 +513,41 @@ def _replace_sheet(path: Path, xml: str) -> None:
         parts = {n: z.read(n) for n in z.namelist()}
     parts["xl/worksheets/sheet1.xml"] = xml.encode()
     _zip(path, parts)
+
+
+# -- OpenDocument packages -------------------------------------------------------------------------
+
+ODS_CONTENT = ('<?xml version="1.0" encoding="UTF-8"?>\n<office:document-content '
+               'xmlns:office="urn:oasis:names:tc:opendocument:xmlns:office:1.0"/>')
+LEGACY_MANIFEST = ('<?xml version="1.0" encoding="UTF-8"?>\n<!DOCTYPE manifest:manifest PUBLIC '
+                   '"-//OpenOffice.org//DTD Manifest 1.0//EN" "Manifest.dtd">\n<manifest:manifest '
+                   'xmlns:manifest="urn:oasis:names:tc:opendocument:xmlns:manifest:1.0"/>')
+
+
+def _ods(path: Path, members: dict[str, str]) -> Path:
+    with zipfile.ZipFile(path, "w") as z:
+        z.writestr("mimetype", "application/vnd.oasis.opendocument.spreadsheet")
+        for n, text in members.items():
+            z.writestr(n, text, compress_type=zipfile.ZIP_DEFLATED)
+    return path
+
+
+def test_an_ods_package_passes_with_the_legacy_manifest_dtd_and_nothing_else(tmp_path):
+    """The external manifest DTD old OpenOffice.org wrote is allowed there; any other DTD is refused."""
+    preflight.check_package(_ods(tmp_path / "ok.ods", {"content.xml": ODS_CONTENT,
+                                                       "META-INF/manifest.xml": LEGACY_MANIFEST}))
+    evil = LEGACY_MANIFEST.replace('"Manifest.dtd">', '"Manifest.dtd" [<!ENTITY e SYSTEM "file:///etc/passwd">]>')
+    for name, members in {
+        "subset.ods": {"content.xml": ODS_CONTENT, "META-INF/manifest.xml": evil},
+        "content.ods": {"content.xml": LEGACY_MANIFEST.replace("manifest.xml", "content.xml"),
+                        "META-INF/manifest.xml": LEGACY_MANIFEST},
+        "laughs.ods": {"content.xml": LAUGHS + ODS_CONTENT.split("\n", 1)[1]},
+    }.items():
+        with pytest.raises(WorkbookError, match="declares a DTD"):
+            preflight.check_package(_ods(tmp_path / name, members))
+
+
+def test_an_ods_package_without_content_is_refused(tmp_path):
+    """A zip named .ods with no content.xml is not an OpenDocument spreadsheet."""
+    with pytest.raises(WorkbookError, match="without content.xml"):
+        preflight.check_package(_ods(tmp_path / "empty.ods", {"styles.xml": ODS_CONTENT}))
