@@ -145,6 +145,8 @@ def parse_quantity_text(text: str) -> tuple[float, pint.Unit | None]:
     if not m:
         raise UnitTextError(f"{text!r} is not a number with a unit")
     number, unit_text = m.group(1), m.group(2)
+    if re.search(r"/\s*0+(?:\.0*)?\s*$", number):
+        raise UnitTextError(f"{text!r} divides by zero")
     if " " in number:
         whole, frac = number.split()
         a, b = frac.split("/")
