@@ -119,3 +119,9 @@ def test_unknown_headers_are_left_alone():
                    schema.LINE_FIELDS, "Tag")
     assert set(t.columns) == {"tag", "length"}
     assert t.last_col == 3
+
+
+def test_an_alias_of_tag_marks_the_header_row():
+    """A header row whose first column says 'Line no' (an alias of Tag) is found and read."""
+    t = read_table(sheet([["Schedule"], ["Line no", "Shape"], ["P1", "pipe"]]), schema.LINE_FIELDS, "Tag")
+    assert t.header_row == 1 and list(t.get("tag")) == ["P1"]

@@ -86,7 +86,8 @@ def _suggest(word: str, choices) -> str:
 
 def read_table(sheet: RawSheet, fields, marker: str) -> Table | None:
     """Find the header row (first row with ``marker``), map headers to fields, convert."""
-    hr = sheet.find_header(marker)
+    key = next((f for f in fields if fold(f.header) == fold(marker)), None)
+    hr = sheet.find_header((marker, *key.aliases) if key is not None else marker)  # 'Tag' or an alias
     if hr is None:
         return None
     header_cells = sheet.grid[hr]

@@ -65,11 +65,11 @@ class RawSheet:
                     break
         return last
 
-    def find_header(self, marker: str) -> int | None:
-        """First row (0-based) with a cell equal to ``marker`` (folded)."""
-        want = fold(marker)
+    def find_header(self, marker: str | tuple[str, ...]) -> int | None:
+        """First row (0-based) with a cell equal to ``marker`` or one of several markers (folded)."""
+        want = {fold(m) for m in ((marker,) if isinstance(marker, str) else marker)}
         for i, row in enumerate(self.grid):
-            if any(isinstance(v, str) and fold(v) == want for v in row):
+            if any(isinstance(v, str) and fold(v) in want for v in row):
                 return i
         return None
 
