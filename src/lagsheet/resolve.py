@@ -79,8 +79,11 @@ def resolve(t: Table, inputs: Inputs, i: int, notes: list[Note]) -> Line:
     sheet, us, st = t.sheet, inputs.us_units, inputs.settings
 
     def err(code: str, key: str, message: str):
-        notes.append(Note("error", code, message, sheet, t.cell(i, key)))
+        cell = t.cell(i, key)
         L.ok = False
+        if key in t.columns and any(n.level == "error" and n.cell == cell for n in notes):
+            return  # the cell already carries its error (e.g. 'must be a number'): not also 'blank'
+        notes.append(Note("error", code, message, sheet, cell))
 
     def text(key):
         v = t.get(key)
