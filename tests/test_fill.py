@@ -140,7 +140,7 @@ def test_a_workbook_without_lines_exits_2(tmp_path, cli, sheets, message):
     """No Lines sheet, or no header row, is exit 2 naming what to add."""
     wb = openpyxl.Workbook()
     wb.active.title = "Pipes" if sheets == "nolines" else "Lines"
-    wb.active.append(["Line", "Shape"])
+    wb.active.append(["Item", "Shape"])  # no Tag, nor an alias of it
     wb.save(tmp_path / "in.xlsx")
     r = cli("fill", tmp_path / "in.xlsx", "-o", tmp_path / "out.xlsx")
     assert r.exit_code == 2 and message in r.output
