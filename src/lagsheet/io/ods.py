@@ -376,19 +376,12 @@ class _TablePatch:
             rep = int(_attr(tag, f"{t}:number-columns-repeated") or 1)
             hit = sorted(k for k in want if c <= k < c + rep)
             out.append(xml[pos:m.start()])
-            if not hit:
-                out.append(tag)
-            else:
-                start = c
-                for k in hit:
-                    if k > start:
-                        out.append(_repeat(tag, f"{t}:number-columns-repeated", k - start))
-                    name = self.styles.column(want.pop(k))
-                    one = _repeat(tag, f"{t}:number-columns-repeated", 1)
-                    out.append(_set_attr(one, f"{t}:style-name", name) if name else one)
-                    start = k + 1
-                if c + rep > start:
-                    out.append(_repeat(tag, f"{t}:number-columns-repeated", c + rep - start))
+
+            def styled(one, k):
+                name = self.styles.column(want.pop(k))
+                return _set_attr(one, f"{t}:style-name", name) if name else one
+
+            out.append(_split(tag, f"{t}:number-columns-repeated", c, rep, hit, styled) if hit else tag)
             pos = m.end()
             c += rep
         out.append(xml[pos:])
@@ -434,14 +427,8 @@ class _TablePatch:
                 k += 1
             if hits:
                 out.append(xml[pos:rm.start()])
-                start = r
-                for h in hits:
-                    if h > start:
-                        out.append(_repeat_row(row, t, h - start))
-                    out.append(self._patch_row(_repeat_row(row, t, 1), h, targets[h], notes, header_src))
-                    start = h + 1
-                if r + rep > start:
-                    out.append(_repeat_row(row, t, r + rep - start))
+                out.append(_split(row, f"{t}:number-rows-repeated", r, rep, hits,
+                                  lambda one, h: self._patch_row(one, h, targets[h], notes, header_src)))
                 pos = rm.end()
             r += rep
         out.append(xml[pos:])
@@ -477,18 +464,9 @@ class _TablePatch:
                 hits.append(todo[k])
                 k += 1
             out.append(body[pos:cm.start()])
-            if not hits:
-                out.append(tok)
-            else:
-                start = c
-                for h in hits:
-                    if h > start:
-                        out.append(_repeat(tok, f"{t}:number-columns-repeated", h - start))
-                    one = _repeat(tok, f"{t}:number-columns-repeated", 1)
-                    out.append(self._cell(one, r, h, cells[h], notes.get((r, h)), header_src))
-                    start = h + 1
-                if c + rep > start:
-                    out.append(_repeat(tok, f"{t}:number-columns-repeated", c + rep - start))
+            out.append(_split(tok, f"{t}:number-columns-repeated", c, rep, hits,
+                              lambda one, h: self._cell(one, r, h, cells[h], notes.get((r, h)), header_src))
+                       if hits else tok)
             pos = cm.end()
             c += rep
         tail = body[pos:]
@@ -533,8 +511,19 @@ def _repeat(tok: str, attr: str, count: int) -> str:
     return tag + rest
 
 
-def _repeat_row(row: str, t: str, count: int) -> str:
-    return _repeat(row, f"{t}:number-rows-repeated", count)
+def _split(tok: str, attr: str, first: int, count: int, hits: list[int], make) -> str:
+    """A repeated element standing for positions ``first`` … ``first + count - 1``, split in
+    place around ``hits``: the runs between keep the element (with their repeat counts), each
+    hit becomes ``make(single_copy, position)``."""
+    parts, start = [], first
+    for h in hits:
+        if h > start:
+            parts.append(_repeat(tok, attr, h - start))
+        parts.append(make(_repeat(tok, attr, 1), h))
+        start = h + 1
+    if first + count > start:
+        parts.append(_repeat(tok, attr, first + count - start))
+    return "".join(parts)
 
 
 def _annotate(cell: str, note: str, n: _Names) -> str:
