@@ -51,8 +51,14 @@ def _print_summary(outcome, out: Path, quiet: bool) -> None:
     table.add_column("value", justify="right")
     table.add_row("lines", f"{s['lines']}: {s['lines'] - s['errors'] - s['warnings']} ok, "
                   f"{s['warnings']} with warnings, {s['errors']} with errors")
-    table.add_row("heat loss, insulated", f"{s['heat_loss_W'] / 1000:,.1f} kW")
-    table.add_row("heat loss, bare", f"{s['bare_heat_loss_W'] / 1000:,.1f} kW")
+    # as in the Summary sheet: losses and gains apart, bare as the sum of magnitudes
+    flows = [line["results"]["heat_loss_W"] or 0.0 for line in outcome.report["lines"]]
+    bare = sum(abs(line["results"]["bare_heat_loss_W"] or 0.0) for line in outcome.report["lines"])
+    table.add_row("heat loss, insulated", f"{sum(q for q in flows if q > 0) / 1000:,.1f} kW")
+    gain = -sum(q for q in flows if q < 0)
+    if gain:
+        table.add_row("heat gain, insulated", f"{gain / 1000:,.1f} kW")
+    table.add_row("heat loss, bare", f"{bare / 1000:,.1f} kW")
     table.add_row("annual cost", f"{s['annual_cost']:,.0f} {cur}")
     table.add_row("annual saving", f"{s['annual_saving']:,.0f} {cur}")
     table.add_row("written", str(out))
