@@ -2,8 +2,8 @@ r"""Process limits along a line: outlet temperature, steam condensate, cool-down
 
 Pure array functions in SI (kelvin, pascal, watt, kilogram, metre, second): every
 argument broadcasts, one call serves many lines, regimes are chosen by ``np.where``.
-The only Python loops are fixed ones over marching steps or quadrature nodes, and the
-CoolProp calls, which are made once per *distinct* fluid state, not once per line.
+The only Python loops are fixed ones over marching steps or quadrature nodes; fluid
+properties come from :mod:`lagsheet.physics.properties` (CoolProp, once per distinct state).
 
 Heat-loss coefficient
     A line's heat loss is written Q′ = U′ (T − T_air), with U′ [W/(m·K)] the heat loss
@@ -44,139 +44,19 @@ import numpy as np
 
 from .balance import System, solve
 from .layers import MaterialTable
+from .properties import P_ATM, FluidProperties, Saturation, fluid_properties, saturation
 from .sizing import heat_rate
+
+__all__ = ["FluidProperties", "Saturation", "fluid_properties", "saturation"]  # re-exported
 
 Coefficient = Callable[[np.ndarray], np.ndarray]
 
-P_ATM = 101325.0  # Pa, standard atmosphere
 T_ICE = 273.15  # K, 0 °C: melting point of ice at about 101 325 Pa
 T_TRIPLE_WATER = 273.16  # K, triple point of water (ITS-90); CoolProp's water starts here
 H_FUSION_ICE = 333.55e3  # J/kg, latent heat of fusion of ice at 0 °C (handbook value, from memory)
 FREEZE_FRACTION = 0.25  # fraction of the water allowed to freeze (common practice)
 MARCH_STEPS = 20  # default Runge-Kutta steps along a line (see outlet_temperature_marching)
 NODES = 24  # default Gauss-Legendre nodes of the cool-down integral (see cooling_time)
-
-
-# --------------------------------------------------------------------------- CoolProp
-
-
-def _per_state(fn, n_out: int, *columns) -> tuple[np.ndarray, ...]:
-    """``fn(*state) -> n_out values`` once per distinct finite state of the broadcast columns.
-
-    Rows with a non-finite entry, and states CoolProp rejects, give NaN.
-    """
-    cols = np.broadcast_arrays(*(np.asarray(c, dtype=float) for c in columns))
-    shape = cols[0].shape
-    flat = np.stack([c.ravel() for c in cols], axis=1)
-    out = np.full((n_out, flat.shape[0]), np.nan)
-    ok = np.isfinite(flat).all(axis=1)
-    if ok.any():
-        states, inverse = np.unique(flat[ok], axis=0, return_inverse=True)
-        values = np.full((n_out, len(states)), np.nan)
-        for j, state in enumerate(states):  # once per distinct state, not per line
-            try:
-                values[:, j] = fn(*state)
-            except (ValueError, RuntimeError):
-                pass  # outside the fluid's equation of state (CoolProp raises): NaN
-        out[:, ok] = values[:, inverse.ravel()]
-    return tuple(o.reshape(shape) for o in out)
-
-
-class FluidProperties(NamedTuple):
-    cp: np.ndarray  # isobaric specific heat [J/(kg·K)]
-    density: np.ndarray  # [kg/m³]
-
-
-def fluid_properties(fluid, t, p=P_ATM) -> FluidProperties:
-    """Specific heat and density of a pure fluid at (T, p), from CoolProp.
-
-    ``PropsSI('C', 'T', T, 'P', p, fluid)`` and ``PropsSI('D', ...)``, called once per
-    distinct (fluid, T, p) among the lines, so a schedule of thousands of lines at a
-    few states costs a few calls.
-
-    Parameters
-    ----------
-    fluid : str or array of str
-        CoolProp fluid name per line (``"Water"``, ``"Air"``, ``"Nitrogen"``, ...).
-    t : array_like
-        Temperature [K].
-    p : array_like
-        Absolute pressure [Pa]; 101 325 Pa by default.
-
-    Returns
-    -------
-    FluidProperties
-        ``cp`` [J/(kg·K)] and ``density`` [kg/m³], broadcast shape of the inputs; NaN
-        where CoolProp has no single-phase state (e.g. water below its triple point
-        273.16 K, a state exactly on the saturation line, an unknown fluid name).
-
-    References
-    ----------
-    CoolProp (Bell et al. 2014, Ind. Eng. Chem. Res. 53:2498); water by IAPWS-95.
-    """
-    names, code = np.unique(np.asarray(fluid, dtype=str), return_inverse=True)
-
-    def props(c, tt, pp):
-        from CoolProp.CoolProp import PropsSI  # noqa: TID251 -- see below
-
-        # CoolProp is imported here, on first use, because its import costs seconds. The
-        # project keeps CoolProp in properties.py; these fluid calls belong there when that
-        # module is next opened (process.py is new and the other modules are being edited).
-        name = str(names[int(c)])
-        return PropsSI("C", "T", tt, "P", pp, name), PropsSI("D", "T", tt, "P", pp, name)
-
-    code = np.asarray(code).reshape(np.shape(np.asarray(fluid)))
-    cp, rho = _per_state(props, 2, code, t, p)
-    return FluidProperties(cp=cp, density=rho)
-
-
-class Saturation(NamedTuple):
-    t: np.ndarray  # saturation temperature [K]
-    p: np.ndarray  # saturation pressure [Pa]
-    h_fg: np.ndarray  # latent heat of vaporisation [J/kg]
-
-
-def saturation(*, t=None, p=None, fluid: str = "Water") -> Saturation:
-    """Saturation temperature, pressure and latent heat of vaporisation, from CoolProp.
-
-    Give exactly one of ``t`` or ``p``. h_fg = h(Q=1) − h(Q=0) at that state
-    (``PropsSI('H', ..., 'Q', 1, fluid) − PropsSI('H', ..., 'Q', 0, fluid)``), one set of
-    calls per distinct value.
-
-    Parameters
-    ----------
-    t : array_like, optional
-        Saturation temperature [K].
-    p : array_like, optional
-        Saturation (absolute) pressure [Pa]; a steam main at 10 bar(a) is 1e6 Pa.
-    fluid : str
-        CoolProp fluid name, water by default.
-
-    Returns
-    -------
-    Saturation
-        ``t`` [K], ``p`` [Pa], ``h_fg`` [J/kg]; NaN outside the triple point to critical
-        point range (water: 273.16–647.096 K, 611.655 Pa–22.064 MPa).
-
-    References
-    ----------
-    CoolProp, water by IAPWS-95; the tests compare with IAPWS-IF97 steam-table values.
-    """
-    if (t is None) == (p is None):
-        raise ValueError("give exactly one of t or p")
-    given, other = ("T", "P") if p is None else ("P", "T")
-
-    def sat(x):
-        from CoolProp.CoolProp import PropsSI  # noqa: TID251 -- imported on first use, see fluid_properties
-
-        y = PropsSI(other, given, x, "Q", 0, fluid)
-        h_fg = PropsSI("H", given, x, "Q", 1, fluid) - PropsSI("H", given, x, "Q", 0, fluid)
-        return y, h_fg
-
-    x = np.asarray(t if p is None else p, dtype=float)
-    y, h_fg = _per_state(sat, 2, x)
-    x = np.where(np.isfinite(y), x, np.nan)
-    return Saturation(t=x, p=y, h_fg=h_fg) if p is None else Saturation(t=y, p=x, h_fg=h_fg)
 
 
 # --------------------------------------------------------------------------- steam

@@ -1,4 +1,5 @@
-"""Properties of air and of water vapour in air, from CoolProp, shipped as tables.
+"""Properties of air and of water vapour in air, from CoolProp, shipped as tables; and of
+process fluids, from CoolProp at run time.
 
 The engine needs millions of property values per run; one ``PropsSI`` call costs tens
 of microseconds and importing CoolProp several seconds. So the tables in
@@ -14,6 +15,10 @@ of microseconds and importing CoolProp several seconds. So the tables in
   test holds it within 0.02 K of ``HAPropsSI('D', ...)``.
 
 A test rebuilds both tables from CoolProp and compares them with the shipped files.
+
+Process fluids (:func:`fluid_properties`, :func:`saturation`) are few states per run
+(the lines' fluids at their operating temperatures), so those call CoolProp directly,
+once per distinct state; CoolProp is imported on first use.
 """
 
 from __future__ import annotations
@@ -23,6 +28,7 @@ from dataclasses import dataclass
 from functools import lru_cache
 from importlib.resources import files
 from pathlib import Path
+from typing import NamedTuple
 
 import numpy as np
 
@@ -129,3 +135,122 @@ def dew_point(t_air: np.ndarray | float, rh: np.ndarray | float) -> np.ndarray:
 
 if __name__ == "__main__":
     write_tables(Path(__file__).resolve().parents[1] / "data")
+
+
+# --------------------------------------------------------------------------- fluids (CoolProp at run time)
+
+
+def _per_state(fn, n_out: int, *columns) -> tuple[np.ndarray, ...]:
+    """``fn(*state) -> n_out values`` once per distinct finite state of the broadcast columns.
+
+    Rows with a non-finite entry, and states CoolProp rejects, give NaN.
+    """
+    cols = np.broadcast_arrays(*(np.asarray(c, dtype=float) for c in columns))
+    shape = cols[0].shape
+    flat = np.stack([c.ravel() for c in cols], axis=1)
+    out = np.full((n_out, flat.shape[0]), np.nan)
+    ok = np.isfinite(flat).all(axis=1)
+    if ok.any():
+        states, inverse = np.unique(flat[ok], axis=0, return_inverse=True)
+        values = np.full((n_out, len(states)), np.nan)
+        for j, state in enumerate(states):  # once per distinct state, not per line
+            try:
+                values[:, j] = fn(*state)
+            except (ValueError, RuntimeError):
+                pass  # outside the fluid's equation of state (CoolProp raises): NaN
+        out[:, ok] = values[:, inverse.ravel()]
+    return tuple(o.reshape(shape) for o in out)
+
+
+class FluidProperties(NamedTuple):
+    cp: np.ndarray  # isobaric specific heat [J/(kg·K)]
+    density: np.ndarray  # [kg/m³]
+
+
+def fluid_properties(fluid, t, p=P_ATM) -> FluidProperties:
+    """Specific heat and density of a pure fluid at (T, p), from CoolProp.
+
+    ``PropsSI('C', 'T', T, 'P', p, fluid)`` and ``PropsSI('D', ...)``, called once per
+    distinct (fluid, T, p) among the lines, so a schedule of thousands of lines at a
+    few states costs a few calls.
+
+    Parameters
+    ----------
+    fluid : str or array of str
+        CoolProp fluid name per line (``"Water"``, ``"Air"``, ``"Nitrogen"``, ...).
+    t : array_like
+        Temperature [K].
+    p : array_like
+        Absolute pressure [Pa]; 101 325 Pa by default.
+
+    Returns
+    -------
+    FluidProperties
+        ``cp`` [J/(kg·K)] and ``density`` [kg/m³], broadcast shape of the inputs; NaN
+        where CoolProp has no single-phase state (e.g. water below its triple point
+        273.16 K, a state exactly on the saturation line, an unknown fluid name).
+
+    References
+    ----------
+    CoolProp (Bell et al. 2014, Ind. Eng. Chem. Res. 53:2498); water by IAPWS-95.
+    """
+    names, code = np.unique(np.asarray(fluid, dtype=str), return_inverse=True)
+
+    def props(c, tt, pp):
+        from CoolProp.CoolProp import PropsSI  # imported on first use: its import costs seconds
+
+        name = str(names[int(c)])
+        return PropsSI("C", "T", tt, "P", pp, name), PropsSI("D", "T", tt, "P", pp, name)
+
+    code = np.asarray(code).reshape(np.shape(np.asarray(fluid)))
+    cp, rho = _per_state(props, 2, code, t, p)
+    return FluidProperties(cp=cp, density=rho)
+
+
+class Saturation(NamedTuple):
+    t: np.ndarray  # saturation temperature [K]
+    p: np.ndarray  # saturation pressure [Pa]
+    h_fg: np.ndarray  # latent heat of vaporisation [J/kg]
+
+
+def saturation(*, t=None, p=None, fluid: str = "Water") -> Saturation:
+    """Saturation temperature, pressure and latent heat of vaporisation, from CoolProp.
+
+    Give exactly one of ``t`` or ``p``. h_fg = h(Q=1) − h(Q=0) at that state
+    (``PropsSI('H', ..., 'Q', 1, fluid) − PropsSI('H', ..., 'Q', 0, fluid)``), one set of
+    calls per distinct value.
+
+    Parameters
+    ----------
+    t : array_like, optional
+        Saturation temperature [K].
+    p : array_like, optional
+        Saturation (absolute) pressure [Pa]; a steam main at 10 bar(a) is 1e6 Pa.
+    fluid : str
+        CoolProp fluid name, water by default.
+
+    Returns
+    -------
+    Saturation
+        ``t`` [K], ``p`` [Pa], ``h_fg`` [J/kg]; NaN outside the triple point to critical
+        point range (water: 273.16–647.096 K, 611.655 Pa–22.064 MPa).
+
+    References
+    ----------
+    CoolProp, water by IAPWS-95; the tests compare with IAPWS-IF97 steam-table values.
+    """
+    if (t is None) == (p is None):
+        raise ValueError("give exactly one of t or p")
+    given, other = ("T", "P") if p is None else ("P", "T")
+
+    def sat(x):
+        from CoolProp.CoolProp import PropsSI
+
+        y = PropsSI(other, given, x, "Q", 0, fluid)
+        h_fg = PropsSI("H", given, x, "Q", 1, fluid) - PropsSI("H", given, x, "Q", 0, fluid)
+        return y, h_fg
+
+    x = np.asarray(t if p is None else p, dtype=float)
+    y, h_fg = _per_state(sat, 2, x)
+    x = np.where(np.isfinite(y), x, np.nan)
+    return Saturation(t=x, p=y, h_fg=h_fg) if p is None else Saturation(t=y, p=x, h_fg=h_fg)
