@@ -22,7 +22,7 @@ import shutil
 import stat
 import tempfile
 import zipfile
-from collections.abc import Callable
+from collections.abc import Callable, Iterable
 from pathlib import Path
 
 from ..errors import WorkbookError
@@ -90,6 +90,40 @@ def verify_workbook(path: Path, *, required: str = "[Content_Types].xml") -> Non
         raise
     except Exception as exc:  # any failure to reopen means the file must not replace anything
         raise WorkbookError(f"the written file failed its check ({type(exc).__name__}: {exc})") from None
+
+
+BLOCK = 1 << 20  # characters encoded and compressed at a time by write_pieces
+
+
+def write_pieces(dst: zipfile.ZipFile, info: zipfile.ZipInfo, pieces: Callable[[], Iterable[str]],
+                 size_hint: int) -> None:
+    """Write the member ``info`` of ``dst`` from the strings ``pieces()`` yields, UTF-8 encoded.
+
+    The same bytes as ``dst.writestr(info, "".join(pieces()).encode())``, without ever
+    holding the whole text: blocks of about :data:`BLOCK` characters are compressed by one
+    worker thread while the next block is made (zlib and the file write release the GIL).
+    ``size_hint`` (an overestimate of the size in bytes) decides whether the entry needs zip64.
+    """
+    from collections import deque
+    from concurrent.futures import ThreadPoolExecutor
+
+    force = size_hint * 1.05 > zipfile.ZIP64_LIMIT
+    with dst.open(info, "w", force_zip64=force) as fh, ThreadPoolExecutor(1) as pool:
+        pending: deque = deque()
+        buf: list[str] = []
+        n = 0
+        for piece in pieces():
+            buf.append(piece)
+            n += len(piece)
+            if n >= BLOCK:
+                pending.append(pool.submit(fh.write, "".join(buf).encode("utf-8")))
+                buf, n = [], 0
+                if len(pending) > 2:
+                    pending.popleft().result()
+        if buf:
+            pending.append(pool.submit(fh.write, "".join(buf).encode("utf-8")))
+        while pending:
+            pending.popleft().result()
 
 
 VERIFIERS: dict[str, Callable[[Path], None]] = {

@@ -146,12 +146,18 @@ class Book(Protocol):
     def save(self, edits: list[SheetEdits], out: Path, new_sheets: list[NewSheet] = ()) -> None: ...
 
 
-def kept(before: RawSheet, after_grid: list[list[Any]], written: set[tuple[int, int]],
-         limit: int = 5) -> list[str]:
-    """Addresses of original cells whose value changed although lagsheet did not write them."""
+def kept(before: RawSheet, after_grid, written: set[tuple[int, int]], limit: int = 5) -> list[str]:
+    """Addresses of original cells whose value changed although lagsheet did not write them.
+
+    ``after_grid`` is the rows of the written sheet from A1 (a list, or any iterable: it is
+    read once, row by row, and needs no more than the rows of ``before``).
+    """
     bad = []
+    rows = iter(after_grid)
     for r, row in enumerate(before.grid):
-        other = after_grid[r] if r < len(after_grid) else []
+        other = next(rows, None) or []
+        if other[:len(row)] == row:  # every cell the same (the usual row): nothing to look at
+            continue
         for c, v in enumerate(row):
             if (r, c) in written or v in ("", None):
                 continue
@@ -163,6 +169,39 @@ def kept(before: RawSheet, after_grid: list[list[Any]], written: set[tuple[int, 
                 if len(bad) >= limit:
                     return bad
     return bad
+
+
+def rows_from_a1(sheet):
+    """The rows of a calamine sheet from cell A1, one at a time (no grid of the whole sheet).
+
+    calamine's ``iter_rows`` starts at the first row but at the first *used* column; its
+    rows are padded here. Whenever the layout is not the one expected, the whole grid from
+    ``to_python(skip_empty_area=False)`` is used instead.
+    """
+    start, end = sheet.start, sheet.end
+    if start is None or end is None:
+        return
+    if start[0] != 0:
+        yield from sheet.to_python(skip_empty_area=False)
+        return
+    it = sheet.iter_rows()
+    first = next(it, None)
+    if first is None:
+        return
+    if len(first) == end[1] + 1:
+        pad = []
+    elif len(first) == end[1] - start[1] + 1:
+        pad = [""] * start[1]
+    else:
+        yield from sheet.to_python(skip_empty_area=False)
+        return
+    if not pad:
+        yield first
+        yield from it
+        return
+    yield pad + first
+    for row in it:
+        yield pad + row
 
 
 def post_write_check(tmp: Path, before: dict[str, RawSheet], written: dict[str, set[tuple[int, int]]],
@@ -185,8 +224,7 @@ def post_write_check(tmp: Path, before: dict[str, RawSheet], written: dict[str, 
                             "nothing was written. Please report this with the workbook")
     wb = python_calamine.CalamineWorkbook.from_path(str(tmp))
     for name, raw in before.items():
-        grid = wb.get_sheet_by_name(name).to_python(skip_empty_area=False)
-        bad = kept(raw, grid, written.get(name, set()))
+        bad = kept(raw, rows_from_a1(wb.get_sheet_by_name(name)), written.get(name, set()))
         if bad:
             raise WorkbookError(f"the written file changed cells lagsheet does not write ({name}!"
                                 f"{', '.join(bad)}); nothing was written. Please report this with the workbook")

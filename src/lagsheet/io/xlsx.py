@@ -13,16 +13,19 @@ in. Text is written as inline strings, never as a formula.
 
 from __future__ import annotations
 
+import copy
 import posixpath
 import re
+import time
 import zipfile
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 from xml.sax.saxutils import escape
 
 from ..errors import WorkbookError
-from .save import VERIFIERS, atomic_write
+from .save import VERIFIERS, atomic_write, write_pieces
 from .table import (
     RawSheet,
     SheetEdits,
@@ -45,6 +48,7 @@ REL_TABLE = NS_REL + "/table"
 CT_COMMENTS = "application/vnd.openxmlformats-officedocument.spreadsheetml.comments+xml"
 CT_VML = "application/vnd.openxmlformats-officedocument.vmlDrawing"
 
+_OTHER = object()  # a written value that is neither a number, a text nor empty (see _SheetPatch)
 _ATTR = re.compile(r'([\w:]+)\s*=\s*"([^"]*)"')
 _INVALID_XML = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ufffe\uffff]")
 
@@ -156,13 +160,22 @@ class XlsxBook:
                 for info in self._zip.infolist():
                     if info.filename in pkg.removed:
                         continue
-                    data = parts.get(info.filename)
-                    dst.writestr(info, data if data is not None else self._zip.read(info.filename),
-                                 compress_type=info.compress_type)
+                    info = copy.copy(info)  # writing fills in sizes: the input's entries stay as read
+                    if info.filename in pkg.streams:
+                        write_pieces(dst, info, *pkg.streams[info.filename])
+                    else:
+                        data = parts.get(info.filename)
+                        dst.writestr(info, data if data is not None else self._zip.read(info.filename),
+                                     compress_type=info.compress_type)
                     done.add(info.filename)
                 for name, data in parts.items():
                     if name not in done:
                         dst.writestr(name, data, compress_type=zipfile.ZIP_DEFLATED)
+                for name, (pieces, hint) in pkg.streams.items():
+                    if name not in done:
+                        info = zipfile.ZipInfo(name, time.localtime(time.time())[:6])
+                        info.compress_type = zipfile.ZIP_DEFLATED
+                        write_pieces(dst, info, pieces, hint)
 
         before = {e.sheet: self.sheet(e.sheet) for e in edits}
         written = {e.sheet: set(e.values) for e in edits}
@@ -205,6 +218,11 @@ def _uncached_formulas(xml: str) -> set[tuple[int, int]]:
     return out
 
 
+def _size_hint(head: str, inner: str, tail: str, e: SheetEdits) -> int:
+    """A generous estimate of a patched sheet's size in bytes (for the zip64 decision)."""
+    return 4 * (len(head) + len(inner) + len(tail)) + 200 * (len(e.values) + len(e.comments))
+
+
 class _Package:
     """The parts a save changes, over the original package: reads see earlier changes."""
 
@@ -212,21 +230,31 @@ class _Package:
         self.zf = zf
         self.names = set(zf.namelist())
         self.out: dict[str, bytes] = {}
+        self.streams: dict[str, tuple[Callable[[], Iterable[str]], int]] = {}  # part -> (pieces, size hint)
         self.removed: set[str] = set()
         self.styles = _Styles(self.read("xl/styles.xml"))
         self.content_types = self.read("[Content_Types].xml")
 
     def read(self, name: str) -> str:
+        if name in self.streams:  # read back after it was patched: materialise it
+            self.write(name, "".join(self.streams[name][0]()))
         if name in self.out:
             return self.out[name].decode("utf-8")
         return self.zf.read(name).decode("utf-8") if name in self.names and name not in self.removed else ""
 
     def write(self, name: str, text: str) -> None:
+        self.streams.pop(name, None)
         self.out[name] = text.encode("utf-8")
         self.removed.discard(name)
 
+    def write_stream(self, name: str, pieces: Callable[[], Iterable[str]], size_hint: int) -> None:
+        """A part written later from ``pieces()`` (strings), straight into the zip."""
+        self.out.pop(name, None)
+        self.streams[name] = (pieces, size_hint)
+        self.removed.discard(name)
+
     def exists(self, name: str) -> bool:
-        return (name in self.names and name not in self.removed) or name in self.out
+        return (name in self.names and name not in self.removed) or name in self.out or name in self.streams
 
     def free(self, pattern: str) -> str:
         n = 1
@@ -265,6 +293,7 @@ class _Package:
 
     def remove(self, part: str) -> None:
         self.out.pop(part, None)
+        self.streams.pop(part, None)
         self.removed.add(part)
         self.content_types = re.sub(rf'<(\w+:)?Override\b[^>]*PartName="/{re.escape(part)}"[^>]*/>', "",
                                     self.content_types)
@@ -278,7 +307,13 @@ class _Package:
 
 
 class _SheetPatch:
-    """Splices one SheetEdits into one sheet part and the parts that hang off it."""
+    """Splices one SheetEdits into one sheet part and the parts that hang off it.
+
+    The sheet is held as three pieces: what comes before ``sheetData`` (dimension, cols),
+    the original rows, and what follows (legacyDrawing goes there). The new sheet is
+    streamed row by row into the zip (:meth:`_stream`): no second copy of the sheet and no
+    cell XML for more than one row exist at a time.
+    """
 
     def __init__(self, pkg: _Package, part: str, e: SheetEdits):
         self.pkg, self.zf, self.part, self.e = pkg, pkg.zf, part, e
@@ -286,61 +321,144 @@ class _SheetPatch:
         m = re.search(r"<(\w+:)?worksheet\b", self.xml)
         self.p = m.group(1) or "" if m else ""
         self.styles = pkg.styles
+        self._re_append = None
 
     def _read(self, name: str) -> str:
         return self.pkg.read(name)
 
     def run(self) -> None:
-        cells = self._cells()
-        self._sheet_data(cells)
-        self._dimension(cells)
+        by_row = self._by_row = self._rows_of_edits()
+        self._split()
+        self._dimension(by_row)
         self._cols()
         self._tables()
         self._comments()
-        self.pkg.write(self.part, self.xml)
+        self.xml = ""  # the pieces hold it now
+        self.pkg.write_stream(self.part, self._stream, _size_hint(self.head, self.inner, self.tail, self.e))
 
     # -- cells ---------------------------------------------------------------------------
 
-    def _cells(self) -> dict[int, dict[int, str | None]]:
-        """Row -> col -> new cell XML (None: remove the cell there)."""
-        header_styles = self._header_styles()
-        rows: dict[int, dict[int, str | None]] = {}
-        letters: dict[int, str] = {}
-        formats = self.e.number_formats
-        for (r, c), v in self.e.values.items():
-            letter = letters.get(c)
-            if letter is None:
-                letter = letters[c] = column_letter(c)
-            row = rows.get(r)
-            if row is None:
-                row = rows[r] = {}
-            row[c] = _cell_xml(self.p, f"{letter}{r + 1}", v, header_styles.get((r, c)),
-                               formats.get((r, c)), self.styles)
-        return rows
+    def _rows_of_edits(self) -> dict[int, list]:
+        """Row -> [col, value, piece, col, value, piece, ...] of the cells written in it.
 
-    def _header_styles(self) -> dict[tuple[int, int], str | None]:
-        out = {}
-        for (r, c), (sr, sc) in self.e.headers.items():
-            out[(r, c)] = self._style_of(sr, sc)
+        The piece is the part of the cell XML that does not depend on the row: for a number
+        what follows its reference up to the value, for a text what follows its reference
+        (None for an empty cell, :data:`_OTHER` for other kinds, made whole later). Making
+        them here, in the order of the edits, registers the cell formats our cells need in
+        the order the cells ask for them, and that order numbers them in styles.xml.
+        """
+        self._header_styles = hstyles = self._find_header_styles()
+        hrows = {r for r, _ in hstyles}
+        p = self.p
+        styles = self.styles
+        fget = self.e.number_formats.get
+        mids: dict[tuple, str] = {}  # (number format, header style) -> '" s="5"><v>'
+        texts: dict[tuple, str] = {}  # (text, header style) -> ' t="inlineStr">...</c>'
+        by_row: dict[int, list] = {}
+        max_col = -1
+        for pos, v in self.e.values.items():
+            r, c = pos
+            hs = hstyles.get(pos) if r in hrows else None
+            t = type(v)
+            if t is float:
+                key = (fget(pos), hs)
+                piece = mids.get(key)
+                if piece is None:
+                    fmt = key[0]
+                    s = styles.xf_for(fmt) if fmt else hs
+                    piece = mids[key] = f'" s="{s}"><{p}v>' if s is not None else f'"><{p}v>'
+            elif t is str:
+                key = (v, hs)
+                piece = texts.get(key)
+                if piece is None:
+                    if len(texts) > 50000:
+                        texts.clear()
+                    piece = texts[key] = _cell_xml(p, "", v, hs, None, styles)[len(p) + 6:]
+            elif v is None:
+                piece = None
+            else:
+                _cell_xml(p, address(r, c), v, hs, fget(pos), styles)  # registers its format now
+                piece = _OTHER
+            row = by_row.get(r)
+            if row is None:
+                by_row[r] = [c, v, piece]
+            else:
+                row += (c, v, piece)
+            if c > max_col:
+                max_col = c
+        self._max_col = max_col
+        return by_row
+
+    def _find_header_styles(self) -> dict[tuple[int, int], str | None]:
+        """The style of the cell each new header copies its style from (None: none found)."""
+        want = {}
+        for pos, (sr, sc) in self.e.headers.items():
+            want.setdefault(address(sr, sc), []).append(pos)
+        found: dict[str, str | None] = {}
+        if want:
+            refs = "|".join(re.escape(ref) for ref in sorted(want))
+            for m in re.finditer(rf'<{re.escape(self.p)}c\b[^>]*\br="({refs})"[^>]*>', self.xml):
+                if m.group(1) not in found:  # the first such cell, as a search for each would find
+                    found[m.group(1)] = _attrs(m.group(0)).get("s")
+                    if len(found) == len(want):
+                        break
+        return {pos: found.get(ref) for ref, poss in want.items() for pos in poss}
+
+    def _row_cells(self, r: int, row: list) -> dict[int, str | None]:
+        """Col -> new cell XML (None: remove the cell there) for row ``r``, in column order:
+        the text of :func:`_cell_xml`, from the pieces :meth:`_rows_of_edits` made."""
+        cols = row[0::3]
+        if any(a > b for a, b in zip(cols, cols[1:], strict=False)):
+            cells = sorted(zip(cols, row[1::3], row[2::3], strict=True), key=lambda x: x[0])
+        else:
+            cells = zip(cols, row[1::3], row[2::3], strict=True)
+        starts, close = self._starts, self._num_close
+        r1 = str(r + 1)
+        out: dict[int, str | None] = {}
+        for c, v, piece in cells:
+            if piece is None:
+                out[c] = None
+                continue
+            start = starts.get(c)
+            if start is None:
+                start = starts[c] = f'<{self.p}c r="{column_letter(c)}'
+            if piece is _OTHER:
+                out[c] = _cell_xml(self.p, f"{column_letter(c)}{r1}", v, self._header_styles.get((r, c)),
+                                   self.e.number_formats.get((r, c)), self.styles)
+            elif type(v) is float:
+                out[c] = f"{start}{r1}{piece}{repr(v)}{close}"
+            else:
+                out[c] = f"{start}{r1}{piece}"
         return out
 
-    def _style_of(self, r: int, c: int) -> str | None:
-        ref = address(r, c)
-        m = re.search(rf'<{re.escape(self.p)}c\b[^>]*\br="{ref}"[^>]*>', self.xml)
-        return _attrs(m.group(0)).get("s") if m else None
-
-    def _sheet_data(self, cells: dict[int, dict[int, str | None]]) -> None:
+    def _split(self) -> None:
+        """self.head (before sheetData), self.sd_tag, self.inner (the rows), self.tail."""
         p = re.escape(self.p)
-        m = re.search(rf"<{p}sheetData\s*/>|<{p}sheetData\b[^>]*>(.*?)</{p}sheetData>", self.xml, re.S)
-        if m is None:
-            raise WorkbookError("the sheet has no cell data section; save it again in a spreadsheet program")
-        if m.group(0).endswith("/>"):
-            start_tag, inner = f"<{self.p}sheetData>", ""
+        xml = self.xml
+        close = f"</{self.p}sheetData>"
+        for m in re.finditer(rf"<{p}sheetData\b[^>]*>", xml):
+            if re.fullmatch(rf"<{p}sheetData\s*/>", m.group(0)):
+                self.head, self.sd_tag, self.inner = xml[:m.start()], f"<{self.p}sheetData>", ""
+                self.tail = close + xml[m.end():]
+                break
+            end = xml.find(close, m.end())
+            if end >= 0:
+                self.head, self.sd_tag, self.inner = xml[:m.start()], m.group(0), xml[m.end():end]
+                self.tail = xml[end:]
+                break
         else:
-            start_tag = re.match(rf"<{p}sheetData\b[^>]*>", m.group(0)).group(0)
-            inner = m.group(1)
-        pieces, pos = [], 0
-        todo = sorted(cells)  # rows to write, in order
+            raise WorkbookError("the sheet has no cell data section; save it again in a spreadsheet program")
+        self._starts: dict[int, str] = {}
+        self._num_close = f"</{self.p}v></{self.p}c>"
+
+    def _stream(self):
+        """The new sheet part, in pieces: the original text with our cells spliced into its rows."""
+        p = re.escape(self.p)
+        inner, by_row = self.inner, self._by_row
+        yield self.head
+        yield self.sd_tag
+        pos = 0
+        todo = sorted(by_row)  # rows to write, in order
         k = 0
         row_re = re.compile(rf"<{p}row\b([^>]*?)(/>|>(.*?)</{p}row>)", re.S)
         last_r = -1
@@ -351,22 +469,22 @@ class _SheetPatch:
             r = int(a["r"]) - 1 if "r" in a else last_r + 1
             last_r = r
             while k < len(todo) and todo[k] < r:  # new rows that come before this one
-                pieces.append(inner[pos:rm.start()])
+                yield inner[pos:rm.start()]
                 pos = rm.start()
-                pieces.append(self._new_row(todo[k], cells[todo[k]]))
+                yield self._new_row(todo[k], self._row_cells(todo[k], by_row[todo[k]]))
                 k += 1
             if k < len(todo) and todo[k] == r:
-                pieces.append(inner[pos:rm.start()])
-                pieces.append(self._patch_row(rm, a, cells[r]))
+                yield inner[pos:rm.start()]
+                yield self._patch_row(rm, a, self._row_cells(r, by_row[r]))
                 pos = rm.end()
                 k += 1
-        pieces.append(inner[pos:])
-        pieces.extend(self._new_row(r, cells[r]) for r in todo[k:])
-        new = start_tag + "".join(pieces) + f"</{self.p}sheetData>"
-        self.xml = self.xml[:m.start()] + new + self.xml[m.end():]
+        yield inner[pos:]
+        for r in todo[k:]:
+            yield self._new_row(r, self._row_cells(r, by_row[r]))
+        yield self.tail
 
     def _new_row(self, r: int, cells: dict[int, str | None]) -> str:
-        body = "".join(x for _, x in sorted(cells.items()) if x is not None)
+        body = "".join([x for x in cells.values() if x is not None])  # cells are in column order
         return f'<{self.p}row r="{r + 1}">{body}</{self.p}row>' if body else ""
 
     def _patch_row(self, rm: re.Match, attrs: dict[str, str], cells: dict[int, str | None]) -> str:
@@ -374,7 +492,7 @@ class _SheetPatch:
         body = rm.group(3) or ""
         fast = self._append_only(body, min(cells))
         if fast is not None:  # the usual case: our cells all lie right of the row's last cell
-            add = "".join(x for _, x in sorted(cells.items()) if x is not None)
+            add = "".join([x for x in cells.values() if x is not None])  # cells are in column order
             if "spans" in attrs:
                 lo = attrs["spans"].split(":")[0]
                 head = re.sub(r'spans="[^"]*"', f'spans="{lo}:{max(cells) + 1}"', head)
@@ -401,40 +519,55 @@ class _SheetPatch:
 
     def _append_only(self, body: str, first_new: int) -> int | None:
         """Where to insert when every new column is right of the row's last cell, else None."""
-        last_start = body.rfind(f"<{self.p}c ")
+        p = self.p
+        last_start = body.rfind(f"<{p}c ")
         if last_start < 0:
-            return 0 if f"<{self.p}c" not in body else None
-        m = re.match(rf'<{re.escape(self.p)}c\b[^>]*?\br="([A-Z]+)\d+"', body[last_start:])
+            return 0 if f"<{p}c" not in body else None
+        res = self._re_append
+        if res is None:
+            res = self._re_append = (re.compile(rf'<{re.escape(p)}c\b[^>]*?\br="([A-Z]+)\d+"'),
+                                     re.compile(rf"<{re.escape(p)}c\b"))
+        m = res[0].match(body, last_start)
         if not m or _col_index(m.group(1)) >= first_new:
             return None
         close = body.find(">", last_start)
         if body[close - 1] == "/":
             pos = close + 1
         else:
-            pos = body.find(f"</{self.p}c>", close) + len(f"</{self.p}c>")
-        tail = body[pos:]
-        return pos if not re.search(rf"<{re.escape(self.p)}c\b", tail) else None
+            pos = body.find(f"</{p}c>", close) + len(f"</{p}c>")
+        return pos if not res[1].search(body, pos) else None
 
     def _dimension(self, cells) -> None:
-        m = re.search(rf'<{re.escape(self.p)}dimension\b[^>]*\bref="([^"]*)"', self.xml)
+        pat = re.compile(rf'<{re.escape(self.p)}dimension\b[^>]*\bref="([^"]*)"')
+        where = "head"
+        m = pat.search(self.head)
+        if m is None:
+            where, m = "tail", pat.search(self.tail)
         if not m or not cells:
             return
         ref = m.group(1)
         first, _, last = ref.partition(":")
         last = last or first
-        max_col = max(max(cs) for cs in cells.values())
+        max_col = self._max_col
         max_row = max(cells)
         lr = int(re.sub(r"[A-Za-z]", "", last) or 1) - 1
         lc = _col_index(last)
         new_last = address(max(lr, max_row), max(lc, max_col))
         if new_last != last:
-            self.xml = self.xml[:m.start(1)] + f"{first}:{new_last}" + self.xml[m.end(1):]
+            text = getattr(self, where)
+            setattr(self, where, text[:m.start(1)] + f"{first}:{new_last}" + text[m.end(1):])
 
     def _cols(self) -> None:
         if not self.e.widths:
             return
         p = re.escape(self.p)
-        m = re.search(rf"<{p}cols>(.*?)</{p}cols>", self.xml, re.S)
+        pat = re.compile(rf"<{p}cols>(.*?)</{p}cols>", re.S)
+        where = "head"
+        m = pat.search(self.head)
+        if m is None:
+            m = pat.search(self.tail)
+            where = "tail" if m else "head"
+        xml = getattr(self, where)
         covered = set()
         if m:
             for cm in re.finditer(rf"<{p}col\b[^>]*>", m.group(1)):
@@ -445,15 +578,14 @@ class _SheetPatch:
         if not new:
             return
         if m:
-            self.xml = self.xml[:m.end(1)] + new + self.xml[m.end(1):]
+            xml = xml[:m.end(1)] + new + xml[m.end(1):]
             # keep <col> elements sorted by min, as the schema asks
-            m2 = re.search(rf"<{p}cols>(.*?)</{p}cols>", self.xml, re.S)
+            m2 = pat.search(xml)
             cols = re.findall(rf"<{p}col\b[^>]*>(?:</{p}col>)?", m2.group(1))
             cols.sort(key=lambda x: int(_attrs(x).get("min", 1)))
-            self.xml = self.xml[:m2.start(1)] + "".join(cols) + self.xml[m2.end(1):]
-        else:
-            sd = re.search(rf"<{p}sheetData\b", self.xml)
-            self.xml = self.xml[:sd.start()] + f"<{self.p}cols>{new}</{self.p}cols>" + self.xml[sd.start():]
+            setattr(self, where, xml[:m2.start(1)] + "".join(cols) + xml[m2.end(1):])
+        else:  # right before sheetData, where the head ends
+            self.head += f"<{self.p}cols>{new}</{self.p}cols>"
 
     # -- the Lines table -------------------------------------------------------------------
 
@@ -550,17 +682,17 @@ class _SheetPatch:
                  "hyperlinks", "printOptions", "pageMargins", "pageSetup", "headerFooter", "rowBreaks",
                  "colBreaks", "customProperties", "cellWatches", "ignoredErrors", "smartTags", "drawing")
         pos = None
-        start = self.xml.find(f"</{self.p}sheetData>")  # every element after sheetData follows it
+        tail = self.tail  # it starts with </sheetData>; every element after sheetData follows it
         for name in after[after.index("sheetData") + 1:]:
             for m in re.finditer(rf"<{re.escape(self.p)}{name}\b[^>]*?(?:/>|>.*?</{re.escape(self.p)}{name}>)",
-                                 self.xml[start:], re.S):
-                pos = start + m.end()
+                                 tail, re.S):
+                pos = m.end()
         if pos is None:
-            pos = start + len(f"</{self.p}sheetData>")
-        rp = _rel_prefix(self.xml)
+            pos = len(f"</{self.p}sheetData>")
+        rp = _rel_prefix(self.head)
         decl = "" if rp else f' xmlns:r="{NS_REL}"'
         tag = f'<{self.p}legacyDrawing{decl} {rp or "r"}:id="{rid}"/>'
-        self.xml = self.xml[:pos] + tag + self.xml[pos:]
+        self.tail = tail[:pos] + tag + tail[pos:]
 
 
 def _rel_prefix(xml: str) -> str | None:
