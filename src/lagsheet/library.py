@@ -140,24 +140,54 @@ _NPS = re.compile(r'^\s*(?:nps\s*)?([\d\s/½¼¾⅛⅜.\-]+?)\s*(?:"|in|inch|inc
 _DN = re.compile(r"^\s*dn\s*(\d+)\s*$", re.I)
 
 
+def _nps_of(size: str) -> float | None:
+    """The NPS (inches, as a number) of a nominal size text, or None."""
+    by_nps, _ = _pipe_table()
+    text = str(size).strip()
+    m = _DN.match(text)
+    if m:
+        return _dn_to_nps().get(int(m.group(1)))
+    m = _NPS.match(text)
+    if m and (text.lower().startswith("nps") or re.search(r'("|in|inch|inches|\'\')\s*$', text, re.I)):
+        try:
+            nps = round(_fraction(m.group(1)), 4)
+        except (ValueError, ZeroDivisionError):
+            return None
+        return nps if nps in by_nps else None
+    return None
+
+
+@lru_cache(maxsize=1)
+def _dn_to_nps() -> dict[int, float]:
+    return {int(r["dn"]): round(_fraction(r["nps"]), 4) for r in _rows("pipe_sizes.csv")}
+
+
 @lru_cache(maxsize=4096)
 def pipe_outside_diameter(size: str) -> float | None:
     """Outside diameter [m] of a nominal size (``NPS 4``, ``4"``, ``1 1/2"``, ``DN 100``).
 
     None when the text is not a nominal size in the table (ASME B36.10M).
     """
-    by_nps, by_dn = _pipe_table()
-    text = str(size).strip()
-    m = _DN.match(text)
-    if m:
-        return by_dn.get(int(m.group(1)))
-    m = _NPS.match(text)
-    if m and (text.lower().startswith("nps") or re.search(r'("|in|inch|inches|\'\')\s*$', text, re.I)):
-        try:
-            return by_nps.get(round(_fraction(m.group(1)), 4))
-        except (ValueError, ZeroDivisionError):
-            return None
-    return None
+    nps = _nps_of(size)
+    return None if nps is None else _pipe_table()[0][nps]
+
+
+SCHEDULES = ("40", "STD", "80", "XS")  # the schedules of pipe_walls.csv
+
+
+@lru_cache(maxsize=1)
+def _wall_table() -> dict[tuple[float, str], float]:
+    return {(round(_fraction(r["nps"]), 4), r["schedule"].upper()): float(r["wall_thickness_in"]) * 0.0254
+            for r in _rows("pipe_walls.csv")}
+
+
+def pipe_wall_thickness(size: str, schedule: str) -> float | None:
+    """Wall thickness [m] of a nominal size in a schedule (``40``, ``STD``, ``80``, ``XS``;
+    ``Sch 40`` and ``S40`` are read too); None when the pair is not in the table
+    (ASME B36.10M carbon steel pipe)."""
+    nps = _nps_of(size)
+    sch = re.sub(r"^(sch(edule)?\.?\s*|s(?=\d))", "", str(schedule).strip(), flags=re.I).upper()
+    return None if nps is None else _wall_table().get((nps, sch))
 
 
 def nominal_sizes() -> dict[float, float]:

@@ -13,7 +13,7 @@ from importlib.resources import files
 import pytest
 from fluids.piping import nearest_pipe
 
-from lagsheet.library import pipe_outside_diameter
+from lagsheet.library import pipe_outside_diameter, pipe_wall_thickness
 
 
 def _rows():
@@ -128,3 +128,50 @@ def test_unknown_sizes_are_none(text):
     # NPS 7, 1/8, 26 and DN 105, 700 are not rows of the B36.10M table of REFERENCES.md;
     # a bare number is not a nominal size (no NPS, DN or inch mark)
     assert pipe_outside_diameter(text) is None
+
+
+# --------------------------------------------------------------------------- wall thickness
+
+
+def _walls():
+    with files("lagsheet.data").joinpath("pipe_walls.csv").open(encoding="utf-8", newline="") as fh:
+        return list(csv.DictReader(fh))
+
+
+WALLS = _walls()
+
+
+def test_wall_table_has_four_schedules_of_every_size():
+    """40, STD, 80 and XS for every NPS of the size table (22 has no schedule 40 in B36.10M)."""
+    have = {(_nps_value(r["nps"]), r["schedule"]) for r in WALLS}
+    for nps in B36_10M_MM:
+        for sch in ("40", "STD", "80", "XS"):
+            assert ((nps, sch) in have) == (not (nps == 22 and sch == "40")), (nps, sch)
+
+
+@pytest.mark.parametrize("row", WALLS, ids=[f"{r['nps']}-{r['schedule']}" for r in WALLS])
+def test_wall_thickness_matches_fluids(row):
+    """Each wall thickness (from memory, inches) equals fluids.piping.nearest_pipe's t within 0.01 mm."""
+    nps = _nps_value(row["nps"])
+    got_nps, di, do, t = nearest_pipe(NPS=nps, schedule=row["schedule"])
+    assert got_nps == nps
+    assert pipe_wall_thickness(f"NPS {row['nps']}", row["schedule"]) == pytest.approx(t, abs=1e-5)
+    # the bore a freeze-time line uses, Do - 2t, is fluids' Di
+    assert pipe_outside_diameter(f"NPS {row['nps']}") - 2 * t == pytest.approx(di, abs=6e-4)
+
+
+@pytest.mark.parametrize(("size", "schedule", "nps", "fluids_schedule"), [
+    ("DN 100", "Sch 40", 4, "40"), ('2"', "S80", 2, "80"), ("NPS 12", "std", 12, "STD"),
+    ("NPS 12", "schedule 40", 12, "40"), ("DN 250", "XS", 10, "XS"),
+])
+def test_schedule_spellings(size, schedule, nps, fluids_schedule):
+    """Sch 40, S80, std and 'schedule 40' name the schedules of fluids.piping."""
+    assert pipe_wall_thickness(size, schedule) == pytest.approx(
+        nearest_pipe(NPS=nps, schedule=fluids_schedule)[3], abs=1e-5)
+
+
+@pytest.mark.parametrize(("size", "schedule"), [("NPS 22", "40"), ("NPS 4", "160"), ("NPS 7", "40"),
+                                                ("4", "40"), ("NPS 4", "")])
+def test_unknown_walls_are_none(size, schedule):
+    """Pairs not in the table (22" has no schedule 40; schedule 160 is not listed) give None."""
+    assert pipe_wall_thickness(size, schedule) is None
