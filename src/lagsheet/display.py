@@ -17,9 +17,11 @@ _KINDS = {
     "per_length": ("W/m", "Btu/(h·ft)", 1, 1),
     "per_area": ("W/m²", "Btu/(h·ft²)", 1, 1),
     "power": ("W", "Btu/h", 0, 0),
+    "pressure": ("bar", "psi", 2, 1),
 }
 _SI_BASE = {"temperature": "K", "difference": "K", "thickness": "m", "radius": "m",
-            "per_length": "W/m", "per_area": "W/m**2", "power": "W"}
+            "per_length": "W/m", "per_area": "W/m**2", "power": "W",
+            "pressure": "Pa"}
 
 
 def show(value: float, kind: str, us: bool = False) -> str:

@@ -36,6 +36,16 @@ BUILTIN_CONDITIONS = {
 }
 
 
+@dataclass(frozen=True)
+class UserFluid:
+    """A process fluid of the Fluids sheet, defined by its specific heat and density."""
+
+    name: str
+    cp: float  # J/(kg·K)
+    density: float  # kg/m³ (NaN when not given)
+    source: str = ""
+
+
 @dataclass
 class Inputs:
     lines: Table | None
@@ -46,6 +56,7 @@ class Inputs:
     notes: list[Note] = field(default_factory=list)  # workbook-level notes
     columns: list[dict] = field(default_factory=list)  # column reports (JSON)
     us_units: bool = False
+    fluids: dict[str, UserFluid] = field(default_factory=dict)  # folded name -> fluid
 
 
 def _find(book: Book, wanted: str) -> str | None:
@@ -61,6 +72,7 @@ def read_inputs(book: Book, lines_sheet: str = "Lines") -> Inputs:
     settings = _settings(book, notes)
     conditions = _conditions(book, notes, columns)
     materials = _materials(book, notes, columns)
+    fluids = _fluids(book, notes, columns)
     name = _find(book, lines_sheet)
     lines = read_table(book.sheet(name), schema.LINE_FIELDS, "Tag") if name else None
     if name is None:
@@ -82,7 +94,8 @@ def read_inputs(book: Book, lines_sheet: str = "Lines") -> Inputs:
                                   + (f" [{f.unit}]" if f.unit else ""), lines.sheet,
                                   address(lines.header_row, 0)))
     us = _us_units(lines)
-    return Inputs(lines, conditions, materials, dict(library.finishes()), settings, notes, columns, us)
+    return Inputs(lines, conditions, materials, dict(library.finishes()), settings, notes, columns, us,
+                  fluids)
 
 
 def _us_units(t: Table | None) -> bool:
@@ -102,7 +115,8 @@ def _us_units(t: Table | None) -> bool:
 
 
 # settings that divide or step: 0 is no value for them
-_POSITIVE = {"heating_efficiency", "cooling_cop", "service_life", "thickness_step", "max_thickness"}
+_POSITIVE = {"heating_efficiency", "cooling_cop", "service_life", "thickness_step", "max_thickness",
+             "freeze_fraction"}
 
 
 def _settings(book: Book, notes: list[Note]) -> dict[str, object]:
@@ -196,6 +210,33 @@ def _conditions(book: Book, notes: list[Note], columns: list[dict]) -> dict[str,
             str(label), ta, tsur if np.isfinite(tsur) else ta,
             max(0.0, _or(_num(t, "wind_speed", i), 0.0)), _or(_num(t, "relative_humidity", i), base.rh),
             _or(_num(t, "operating_hours", i), 8760.0), source=f"{name}!{t.cell(i, 'name')}")
+    return out
+
+
+def _fluids(book: Book, notes: list[Note], columns: list[dict]) -> dict[str, UserFluid]:
+    """The optional Fluids sheet: Name, Specific heat, Density."""
+    name = _find(book, "Fluids")
+    if name is None:
+        return {}
+    t = read_table(book.sheet(name), schema.FLUID_FIELDS, "Name")
+    if t is None:
+        notes.append(Note("warning", "no-header", "sheet 'Fluids' has no header cell 'Name'; ignored", name))
+        return {}
+    notes.extend(t.notes)
+    columns.extend(c.report(t.sheet) for c in t.columns.values())
+    out: dict[str, UserFluid] = {}
+    for i in range(len(t.rows)):
+        notes.extend(t.cell_notes.get(i, []))
+        label = t.get("name")[i] if t.get("name") is not None else None
+        if not label:
+            continue
+        cp = _num(t, "specific_heat", i)
+        if not np.isfinite(cp) or t.bad[i]:
+            notes.append(Note("error", "bad-fluid", f"fluid {label!r} is not usable: it needs a "
+                              "'Specific heat' [kJ/(kg·K)]", name, t.cell(i, "specific_heat")))
+            continue
+        out[fold(label)] = UserFluid(str(label), cp, _num(t, "density", i),
+                                     source=f"{name}!{t.cell(i, 'name')}")
     return out
 
 

@@ -20,12 +20,16 @@ _KEYS = {
 }
 # extensions of the contract's results
 _EXTRA = {"governing_condition": "governing_condition", "installed_cost": "installed_cost",
-          "payback": "payback_years", "t_interface": "interface_temperature_K"}
+          "payback": "payback_years", "t_interface": "interface_temperature_K",
+          "outlet_temperature": "outlet_temperature_K", "condensate": "condensate_kg_per_s",
+          "time_to_freeze": "time_to_freeze_s", "time_to_cool": "time_to_cool_s"}
 
 CAUTIONS = (
     "Surface-temperature limits for personnel protection depend on contact time and surface "
     "material (ASTM C1055, ISO 13732-1; 5 s contact is the usual industrial basis).",
     "Cold lines need a continuous vapour retarder; moisture ingress is not calculated.",
+    "Insulation delays freezing but never prevents it: water that may stand longer than its time "
+    "to freeze needs heat tracing or to keep flowing.",
     "Results are design estimates: review them under the owner's specification, local codes "
     "and licensed engineering practice.",
 )
@@ -73,6 +77,7 @@ def build(inputs: Inputs, res: Results, input_path: Path, output_path: Path | No
             "bare_heat_loss_W": total("bare_heat_loss"),
             "annual_cost": total("annual_cost"),
             "annual_saving": total("annual_saving"),
+            "condensate_kg_per_s": total("condensate"),
         },
         "cautions": list(CAUTIONS),
     }

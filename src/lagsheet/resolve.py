@@ -21,6 +21,7 @@ from .display import show
 from .errors import Note
 from .inputs import Condition, Inputs
 from .io.table import fold
+from .limits import Process, resolve_process
 from .physics.layers import CYLINDER, FLAT, SPHERE
 from .physics.surface import PIPE, RISER, SPHERE_SHAPE, TOP, UNDERSIDE, VESSEL, WALL
 
@@ -54,6 +55,7 @@ class Line:
     candidates: list[tuple[float, ...]] = field(default_factory=list)  # thickness per slot [m]
     fixed: bool = False
     economic: bool = False
+    process: Process = field(default_factory=Process)
 
     @property
     def per_length(self) -> bool:
@@ -140,6 +142,11 @@ def resolve(t: Table, inputs: Inputs, i: int, notes: list[Note]) -> Line:
         inner = sold(L.materials[0], st)[:MAX_PAIR_CANDIDATES]
         outer = sold(L.materials[1], st)
         L.candidates = sorted(itertools.product(inner, outer), key=lambda p: (p[0] + p[1], p[0]))
+
+    def warn(code: str, key: str, message: str):
+        notes.append(Note("warning", code, message, sheet, t.cell(i, key)))
+
+    resolve_process(t, inputs, i, L, num, text, err, warn)
     return L
 
 

@@ -53,6 +53,23 @@ LINE_FIELDS = (
           ("minimum thickness", "code thickness"), -1e-12, 2.0),
     Field("fixed_thickness", "Fixed thickness", NUMBER, "mm", "m",
           ("thickness given", "existing thickness"), -1e-12, 2.0),
+    # process limits (extensions of the contract): flowing lines, steam, freezing, hold time
+    Field("flow_rate", "Flow rate", NUMBER, "kg/s", "kg/s", ("mass flow", "mass flow rate", "flow"),
+          0.0, 1e5, alt_units=(("m**3/h", "m**3/s"),)),
+    Field("fluid", "Fluid", aliases=("medium", "process fluid")),
+    Field("operating_pressure", "Operating pressure", NUMBER, "bar", "Pa",
+          ("pressure", "absolute pressure", "steam pressure"), 0.0, 1e8),
+    Field("inside_diameter", "Inside diameter", NUMBER, "mm", "m", ("bore", "inner diameter", "internal diameter"), 0.0, 20.0),
+    Field("schedule", "Schedule", aliases=("sch", "pipe schedule")),
+    Field("max_temperature_drop", "Max temperature drop", DIFFERENCE, "K", "K",
+          ("max temperature change", "allowed temperature drop"), 0.0, 2000.0),
+    Field("freeze_protection", "Freeze protection", NUMBER, "h", "s",
+          ("freeze protection time", "hours to freeze"), 0.0, 1e9),
+    Field("contents_volume", "Contents volume", NUMBER, "m³", "m**3", ("liquid volume", "contents"), 0.0, 1e6),
+    Field("hold_time", "Hold time", NUMBER, "h", "s", ("holding time", "cool-down time"), 0.0, 1e9),
+    Field("min_temperature", "Min temperature", TEMPERATURE, "°C", "K",
+          ("minimum temperature", "hold temperature", "limit temperature"), 0.0, 2000.0),
+    Field("part_of", "Part of", aliases=("vessel tag", "parent")),
 )
 
 CONDITION_FIELDS = (
@@ -82,6 +99,13 @@ MATERIAL_FIELDS = (
     Field("max_layer", "Max layer", NUMBER, "mm", "m", ("max layer thickness",), 0.0, 2.0),
 )
 
+# Process fluids the user defines (thermal oils, brines): used where 'Fluid' names them.
+FLUID_FIELDS = (
+    Field("name", "Name", aliases=("fluid",)),
+    Field("specific_heat", "Specific heat", NUMBER, "kJ/(kg·K)", "J/(kg*K)", ("cp", "heat capacity"), 0.0, 1e5),
+    Field("density", "Density", NUMBER, "kg/m³", "kg/m**3", ("rho",), 0.0, 3e4),
+)
+
 # Settings: key -> (name, dimension unit, SI unit, default in SI, kind)
 SETTINGS = {
     "currency": ("Currency", "", "", "EUR", TEXT),
@@ -97,6 +121,7 @@ SETTINGS = {
     "thickness_step": ("Thickness step", "mm", "m", 0.010, NUMBER),
     "max_thickness": ("Max thickness", "mm", "m", 0.300, NUMBER),
     "bare_emissivity": ("Bare emissivity", "1", "dimensionless", 0.80, NUMBER),
+    "freeze_fraction": ("Freeze fraction", "%", "dimensionless", 0.25, NUMBER),
 }
 SETTING_ALIASES = {"heating efficiency": "heating_efficiency", "boiler efficiency": "heating_efficiency",
                    "cop": "cooling_cop", "co2 factor": "emission_factor", "interest rate": "discount_rate"}
@@ -125,6 +150,7 @@ class Output:
     us: str  # US customary unit text
     fmt: str = "0.0"
     difference: bool = False
+    optional: bool = False  # written only when a line has a value, or the column is already there
 
 
 OUTPUTS = (
@@ -147,6 +173,10 @@ OUTPUTS = (
     Output("governing_condition", "Governing condition", "", "", "@"),
     Output("installed_cost", "Installed cost", "", "", "#,##0"),
     Output("payback", "Payback", "yr", "yr", "0.0"),
+    Output("outlet_temperature", "Outlet temperature", "°C", "°F", "0.0", optional=True),
+    Output("condensate", "Condensate", "kg/h", "lb/h", "0.00", optional=True),
+    Output("time_to_freeze", "Time to freeze", "h", "h", "0.0", optional=True),
+    Output("time_to_cool", "Time to cool", "h", "h", "0.0", optional=True),
 )
 
 

@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from . import economics, library
+from . import economics, library, limits
 from .display import show
 from .errors import Note
 from .inputs import Condition, Inputs
@@ -27,12 +27,14 @@ from .physics.sizing import evaluate, heat_rate, per_line
 from .physics.surface import CORRELATION_NAMES, linearised_h
 from .resolve import Line, resolve
 
-GOVERNING_ORDER = ("surface temperature", "condensation", "heat loss", "interface", "minimum")
+GOVERNING_ORDER = ("surface temperature", "condensation", "heat loss", "temperature drop",
+                   "freeze protection", "hold time", "interface", "minimum")
 PERSONNEL_LIMIT_K = 333.15  # 60 °C, the usual personnel-protection limit (common practice)
 
 RESULT_KEYS = ("thickness", "t_surface", "heat_flux", "heat_loss_per_length", "heat_loss",
                "bare_heat_loss", "annual_energy", "annual_cost", "annual_saving", "co2",
-               "critical_radius", "dew_point", "installed_cost", "payback", "t_interface")
+               "critical_radius", "dew_point", "installed_cost", "payback", "t_interface",
+               "outlet_temperature", "condensate", "time_to_freeze", "time_to_cool")
 
 
 @dataclass
@@ -226,10 +228,9 @@ def _specify(inputs: Inputs) -> Results:
         meets["interface"] = all_cases(c.faces[:, :, 1] <= limit[case_line][:, None] + 1e-9)
         worst["interface"] = c.faces[:, :, 1]
 
-    feasible = valid.copy()
-    for name in meets:
-        feasible &= meets[name] | ~given[name][:, None]
-    first_feasible = _first(feasible)
+    process_values: dict[str, np.ndarray] = {}  # process target -> its measure (lines × candidates)
+    hold = limits.targets(lines, ok, cases, starts, case_line, cand, table, c, all_cases, st, given, meets,
+                          worst, process_values)
 
     # economics of every candidate at the first condition
     cost = _installed_cost(lines, cand, base, st, res, t)
@@ -243,22 +244,36 @@ def _specify(inputs: Inputs) -> Results:
     for i in np.flatnonzero(econ & ~np.isfinite(annualised).any(axis=1)):
         ok[i] = lines[i].ok = False
     econ &= ok
-    econ_idx = np.where(econ, np.argmin(np.where(feasible & np.isfinite(annualised), annualised, np.inf),
-                                        axis=1), -1)
 
     fixed = np.array([L.fixed for L in lines])
     active = np.zeros(n, dtype=bool)
     for name in given:
         active |= given[name]
-    chosen = np.where(econ, econ_idx, first_feasible)
     none_given = ok & ~fixed & ~active & ~econ
-    chosen = np.where(none_given, _first(valid), chosen)
-    chosen = np.where(fixed & ok, 0, chosen)
-    unmet = ok & ~fixed & (active | econ) & (first_feasible < 0)
     last = np.array([int(np.flatnonzero(np.isfinite(total[i]))[-1]) if np.isfinite(total[i]).any() else -1
                      for i in range(n)])
-    chosen = np.where(unmet, last, chosen)
-    chosen = np.where(ok, chosen, -1)
+
+    def choose():
+        """Per line: the chosen candidate, the first that meets every target, and 'none meets'."""
+        feasible = valid.copy()
+        for name in meets:
+            feasible &= meets[name] | ~given[name][:, None]
+        first_feasible = _first(feasible)
+        econ_idx = np.where(econ, np.argmin(np.where(feasible & np.isfinite(annualised), annualised, np.inf),
+                                            axis=1), -1)
+        chosen = np.where(econ, econ_idx, first_feasible)
+        chosen = np.where(none_given, _first(valid), chosen)
+        chosen = np.where(fixed & ok, 0, chosen)
+        unmet = ok & ~fixed & (active | econ) & (first_feasible < 0)
+        chosen = np.where(unmet, last, chosen)
+        return np.where(ok, chosen, -1), first_feasible, unmet
+
+    chosen, first_feasible, unmet = choose()
+    parts = limits.parts_of(lines, res.tags, res, t)
+    if len(hold):  # a vessel's hold time counts its parts (heads, bottoms) at their own chosen systems
+        picked = np.where((chosen >= 0)[:, None], cand[np.arange(n), np.maximum(chosen, 0)], 0.0)
+        limits.hold_targets(lines, hold, cases, starts, cand, table, picked, parts, meets, process_values, n)
+        chosen, first_feasible, unmet = choose()
 
     governing = np.full(n, None, dtype=object)
     gov_name = np.full(n, None, dtype=object)
@@ -291,6 +306,9 @@ def _specify(inputs: Inputs) -> Results:
         for i in np.flatnonzero(sel):
             cs = slice(starts[i], starts[i] + len(lines[i].conditions))
             gov_cond[i] = case_cond[cs.start + int(np.nanargmax(w[cs]))].name
+    for name in ("freeze protection", "hold time"):  # judged at the coldest named condition
+        for i in np.flatnonzero(np.array([g == name for g in governing]) & several & ok):
+            gov_cond[i] = min(lines[i].conditions, key=lambda cc: cc.t_air).name
     for i in np.flatnonzero(ok & (gov_cond == None)):  # noqa: E711
         gov_cond[i] = lines[i].conditions[0].name
     res.values["governing_condition"][:] = gov_cond
@@ -346,7 +364,8 @@ def _specify(inputs: Inputs) -> Results:
     for i in np.flatnonzero(put):
         _notes(i, lines[i], res, t, chosen_th[i], c, chosen[i], starts[i], case_cond, given, meets,
                sol, loss, bare_loss, r_crit, dew, first_case, us, margin, unmet[i], last[i],
-               governing[i], gov_cond[i], tmax, qmax, tmin)
+               governing[i], gov_cond[i], tmax, qmax, tmin, process_values)
+    limits.results(lines, put, first_sys, cases, starts, chosen_th, table, loss, st, parts, res, t, us)
     for i in range(n):
         lv = {nt.level for nt in res.notes[i]}
         res.status.append("error" if "error" in lv or not lines[i].ok else
@@ -470,7 +489,8 @@ def layers_text(th: np.ndarray, materials: list[library.Material], us: bool,
 
 
 def _notes(i, L, res, t, th, c, k, start, case_cond, given, meets, sol, loss, bare_loss, r_crit,
-           dew_case, first_case, us, margin, unmet, last, governing, gov_cond, tmax, qmax, tmin):
+           dew_case, first_case, us, margin, unmet, last, governing, gov_cond, tmax, qmax, tmin,
+           process_values):
     """Words for one computed line: the layers, then every warning and caution."""
     dew = dew_case[first_case]
     notes = res.notes[i]
@@ -511,6 +531,8 @@ def _notes(i, L, res, t, th, c, k, start, case_cond, given, meets, sol, loss, ba
                 words.append(f"condensation is not prevented by any sold thickness: surface "
                              f"{show(c.t_surface[j, last], 'temperature', us)} at {thick}{at(j)} against a dew "
                              f"point of {show(dew_case[j], 'temperature', us)} plus {show(margin, 'difference', us)}")
+            elif name in limits.TARGETS:
+                words.append(limits.unmet_words(name, process_values[name][i, last], thick, names, us))
             elif name == "interface":
                 words.append(f"no sold inner thickness of {L.materials[0].name} keeps the interface within "
                              f"{show(L.materials[1].max_temperature, 'temperature', us)}, the limit of "
@@ -536,8 +558,10 @@ def _notes(i, L, res, t, th, c, k, start, case_cond, given, meets, sol, loss, ba
                           "temperature', 'Max heat loss', 'Prevent condensation', 'Min thickness' or "
                           "'Economic'", sheet, t.cell(i, "tag")))
     if ncase > 1 and gov_cond and governing not in ("fixed", "none"):
+        where = ("at the coldest named condition, " if governing in ("freeze protection", "hold time")
+                 else "at every named condition; ")
         notes.append(Note("info", "governing-condition",
-                          f"{governing} judged at every named condition; '{gov_cond}' governed. Results "
+                          f"{governing} judged {where}'{gov_cond}' governed. Results "
                           f"are given at '{L.conditions[0].name}'", sheet, t.cell(i, "condition")))
     if not sol.converged[i] or not np.isfinite(sol.residual[i]) or abs(sol.residual[i]) > 1e-6 \
             or not np.isfinite(sol.q[i]):

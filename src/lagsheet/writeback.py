@@ -17,9 +17,10 @@ from .units import from_si
 
 _SI_BASE = {"mm": "m", "in": "m", "°C": "K", "°F": "K", "W/m²": "W/m**2", "Btu/(h·ft²)": "W/m**2",
             "W/m": "W/m", "Btu/(h·ft)": "W/m", "W": "W", "Btu/h": "W", "kWh": "kWh", "MMBtu": "kWh",
-            "kg/yr": "kg/yr"}
+            "kg/yr": "kg/yr", "kg/h": "kg/s", "lb/h": "kg/s", "h": "s"}
 _PINT = {"°C": "degC", "°F": "degF", "W/m²": "W/m**2", "Btu/(h·ft²)": "Btu/(hour*foot**2)",
-         "Btu/(h·ft)": "Btu/hour/foot", "Btu/h": "Btu/hour", "kg/yr": "kg/year", "in": "inch"}
+         "Btu/(h·ft)": "Btu/hour/foot", "Btu/h": "Btu/hour", "kg/yr": "kg/year", "in": "inch",
+         "kg/h": "kg/hour", "lb/h": "lb/hour", "h": "hour"}
 _RESULT_KEY = {"surface_temperature": "t_surface"}
 
 
@@ -42,6 +43,8 @@ def lines_edits(raw: RawSheet, t: Table, res: Results, us: bool, currency: str) 
             unit = currency
         header = f"{out.header} [{unit}]" if unit else out.header
         col = existing.get(fold(out.header))
+        if out.optional and col is None and not _has_values(out, res):
+            continue  # a process result no line has: no empty column for it
         if col is None:
             col = next_col
             next_col += 1
@@ -68,6 +71,11 @@ def lines_edits(raw: RawSheet, t: Table, res: Results, us: bool, currency: str) 
                 if pos is not None and pos[0] == r:
                     e.comments[pos] = (e.comments[pos] + "\n" if pos in e.comments else "") + nt.message
     return e
+
+
+def _has_values(out: schema.Output, res: Results) -> bool:
+    arr = res.values[_RESULT_KEY.get(out.key, out.key)]
+    return bool(np.isfinite(arr).any()) if arr.dtype != object else any(v is not None for v in arr)
 
 
 def _style_source(raw: RawSheet, header_row: int) -> int:

@@ -254,3 +254,21 @@ def saturation(*, t=None, p=None, fluid: str = "Water") -> Saturation:
     y, h_fg = _per_state(sat, 2, x)
     x = np.where(np.isfinite(y), x, np.nan)
     return Saturation(t=x, p=y, h_fg=h_fg) if p is None else Saturation(t=y, p=x, h_fg=h_fg)
+
+
+@lru_cache(maxsize=256)
+def coolprop_name(text: str) -> str | None:
+    """CoolProp's own name of a pure fluid (``'water'`` -> ``'Water'``), or None if unknown.
+
+    Incompressible mixtures in CoolProp's own notation (``INCOMP::MEG[0.3]``) are passed
+    through as typed; their states are checked when their properties are taken.
+    """
+    from CoolProp.CoolProp import get_fluid_param_string
+
+    name = str(text).strip()
+    if name.upper().startswith("INCOMP::"):
+        return "INCOMP::" + name.split("::", 1)[1]
+    try:
+        return get_fluid_param_string(name, "name")
+    except ValueError:
+        return None

@@ -1,0 +1,495 @@
+"""Process limits of lines: temperature drop of flowing lines, steam condensate, time to
+freeze of stagnant water, cool-down of vessel contents.
+
+Three steps, called by :mod:`lagsheet.resolve` and :mod:`lagsheet.spec`:
+
+- :func:`resolve_process` reads a line's process columns (``Flow rate``, ``Fluid``,
+  ``Operating pressure``, ``Inside diameter``/``Schedule``, ``Max temperature drop``,
+  ``Freeze protection``, ``Contents volume``, ``Hold time``, ``Min temperature``,
+  ``Part of``) into a :class:`Process`, with an error naming the cell for every gap;
+- :func:`targets` judges every candidate system against the process targets, so the
+  chosen system is the thinnest that meets them with the surface targets;
+- :func:`results` computes what is reported for the chosen systems (``Outlet
+  temperature``, ``Condensate``, ``Time to freeze``, ``Time to cool``) and its notes.
+
+How each is computed (and where it is judged)
+    Temperature drop
+        Judged at every named condition with the closed form θ_out = θ_a + (θ_in − θ_a)
+        exp(−UA/(ṁ c_p)), UA = the line's heat loss at the operating temperature / (θ_in
+        − θ_a), c_p at the inlet; the reported ``Outlet temperature`` is marched along
+        the line with UA re-evaluated at the local fluid temperature (20 Runge–Kutta
+        steps, :func:`lagsheet.physics.process.outlet_temperature_marching`). For hot
+        lines UA falls as the fluid cools, so the closed form overstates the drop; a
+        line whose marched drop still exceeds the limit gets a warning.
+    Condensate
+        Saturated steam: heat loss / h_fg at the operating pressure (or at saturation at
+        the operating temperature), CoolProp.
+    Time to freeze
+        Water standing in a pipe at the coldest named condition: cool-down from the
+        operating temperature to 0 °C (water plus carbon-steel wall, U′ re-evaluated as
+        it cools), then freezing the ``Freeze fraction`` setting (25 % by default, common
+        practice) with the latent heat of fusion.
+    Time to cool
+        A vessel's contents (``Contents volume`` of ``Fluid``) from the operating to the
+        ``Min temperature`` at the coldest named condition, the shell and every line
+        whose ``Part of`` names the vessel (heads, bottoms) losing heat; the shell's own
+        heat capacity is left out (which shortens the time: on the safe side).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, replace
+
+import numpy as np
+
+from .display import show
+from .errors import Note
+from .io.table import fold
+from .physics import process as pp
+from .physics.balance import System
+from .physics.layers import CYLINDER, FLAT, MaterialTable
+from .physics.properties import P_ATM, coolprop_name, fluid_properties, saturation
+from .physics.sizing import per_line
+
+STEAM_WORDS = {"steam", "saturated steam", "wet steam", "dry steam"}
+STEEL_DENSITY = 7850.0  # kg/m³, carbon steel (handbook value, from memory)
+STEEL_CP = 490.0  # J/(kg·K), carbon steel near 20 °C (handbook value, from memory)
+SELECT_NODES = 8  # Gauss–Legendre nodes when judging every candidate (24 for the reported value)
+STEAM_TOLERANCE_K = 2.0  # operating temperature vs saturation before a warning (our choice)
+DEFAULT_SCHEDULE = "40"
+
+TARGETS = ("temperature drop", "freeze protection", "hold time")
+
+
+@dataclass
+class Process:
+    """A line's process inputs, SI; NaN / None where not given."""
+
+    label: str = ""  # Fluid as typed
+    coolprop: str | None = None  # CoolProp fluid name
+    user_cp: float = math.nan  # specific heat of a Fluids-sheet fluid [J/(kg·K)]
+    user_density: float = math.nan  # [kg/m³]
+    steam: bool = False
+    pressure: float = math.nan  # given absolute pressure [Pa]
+    m_dot: float = math.nan  # [kg/s]
+    max_drop: float = math.nan  # [K]
+    freeze: float = math.nan  # required time to freeze [s]
+    bore: float = math.nan  # inside diameter [m]
+    wall_area: float = 0.0  # steel cross-section of the pipe wall [m²]
+    volume: float = math.nan  # contents [m³]
+    hold: float = math.nan  # required time to cool [s]
+    t_limit: float = math.nan  # [K]
+    part_of: str | None = None
+    t_sat: float = math.nan  # steam: saturation temperature [K]
+    h_fg: float = math.nan  # steam: latent heat [J/kg]
+    cp: float = math.nan  # fluid at the operating state [J/(kg·K)]
+    density: float = math.nan
+
+    @property
+    def flowing(self) -> bool:
+        return np.isfinite(self.m_dot) and not self.steam
+
+    @property
+    def any(self) -> bool:
+        return bool(self.label) or np.isfinite(self.m_dot) or np.isfinite(self.freeze) \
+            or np.isfinite(self.hold) or self.part_of is not None
+
+
+def resolve_process(t, inputs, i: int, L, num, text, err, warn) -> None:
+    """Fill ``L.process`` from the line's process columns; ``err``/``warn`` note problems."""
+    P = L.process
+    us = inputs.us_units
+    P.part_of = text("part_of")
+    label = text("fluid")
+    flow = num("flow_rate")
+    P.max_drop, P.freeze, P.hold = num("max_temperature_drop"), num("freeze_protection"), num("hold_time")
+    P.pressure = num("operating_pressure")
+    if label is None and (np.isfinite(P.freeze) or np.isfinite(P.hold)):
+        label = "water"  # freeze protection is for water; a hold time without a fluid: water, noted
+        if np.isfinite(P.hold):
+            warn("fluid-assumed", "fluid", "'Fluid' is blank: the contents are taken as water")
+    if label is None:
+        if np.isfinite(flow) or np.isfinite(P.max_drop):
+            err("no-fluid", "fluid", "'Flow rate' needs its 'Fluid' (water, steam, air, a CoolProp name "
+                "or a fluid of the Fluids sheet)")
+        return
+    P.label = label
+    user = inputs.fluids.get(fold(label))
+    if fold(label) in STEAM_WORDS:
+        P.steam, P.coolprop = True, "Water"
+    elif user is not None:
+        P.user_cp, P.user_density = user.cp, user.density
+    else:
+        P.coolprop = coolprop_name(label)
+        if P.coolprop is None:
+            known = ", ".join(sorted(f.name for f in inputs.fluids.values()))
+            err("unknown-fluid", "fluid", f"fluid {label!r} is not known: use water, steam, air, another "
+                "CoolProp fluid name (e.g. Nitrogen, R134a, INCOMP::MEG[0.3]) or define it on a 'Fluids' "
+                "sheet (Name, Specific heat [kJ/(kg·K)], Density [kg/m³])" + (f"; defined: {known}" if known else ""))
+            return
+    if not np.isfinite(L.t_op):
+        return
+    p = P.pressure if np.isfinite(P.pressure) else P_ATM
+    if P.steam:
+        sat = saturation(p=P.pressure) if np.isfinite(P.pressure) else saturation(t=L.t_op)
+        P.t_sat, P.h_fg = float(sat.t), float(sat.h_fg)
+        if not np.isfinite(P.h_fg):
+            err("steam-state", "operating_pressure" if np.isfinite(P.pressure) else "operating_temperature",
+                "saturated steam needs a temperature between 0.01 °C and 373.9 °C (or a pressure between "
+                "0.006 bar and 220 bar absolute); check the value and its unit")
+            return
+        if np.isfinite(P.pressure) and L.t_op < P.t_sat - STEAM_TOLERANCE_K:
+            gauge = float(saturation(p=P.pressure + P_ATM).t)
+            warn("steam-state", "operating_pressure",
+                 f"steam at {show(P.pressure, 'pressure', us)} (absolute) condenses at "
+                 f"{show(P.t_sat, 'temperature', us)}, above the operating temperature "
+                 f"{show(L.t_op, 'temperature', us)}; if the pressure is gauge, add the atmosphere "
+                 f"(saturation then {show(gauge, 'temperature', us)}). Condensate uses the pressure")
+        elif np.isfinite(P.pressure) and L.t_op > P.t_sat + STEAM_TOLERANCE_K:
+            warn("superheated", "operating_temperature",
+                 f"steam at {show(L.t_op, 'temperature', us)} is superheated (saturation "
+                 f"{show(P.t_sat, 'temperature', us)}): the heat lost first cools the steam, so the "
+                 "condensate shown is an upper bound")
+        if np.isfinite(P.max_drop):
+            err("steam-drop", "max_temperature_drop", "saturated steam stays at its saturation temperature "
+                "while it condenses: 'Max temperature drop' does not apply; limit 'Max heat loss' instead")
+    elif P.coolprop is not None:
+        if P.coolprop == "Water" and not np.isfinite(P.pressure) and L.t_op > 373.15:
+            err("water-boils", "operating_pressure", f"water at {show(L.t_op, 'temperature', us)} boils at "
+                "1 atm: give its 'Operating pressure' (absolute), or 'Fluid' steam for a steam line")
+            return
+        props = fluid_properties(P.coolprop, L.t_op, p)
+        P.cp, P.density = float(props.cp), float(props.density)
+        if not np.isfinite(P.cp):
+            err("fluid-state", "fluid", f"CoolProp has no single-phase state of {P.coolprop} at "
+                f"{show(L.t_op, 'temperature', us)} and {show(p, 'pressure', us)}")
+            return
+    else:
+        P.cp, P.density = P.user_cp, P.user_density
+    if np.isfinite(flow):
+        col = t.columns["flow_rate"]
+        volumetric = (col.si_unit == "m**3/s") != (i in col.alternate)
+        if volumetric:
+            rho = P.density if not P.steam else float(fluid_properties("Water", P.t_sat, P.pressure
+                                                                       if np.isfinite(P.pressure) else P_ATM).density)
+            if not np.isfinite(rho):
+                err("no-density", "flow_rate", f"a volume flow needs the density of {label!r}: give "
+                    "'Density' on the Fluids sheet, or the flow in kg/s")
+                return
+            flow = flow * rho
+        P.m_dot = flow
+    elif np.isfinite(P.max_drop):
+        err("no-flow", "flow_rate", "'Max temperature drop' needs the line's 'Flow rate'")
+    if np.isfinite(P.freeze):
+        _freeze_inputs(t, i, L, num, text, err, warn)
+    if np.isfinite(P.hold):
+        P.volume, P.t_limit = num("contents_volume"), num("min_temperature")
+        if not np.isfinite(P.volume):
+            err("no-volume", "contents_volume", "'Hold time' needs the 'Contents volume' of the vessel")
+        if not np.isfinite(P.t_limit):
+            err("no-limit", "min_temperature", "'Hold time' needs the 'Min temperature' the contents may "
+                "cool to (for cold contents: the warmest they may reach)")
+        elif abs(P.t_limit - L.t_op) < 1e-9:
+            err("no-limit", "min_temperature", "'Min temperature' equals the operating temperature: "
+                "there is no time to hold")
+        if P.user_cp == P.user_cp and not np.isfinite(P.user_density):
+            err("no-density", "fluid", f"'Contents volume' needs the density of {label!r}: give "
+                "'Density' on the Fluids sheet")
+
+
+def _freeze_inputs(t, i, L, num, text, err, warn) -> None:
+    from . import library
+
+    P = L.process
+    if L.geometry != CYLINDER or L.word == "vessel":
+        err("freeze-shape", "freeze_protection", "'Freeze protection' is for pipes and risers (water "
+            "standing in the line); a vessel's cool-down takes 'Hold time' and 'Min temperature'")
+        return
+    if P.steam or P.coolprop != "Water":
+        err("freeze-fluid", "fluid", "'Freeze protection' is computed for water only")
+        return
+    od = 2 * L.r_inner
+    bore = num("inside_diameter")
+    if np.isfinite(bore):
+        if not np.isfinite(od) or bore >= od:
+            err("bore", "inside_diameter", "'Inside diameter' must be less than the outside diameter")
+            return
+    else:
+        size, sch = text("size"), text("schedule")
+        if size is None:
+            err("no-bore", "inside_diameter", "'Freeze protection' needs the water volume: give 'Inside "
+                "diameter', or 'Size' with 'Schedule'")
+            return
+        wall = library.pipe_wall_thickness(size, sch or DEFAULT_SCHEDULE)
+        if wall is None:
+            err("unknown-schedule", "schedule", f"schedule {sch or DEFAULT_SCHEDULE!r} of size {size!r} is "
+                f"not in the table ({', '.join(library.SCHEDULES)}); give 'Inside diameter' instead")
+            return
+        if sch is None:
+            warn("schedule-assumed", "schedule", f"'Schedule' is blank: schedule {DEFAULT_SCHEDULE} "
+                 "(ASME B36.10M) taken for the water volume and the wall")
+        bore = od - 2 * wall
+    P.bore = bore
+    P.wall_area = math.pi / 4 * (od**2 - bore**2)
+
+
+# --------------------------------------------------------------------------- targets
+
+
+def _whole_factor(geometry, lengths, areas):
+    """Heat rate -> whole line: × length (cylinders), × area (flats), × 1 (spheres)."""
+    return np.select([geometry == CYLINDER, geometry == FLAT], [lengths, areas], 1.0)
+
+
+def _coldest(lines, idx, starts) -> np.ndarray:
+    """Case index of the coldest named condition of each line ``idx``."""
+    return np.array([starts[i] + int(np.argmin([c.t_air for c in lines[i].conditions])) for i in idx],
+                    dtype=int)
+
+
+def targets(lines, ok, cases: System, starts, case_line, cand, table: MaterialTable, c, all_cases,
+            settings, given, meets, worst, values) -> np.ndarray:
+    """Add the process targets to ``given``/``meets``/``worst`` and their measure per line
+    and candidate to ``values`` (lines × candidates); returns the lines with a hold time
+    (judged later by :func:`hold_targets`, once their parts are chosen)."""
+    n, m, _ = cand.shape
+    procs = [L.process for L in lines]
+    factor = _whole_factor(np.array([L.geometry for L in lines]), np.array([L.length for L in lines]),
+                           np.array([L.area for L in lines]))
+
+    drop_given = np.array([ok[i] and P.flowing and np.isfinite(P.max_drop) for i, P in enumerate(procs)])
+    if drop_given.any():
+        t_in = cases.t_operating[:, None]
+        ta = cases.t_air[:, None]
+        ua = c.heat_rate * factor[case_line][:, None] / np.where(t_in != ta, t_in - ta, np.nan)
+        m_dot = np.array([P.m_dot for P in procs])[case_line][:, None]
+        cp = np.array([P.cp for P in procs])[case_line][:, None]
+        drop = np.abs(t_in - pp.outlet_temperature_closed(t_in, ta, ua, 1.0, m_dot, cp))
+        limit = np.array([P.max_drop for P in procs])[case_line][:, None]
+        given["temperature drop"] = drop_given
+        meets["temperature drop"] = all_cases(np.where(np.isfinite(drop), drop <= limit + 1e-9, False))
+        worst["temperature drop"] = drop
+        values["temperature drop"] = np.maximum.reduceat(np.nan_to_num(drop, nan=np.inf), starts, axis=0)
+
+    freeze_given = np.array([ok[i] and np.isfinite(P.freeze) and np.isfinite(P.bore)
+                             for i, P in enumerate(procs)])
+    if freeze_given.any():
+        idx = np.flatnonzero(freeze_given)
+        hours = _freeze_time(lines, idx, _coldest(lines, idx, starts), cases, cand[idx], table,
+                             settings, SELECT_NODES)
+        met = np.zeros((n, m), dtype=bool)
+        met[idx] = hours >= np.array([procs[i].freeze for i in idx])[:, None]
+        given["freeze protection"] = freeze_given
+        meets["freeze protection"] = met
+        values["freeze protection"] = np.full((n, m), np.nan)
+        values["freeze protection"][idx] = hours
+    hold_given = np.array([ok[i] and np.isfinite(P.hold) and np.isfinite(P.volume) and np.isfinite(P.t_limit)
+                           for i, P in enumerate(procs)])
+    if hold_given.any():
+        given["hold time"] = hold_given
+    return np.flatnonzero(hold_given)
+
+
+def hold_targets(lines, idx, cases, starts, cand, table, chosen_th, parts, meets, values, n):
+    """``meets['hold time']`` for vessels ``idx``, their parts at their chosen systems."""
+    procs = [L.process for L in lines]
+    times = _cool_time(lines, idx, _coldest(lines, idx, starts), cases, starts, cand[idx], table,
+                       chosen_th, parts, SELECT_NODES)
+    met = np.zeros((n, cand.shape[1]), dtype=bool)
+    met[idx] = times >= np.array([procs[i].hold for i in idx])[:, None]
+    meets["hold time"] = met
+    values["hold time"] = np.full((n, cand.shape[1]), np.nan)
+    values["hold time"][idx] = times
+
+
+def parts_of(lines, tags, res, t) -> dict[int, list[int]]:
+    """Vessel line -> the lines whose 'Part of' names its tag (a note on each linking line)."""
+    by_tag = {fold(tag): i for i, tag in enumerate(tags) if tag}
+    out: dict[int, list[int]] = {}
+    for i, L in enumerate(lines):
+        name = L.process.part_of
+        if name is None:
+            continue
+        v = by_tag.get(fold(name))
+        if v is None or v == i:
+            res.notes[i].append(Note("warning", "part-of", f"'Part of' {name!r} is not the Tag of another "
+                                     "line; its heat loss is not added to any vessel", t.sheet,
+                                     t.cell(i, "part_of")))
+        elif not np.isfinite(lines[v].process.hold):
+            res.notes[i].append(Note("info", "part-of", f"'Part of' {name!r}: that line has no 'Hold time', "
+                                     "so nothing is added up", t.sheet, t.cell(i, "part_of")))
+        else:
+            out.setdefault(v, []).append(i)
+            res.notes[i].append(Note("info", "part-of", f"its heat loss counts in the 'Time to cool' of "
+                                     f"{tags[v]}", t.sheet, t.cell(i, "part_of")))
+    return out
+
+
+def _pairs(cases: System, case_idx, thickness) -> System:
+    """One system per (line, candidate): the line's case ``case_idx`` with each candidate."""
+    k, m, slots = thickness.shape
+    rows = np.repeat(case_idx, m)
+    th = thickness.reshape(k * m, slots)
+    good = np.isfinite(th).all(axis=1)
+    return per_line(cases, rows, thickness=np.where(good[:, None], th, 0.0)), good
+
+
+def _freeze_time(lines, idx, case_idx, cases, thickness, table, settings, nodes) -> np.ndarray:
+    """Time to freeze [s] of lines ``idx`` for every candidate (len(idx) × candidates)."""
+    k, m, _ = thickness.shape
+    sysp, good = _pairs(cases, case_idx, thickness)
+    rep = np.repeat(np.asarray(idx), m)
+    procs = [lines[i].process for i in rep]
+    bore = np.array([P.bore for P in procs])
+    wall = np.array([P.wall_area for P in procs])
+    u = pp.loss_coefficient(sysp, table)
+    ft = pp.freeze_time(sysp.t_operating, sysp.t_air, u, np.pi / 4 * bore**2, wall * STEEL_DENSITY,
+                        STEEL_CP, float(settings["freeze_fraction"]), nodes=nodes)
+    return np.where(good, ft.total, np.nan).reshape(k, m)
+
+
+def _cool_time(lines, idx, case_idx, cases, starts, thickness, table, chosen_th, parts,
+               nodes) -> np.ndarray:
+    """Time to cool [s] of vessels ``idx`` for every candidate, their parts at ``chosen_th``."""
+    k, m, _ = thickness.shape
+    sysp, good = _pairs(cases, case_idx, thickness)
+    rep = np.repeat(np.asarray(idx), m)
+    factor = np.array([_whole_factor(lines[i].geometry, lines[i].length, lines[i].area) for i in rep])
+    shell = pp.loss_coefficient(sysp, table, scale=factor)
+    owner = [j for j, v in enumerate(rep) for _ in parts.get(int(v), [])]
+    rows = [p for v in rep for p in parts.get(int(v), [])]
+    ua_parts = None
+    if rows:
+        rows_a, owner_a = np.array(rows), np.array(owner)
+        # each part at its chosen system, in the vessel's air (the condition the vessel is judged at)
+        psys = replace(per_line(cases, np.asarray(starts)[rows_a], thickness=np.nan_to_num(chosen_th[rows_a])),
+                       t_air=sysp.t_air[owner_a], t_surroundings=sysp.t_surroundings[owner_a],
+                       wind=sysp.wind[owner_a])
+        pf = np.array([_whole_factor(lines[p].geometry, lines[p].length, lines[p].area) for p in rows])
+        ua_p = pp.loss_coefficient(psys, table, scale=pf)
+
+        def ua_parts(tt):
+            return np.bincount(owner_a, weights=ua_p(np.asarray(tt)[owner_a]), minlength=len(rep))
+
+    def ua(tt):
+        total = shell(tt)
+        return total + ua_parts(tt) if ua_parts is not None else total
+
+    procs = [lines[i].process for i in rep]
+    t_op, t_lim = sysp.t_operating, np.array([P.t_limit for P in procs])
+    cap = _capacity(procs, 0.5 * (t_op + t_lim))
+    time = pp.cooling_time(t_op, t_lim, sysp.t_air, cap, ua, nodes)
+    return np.where(good, time, np.nan).reshape(k, m)
+
+
+def _capacity(procs, t_mean) -> np.ndarray:
+    """ρ V c_p [J/K] of the contents at the mean temperature (CoolProp or the Fluids sheet)."""
+    cap = np.full(len(procs), np.nan)
+    names = np.array([P.coolprop or "" for P in procs])
+    pressure = np.array([P.pressure if np.isfinite(P.pressure) else P_ATM for P in procs])
+    cool = names != ""
+    if cool.any():
+        props = fluid_properties(names[cool], t_mean[cool], pressure[cool])
+        cap[cool] = props.density * props.cp * np.array([P.volume for P, c in zip(procs, cool, strict=True) if c])
+    for j, P in enumerate(procs):
+        if not cool[j]:
+            cap[j] = P.user_density * P.user_cp * P.volume
+    return cap
+
+
+# --------------------------------------------------------------------------- results
+
+
+def results(lines, put, first_sys: System, cases: System, starts, chosen_th, table, loss, settings,
+            parts, res, t, us: bool) -> None:
+    """Outlet temperature, condensate, time to freeze and time to cool of the chosen systems."""
+    v = res.values
+    procs = [L.process for L in lines]
+
+    def note(i, level, code, message, key="tag"):
+        res.notes[i].append(Note(level, code, message, t.sheet, t.cell(i, key)))
+
+    flowing = np.array([bool(put[i]) and P.flowing and np.isfinite(P.cp) for i, P in enumerate(procs)])
+    if flowing.any():
+        idx = np.flatnonzero(flowing)
+        sysf = per_line(first_sys, idx)
+        factor = _whole_factor(sysf.geometry, np.array([lines[i].length for i in idx]),
+                               np.array([lines[i].area for i in idx]))
+        u = pp.loss_coefficient(sysf, table, scale=factor)
+        out = pp.outlet_temperature_marching(sysf.t_operating, sysf.t_air, u, 1.0,
+                                             np.array([procs[i].m_dot for i in idx]),
+                                             np.array([procs[i].cp for i in idx]))
+        v["outlet_temperature"][idx] = out
+        for j, i in enumerate(idx):
+            limit = procs[i].max_drop
+            change = abs(lines[i].t_op - out[j])
+            if np.isfinite(limit) and change > limit + 1e-9:
+                note(i, "warning", "temperature-drop",
+                     f"marched along the line with the heat-loss coefficient re-evaluated, the temperature "
+                     f"changes by {show(change, 'difference', us)}, more than 'Max temperature drop' "
+                     f"{show(limit, 'difference', us)} (the thickness was judged with the coefficient at "
+                     "the inlet); choose the next thickness up", "max_temperature_drop")
+    for i in np.flatnonzero(put):
+        P = procs[i]
+        if P.steam and np.isfinite(P.h_fg):
+            v["condensate"][i] = float(pp.condensate_kg_per_h(loss[i], P.h_fg)) / 3600.0
+
+    freezing = np.array([bool(put[i]) and np.isfinite(P.freeze) and np.isfinite(P.bore)
+                         for i, P in enumerate(procs)])
+    if freezing.any():
+        idx = np.flatnonzero(freezing)
+        cold = _coldest(lines, idx, starts)
+        times = _freeze_time(lines, idx, cold, cases, chosen_th[idx][:, None, :], table, settings,
+                             pp.NODES)[:, 0]
+        fraction = float(settings["freeze_fraction"])
+        for j, i in enumerate(idx):
+            name = cases_name(lines[i], cold[j] - starts[i])
+            if np.isinf(times[j]):
+                note(i, "info", "no-freezing", f"the air at condition '{name}' (the coldest named) is above "
+                     "0 °C: standing water does not freeze there", "freeze_protection")
+                continue
+            v["time_to_freeze"][i] = times[j]
+            note(i, "info", "time-to-freeze",
+                 f"time to freeze at condition '{name}' (the coldest named): water standing from "
+                 f"{show(lines[i].t_op, 'temperature', us)} cools to 0 °C, then {fraction * 100:g} % of it freezes "
+                 f"(the 'Freeze fraction' setting; 25 % is common practice)", "freeze_protection")
+        for i in idx:
+            note(i, "caution", "freeze", "insulation delays freezing but never prevents it: for water that "
+                 "may stand longer, heat tracing or keeping it flowing is needed", "freeze_protection")
+
+    holding = np.array([bool(put[i]) and np.isfinite(P.hold) and np.isfinite(P.volume)
+                        and np.isfinite(P.t_limit) for i, P in enumerate(procs)])
+    if holding.any():
+        idx = np.flatnonzero(holding)
+        cold = _coldest(lines, idx, starts)
+        times = _cool_time(lines, idx, cold, cases, starts, chosen_th[idx][:, None, :], table, chosen_th,
+                           parts, pp.NODES)[:, 0]
+        for j, i in enumerate(idx):
+            name = cases_name(lines[i], cold[j] - starts[i])
+            if np.isfinite(times[j]):
+                v["time_to_cool"][i] = times[j]
+            with_parts = len(parts.get(int(i), []))
+            note(i, "info", "time-to-cool",
+                 f"time to cool at condition '{name}' (the coldest named) from "
+                 f"{show(lines[i].t_op, 'temperature', us)} to {show(procs[i].t_limit, 'temperature', us)}: "
+                 f"the shell{f' and {with_parts} linked line(s)' if with_parts else ''} losing heat, the "
+                 "shell's own heat capacity left out" if np.isfinite(times[j]) else
+                 f"the contents never reach {show(procs[i].t_limit, 'temperature', us)} at condition "
+                 f"'{name}': the air is at or beyond it", "hold_time")
+
+
+def cases_name(line, k: int) -> str:
+    return line.conditions[k].name
+
+
+def unmet_words(name: str, value: float, thick: str, names: str, us: bool) -> str:
+    """Why a process target is not met by the thickest sold system (for the error note)."""
+    if name == "temperature drop":
+        return (f"'Max temperature drop' is not met by any sold thickness: the temperature changes by "
+                f"{show(value, 'difference', us)} at {thick}, the thickest of {names}")
+    if name == "freeze protection":
+        return (f"'Freeze protection' is not met by any sold thickness: water freezes in "
+                f"{value / 3600:.1f} h at {thick}, the thickest of {names}; add heat tracing")
+    return (f"'Hold time' is not met by any sold thickness: the contents cool in {value / 3600:.1f} h at "
+            f"{thick}, the thickest of {names}")
