@@ -87,6 +87,26 @@ _HELP = {
                 "see Settings and Materials).",
     "min_thickness": "Floor on the thickness, e.g. from an energy code table.",
     "fixed_thickness": "Evaluate this thickness instead of sizing one; 0 = bare.",
+    "flow_rate": "Process: the line's flow, kg/s or m³/h (a volume flow needs the fluid's density). "
+                 "Gives Outlet temperature after Length.",
+    "fluid": "Process: water, steam (saturated), air, another CoolProp fluid name, or a fluid of "
+             "the Fluids sheet.",
+    "operating_pressure": "Process: absolute pressure (bar(a) = bar(g) + 1.013). Steam: the "
+                          "saturation pressure for Condensate; water above 100 °C needs it.",
+    "inside_diameter": "Process: bore of the pipe for Freeze protection. Blank: from Size and "
+                       "Schedule.",
+    "schedule": "Process: pipe schedule (40, STD, 80, XS) for the bore and wall. Blank: 40.",
+    "max_temperature_drop": "Target: the fluid changes temperature by at most this along Length "
+                            "(needs Flow rate and Fluid).",
+    "freeze_protection": "Target: hours standing water takes to freeze at the coldest named "
+                         "condition. Insulation delays freezing, it never prevents it.",
+    "contents_volume": "Process: liquid in a vessel, for Hold time.",
+    "hold_time": "Target: hours the contents take to cool to Min temperature at the coldest named "
+                 "condition (needs Contents volume, Min temperature, Fluid).",
+    "min_temperature": "Process: the lowest temperature the contents may cool to (for cold "
+                       "contents: the warmest they may reach).",
+    "part_of": "Process: the Tag of the vessel this line is a head or bottom of; its heat loss "
+               "counts in the vessel's Hold time.",
 }
 _WIDTH = {
     "tag": 14, "area": 16, "service": 28, "shape": 10, "size": 10, "outside_diameter": 13,
@@ -94,6 +114,9 @@ _WIDTH = {
     "insulation": 18, "outer_insulation": 18, "finish": 16, "surface_emissivity": 14,
     "max_surface_temperature": 16, "max_heat_loss": 13, "prevent_condensation": 13,
     "economic": 10, "min_thickness": 13, "fixed_thickness": 14,
+    "flow_rate": 12, "fluid": 12, "operating_pressure": 14, "inside_diameter": 13, "schedule": 10,
+    "max_temperature_drop": 15, "freeze_protection": 13, "contents_volume": 13, "hold_time": 10,
+    "min_temperature": 14, "part_of": 12,
 }
 # Units shown in headers where the field's own unit text is not the one to show.
 _SHOW_UNIT = {"cost_per_volume": f"{CURRENCY}/m³", "operating_hours": "h/yr"}
@@ -215,8 +238,15 @@ _SETTING_MEANING = {
     "thickness_step": "Thickness steps for a material that lists no Thicknesses.",
     "max_thickness": "Largest thickness tried in those steps.",
     "bare_emissivity": "Emissivity of the bare line, for the bare heat loss.",
+    "freeze_fraction": "Share of standing water allowed to freeze for Freeze protection (25 % is "
+                       "common practice).",
 }
 _SETTING_UNIT = {"year": "yr"}
+
+
+def _fluids_sheet() -> Sheet:
+    return Sheet("Fluids", [[header(f) for f in schema.FLUID_FIELDS]], [18, 16, 14], header_row=0,
+                 freeze=(1, 0))
 
 
 def _settings_sheet() -> Sheet:
@@ -239,7 +269,7 @@ INSTRUCTION_WIDTH = 100  # characters a line of the Instructions sheet holds (no
 def _paragraphs() -> list[tuple[str | None, str | None]]:
     """The Instructions: (heading, paragraph); a paragraph is wrapped into rows of text."""
     outputs = ", ".join(o.header for o in schema.OUTPUTS[:15])
-    extra = ", ".join(o.header for o in schema.OUTPUTS[15:])
+    extra = ", ".join(o.header for o in schema.OUTPUTS[15:] if not o.optional)
     return [
         ("lagsheet workbook", "Insulation thickness, heat loss and cost for every line of a schedule."),
         (None, None),
@@ -280,6 +310,12 @@ def _paragraphs() -> list[tuple[str | None, str | None]]:
                       "on any row of the material. A name here replaces the built-in material of that "
                       "name. Leave the sheet empty to use the built-in library (lagsheet materials lists "
                       "it, with the source of every value)."),
+        ("Process limits", "Flowing lines (Flow rate, Fluid, Max temperature drop) get their Outlet "
+                           "temperature; steam lines their Condensate for trap sizing; water lines with "
+                           "Freeze protection their Time to freeze; vessels with Hold time their Time to "
+                           "cool. These columns appear only when a line uses them."),
+        ("Fluids", "Optional: process fluids that CoolProp does not name (thermal oils, brines): Name, "
+                   "Specific heat and Density. Name them in the Fluid column of Lines."),
         ("Settings", "Prices, efficiencies and economics. The values given are lagsheet's defaults, "
                      "placeholders to replace; a blank value takes the default. Economic lines also need "
                      "Jacket cost per area, Labour per layer and a Cost per volume for the material."),
@@ -289,6 +325,8 @@ def _paragraphs() -> list[tuple[str | None, str | None]]:
                      "limit your project requires."),
         (None, "Cold lines need a continuous vapour retarder; this calculation does not cover moisture "
                "getting into the insulation."),
+        (None, "Insulation delays freezing but never prevents it: water that may stand longer than "
+               "its time to freeze needs heat tracing or to keep flowing."),
         (None, "Results are design estimates. Review them under the owner's specification, local codes "
                "and licensed engineering practice."),
         (None, "Built-in conductivities are generic; for the product you buy, enter the manufacturer's "
@@ -321,7 +359,7 @@ def _instructions_sheet() -> Sheet:
 def sheets() -> list[Sheet]:
     """The sheets of both templates, in order."""
     return [_instructions_sheet(), _lines_sheet(), _conditions_sheet(), _materials_sheet(),
-            _settings_sheet()]
+            _fluids_sheet(), _settings_sheet()]
 
 
 # --------------------------------------------------------------------------------------

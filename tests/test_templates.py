@@ -37,10 +37,14 @@ LINE_HEADERS = [
     "Width [m]", "Operating temperature [°C]", "Condition", "Insulation", "Outer insulation", "Finish",
     "Surface emissivity [1]", "Max surface temperature [°C]", "Max heat loss [W/m]", "Prevent condensation",
     "Economic", "Min thickness [mm]", "Fixed thickness [mm]",
+    # process limits
+    "Flow rate [kg/s]", "Fluid", "Operating pressure [bar]", "Inside diameter [mm]", "Schedule",
+    "Max temperature drop [K]", "Freeze protection [h]", "Contents volume [m³]", "Hold time [h]",
+    "Min temperature [°C]", "Part of",
 ]
 MATERIAL_HEADERS = ["Name", "Mean temperature [°C]", "Conductivity [W/(m·K)]", "Max temperature [°C]",
                     "Min temperature [°C]", "Cost per volume [EUR/m³]", "Thicknesses [mm]", "Max layer [mm]"]
-SHEETS = ["Instructions", "Lines", "Conditions", "Materials", "Settings"]
+SHEETS = ["Instructions", "Lines", "Conditions", "Materials", "Fluids", "Settings"]
 
 
 def _letter(header: str) -> str:
@@ -358,7 +362,8 @@ def test_ods_dropdowns_and_frozen_rows_in_the_package():
             frozen[entry.get(f"{_C}name")] = (items["VerticalSplitMode"], items["VerticalSplitPosition"],
                                               items["HorizontalSplitPosition"])
     assert frozen == {"Instructions": ("0", "0", "0"), "Lines": ("2", "1", "1"), "Conditions": ("2", "1", "0"),
-                      "Materials": ("2", "1", "0"), "Settings": ("2", "1", "0")}
+                      "Materials": ("2", "1", "0"), "Fluids": ("2", "1", "0"),
+                      "Settings": ("2", "1", "0")}
 
 
 # --- LibreOffice -----------------------------------------------------------------------------
