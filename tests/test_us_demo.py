@@ -19,18 +19,31 @@ US_HEADERS = {
     "Min thickness [mm]": ("Min thickness [in]", lambda v: v / 25.4),
     "Fixed thickness [mm]": ("Fixed thickness [in]", lambda v: v / 25.4),
     "Surface area [m²]": ("Surface area [ft²]", lambda v: v / 0.3048**2),
+    # 1 lb = 0.45359237 kg, 1 psi = 6894.757 Pa (NIST SP 811); a kelvin difference is 1.8 °F
+    "Flow rate [kg/s]": ("Flow rate [lb/h]", lambda v: v / 0.45359237 * 3600),
+    "Operating pressure [bar]": ("Operating pressure [psi]", lambda v: v * 1e5 / 6894.757),
+    "Max temperature drop [K]": ("Max temperature drop [°F]", lambda v: v * 1.8),
+    "Contents volume [m³]": ("Contents volume [ft³]", lambda v: v / 0.3048**3),
+    "Min temperature [°C]": ("Min temperature [°F]", lambda v: v * 9 / 5 + 32),
 }
+HEADERS = demo.HEADERS + demo.PROCESS_HEADERS
+
+
+def _row(row):
+    """A demo line with its process cells, in the order of HEADERS."""
+    extra = demo.PROCESS.get(row[0], {})
+    return list(row) + [None] * (len(demo.HEADERS) - len(row)) + [extra.get(h) for h in demo.PROCESS_HEADERS]
 
 
 def write_us_demo(path):
     wb = openpyxl.Workbook()
     ws = wb.active
     ws.title = "Lines"
-    heads = [US_HEADERS.get(h, (h, None))[0] for h in demo.HEADERS]
+    heads = [US_HEADERS.get(h, (h, None))[0] for h in HEADERS]
     ws.append(heads)
     for row in demo.LINES:
         out = []
-        for h, v in zip(demo.HEADERS, list(row) + [None] * (len(demo.HEADERS) - len(row)), strict=True):
+        for h, v in zip(HEADERS, _row(row), strict=True):
             conv = US_HEADERS.get(h, (h, None))[1]
             if conv is not None and isinstance(v, (int, float)):
                 v = conv(v)
@@ -45,7 +58,7 @@ def write_us_demo(path):
               "Relative humidity [%]", "Operating hours [h]"])
     for r in demo.CONDITIONS[1:]:
         c.append([r[0], r[1] * 9 / 5 + 32, r[2] * 9 / 5 + 32, r[3] / 0.44704, r[4], r[5]])
-    for name, rows in (("Materials", demo.MATERIALS), ("Settings", demo.SETTINGS)):
+    for name, rows in (("Materials", demo.MATERIALS), ("Fluids", demo.FLUIDS), ("Settings", demo.SETTINGS)):
         s = wb.create_sheet(name)
         for r in rows:
             s.append(list(r))
@@ -64,10 +77,15 @@ def test_the_us_copy_of_the_demo_gives_the_same_physics_in_us_units(tmp_path, cl
     assert [x["tag"] for x in us] == [x["tag"] for x in si]
     for a, b in zip(si, us, strict=True):
         assert b["results"]["thickness_m"] == pytest.approx(a["results"]["thickness_m"], rel=1e-9), a["tag"]
-        for key in ("heat_loss_W", "surface_temperature_K", "bare_heat_loss_W"):
-            assert b["results"][key] == pytest.approx(a["results"][key], rel=1e-3), (a["tag"], key)
+        for key in ("heat_loss_W", "surface_temperature_K", "bare_heat_loss_W", "outlet_temperature_K",
+                    "condensate_kg_per_s", "time_to_freeze_s", "time_to_cool_s"):
+            if a["results"][key] is None:
+                assert b["results"][key] is None, (a["tag"], key)
+            else:
+                assert b["results"][key] == pytest.approx(a["results"][key], rel=1e-3), (a["tag"], key)
     heads = [c.value for c in openpyxl.load_workbook(tmp_path / "us-out.xlsx")["Lines"][1]]
-    for h in ("Thickness [in]", "Surface temperature [°F]", "Heat loss [Btu/h]", "Heat loss per length [Btu/(h·ft)]"):
+    for h in ("Thickness [in]", "Surface temperature [°F]", "Heat loss [Btu/h]", "Heat loss per length [Btu/(h·ft)]",
+              "Outlet temperature [°F]", "Condensate [lb/h]", "Time to freeze [h]", "Time to cool [h]"):
         assert h in heads
 
 

@@ -18,6 +18,10 @@ HEADERS = ["Tag", "Area", "Service", "Shape", "Size", "Outside diameter [mm]", "
            "Max surface temperature [°C]", "Max heat loss [W/m]", "Prevent condensation",
            "Min thickness [mm]", "Fixed thickness [mm]", "Surface area [m²]", "Outer insulation",
            "Economic"]
+# process columns, filled from PROCESS below (tag -> {header: value})
+PROCESS_HEADERS = ["Fluid", "Flow rate [kg/s]", "Operating pressure [bar]", "Max temperature drop [K]",
+                   "Freeze protection [h]", "Schedule", "Contents volume [m³]", "Hold time [h]",
+                   "Min temperature [°C]", "Part of"]
 
 # (tag, area, service, shape, size, od, length, T, condition, insulation, finish, Tsmax, qmax, cond,
 #  tmin, fixed[, surface area, outer insulation, economic])
@@ -74,7 +78,27 @@ LINES = [
     ("TK-8201", "Tank farm", "Heated tank roof", "top", None, None, None, 70, "outdoor", "mineral wool", "aluminium", None, None, None, 50, None, 310),
     ("SP-8301", "Building services", "Chilled glycol buffer sphere", "sphere", None, 3500, None, -5, "outdoor; summer", "cellular glass", "aluminium", None, None, "yes", None, None),
     ("PR-3009", "Process area", "Hot oil to outdoor cooler", "pipe", "NPS 4", None, 80, 230, "outdoor; summer", "mineral wool", "aluminium", 60, 120, None, None, None),
+    ("PR-3010", "Process area", "Hot water to outdoor heaters", "pipe", "NPS 2", None, 260, 90, "outdoor; winter", "mineral wool", "aluminium", 60, None, None, None, None),
+    ("FW-9001", "Utilities", "Fire water ring main, outdoor", "pipe", "NPS 4", None, 150, 8, "outdoor; winter", "cellular glass", "aluminium", None, None, None, None, None),
+    ("FW-9002", "Utilities", "Make-up water, outdoor", "pipe", "NPS 1", None, 60, 12, "outdoor; winter", "elastomeric foam", "pvc", None, None, None, None, None),
+    ("VS-8002", "Process area", "Hot-hold product tank shell", "vessel", None, 2400, 4, 85, "outdoor; winter", "mineral wool", "aluminium", 60, None, None, None, None),
+    ("VS-8002-R", "Process area", "Hot-hold product tank roof", "top", None, None, None, 85, "outdoor; winter", "mineral wool", "aluminium", 60, None, None, None, None, 4.5),
 ]
+
+# invented process data: steam mains (condensate), a flowing hot-water line with a drop limit,
+# hot oil by volume flow (a fluid of the Fluids sheet), stagnant outdoor water (freeze time)
+# and a hot-hold tank whose roof is linked to its shell (cool-down time)
+PROCESS = {
+    "ST-1001": {"Fluid": "steam"},
+    "SD-2001": {"Fluid": "steam", "Operating pressure [bar]": 11.2},
+    "SD-2003": {"Fluid": "steam", "Operating pressure [bar]": 4.8},
+    "PR-3001": {"Fluid": "thermal oil", "Flow rate [kg/s]": "14 m³/h"},
+    "PR-3010": {"Fluid": "water", "Flow rate [kg/s]": 0.35, "Max temperature drop [K]": 3},
+    "FW-9001": {"Fluid": "water", "Freeze protection [h]": 18, "Schedule": "40"},
+    "FW-9002": {"Freeze protection [h]": 8},
+    "VS-8002": {"Fluid": "water", "Contents volume [m³]": 16, "Hold time [h]": 90, "Min temperature [°C]": 65},
+    "VS-8002-R": {"Part of": "VS-8002"},
+}
 
 CONDITIONS = [
     ("Name", "Ambient temperature [°C]", "Surroundings temperature [°C]", "Wind speed [m/s]",
@@ -83,11 +107,17 @@ CONDITIONS = [
     ("outdoor", 5, 0, 4, 80, 8400),
     ("plant room", 28, 28, 0, 70, 6000),
     ("summer", 34, 34, 0, 60, 8400),
+    ("winter", -15, -18, 6, 85, 2000),
 ]
 
 MATERIALS = [
     ("Name", "Cost per volume [EUR/m³]"),
     ("mineral wool", 380),
+]
+
+FLUIDS = [
+    ("Name", "Specific heat [kJ/(kg·K)]", "Density [kg/m³]"),
+    ("thermal oil", 2.6, 760),
 ]
 
 SETTINGS = [
@@ -117,20 +147,24 @@ def write_demo(path: Path) -> None:
     ws["A1"].font = Font(bold=True, size=13)
     ws["A2"] = "Fill with: lagsheet fill demo-plant.xlsx -o demo-plant-filled.xlsx"
     ws.append([])
-    ws.append(HEADERS)
+    ws.append(HEADERS + PROCESS_HEADERS)
     for cell in ws[4]:
         cell.font = Font(bold=True)
     for row in LINES:
-        ws.append(list(row))
+        extra = PROCESS.get(row[0], {})
+        ws.append(list(row) + [None] * (len(HEADERS) - len(row)) + [extra.get(h) for h in PROCESS_HEADERS])
     ws.freeze_panes = "B5"
     for col, width in zip("ABCDEFGHIJKLMNOPQRS", (10, 18, 28, 8, 10, 12, 8, 14, 15, 17, 15, 13, 12, 12,
                                                    11, 12, 11, 15, 9), strict=True):
         ws.column_dimensions[col].width = width
+    for k in range(len(PROCESS_HEADERS)):
+        ws.column_dimensions[openpyxl.utils.get_column_letter(len(HEADERS) + 1 + k)].width = 12
     dv = DataValidation(type="list", formula1='"pipe,riser,vessel,wall,top,underside,sphere"',
                         allow_blank=True)
     ws.add_data_validation(dv)
     dv.add(f"D5:D{4 + len(LINES)}")
-    for name, rows in (("Conditions", CONDITIONS), ("Materials", MATERIALS), ("Settings", SETTINGS)):
+    for name, rows in (("Conditions", CONDITIONS), ("Materials", MATERIALS), ("Fluids", FLUIDS),
+                       ("Settings", SETTINGS)):
         s = wb.create_sheet(name)
         for r in rows:
             s.append(list(r))
