@@ -9,6 +9,7 @@ from __future__ import annotations
 import difflib
 import re
 from dataclasses import dataclass, field
+from operator import itemgetter
 from typing import Any
 
 import numpy as np
@@ -115,14 +116,48 @@ def read_table(sheet: RawSheet, fields, marker: str) -> Table | None:
             c.unit_text = str(sheet.value(hr + 1, c.col)).strip()
         first = hr + 2
         t.units_row = hr + 1
-    t.rows = [r for r in range(first, len(sheet.grid))
-              if any(sheet.value(r, c.col) is not None for c in cols.values())
-              or any((r, c.col) in sheet.uncached for c in cols.values())]
+    t.rows = _data_rows(sheet, first, [c.col for c in cols.values()])
     t.bad = np.zeros(len(t.rows), dtype=bool)
     t.columns = cols
     for c in cols.values():
         _convert(sheet, t, c)
     return t
+
+
+def _data_rows(sheet: RawSheet, first: int, cols: list[int]) -> list[int]:
+    """Rows from ``first`` with a value (or an uncached formula) in one of the columns ``cols``."""
+    wanted = set(cols)
+    uncached = {r for r, c in sheet.uncached if c in wanted}
+    rows = []
+    grid = sheet.grid
+    for r in range(first, len(grid)):
+        row = grid[r]
+        n = len(row)
+        for col in cols:
+            if col < n:
+                v = row[col]
+                if v is not None and v != "":
+                    rows.append(r)
+                    break
+        else:
+            if r in uncached:
+                rows.append(r)
+    return rows
+
+
+def _column(sheet: RawSheet, rows: list[int], col: int) -> list:
+    """``sheet.value(r, col)`` for every row of ``rows`` ('' read as None)."""
+    lines = list(map(sheet.grid.__getitem__, rows))
+    if min(map(len, lines), default=col + 1) > col:  # every row reaches the column (calamine's grid)
+        cells = list(map(itemgetter(col), lines))
+    else:
+        cells = [row[col] if col < len(row) else None for row in lines]
+    return [None if v == "" else v for v in cells]
+
+
+def _text(v) -> str:
+    """A cell as text: a whole float without its '.0'."""
+    return str(v).strip() if not isinstance(v, float) or not v.is_integer() else str(int(v))
 
 
 def _parses(v) -> bool:
@@ -137,28 +172,32 @@ def _parses(v) -> bool:
 
 def _convert(sheet: RawSheet, t: Table, c: Column) -> None:
     f = c.field
-    raw = [sheet.value(r, c.col) for r in t.rows]
+    raw = _column(sheet, t.rows, c.col)
     here = address(t.header_row, c.col)
-    for i, r in enumerate(t.rows):
-        if (r, c.col) in sheet.uncached:
-            t.add(i, Note("error", "formula-not-cached",
-                          f"{f.header!r} is a formula with no saved result; open the workbook in a "
-                          "spreadsheet program, recalculate and save it, then run lagsheet again",
-                          sheet.name, address(r, c.col)))
+    if sheet.uncached:
+        for i, r in enumerate(t.rows):
+            if (r, c.col) in sheet.uncached:
+                t.add(i, Note("error", "formula-not-cached",
+                              f"{f.header!r} is a formula with no saved result; open the workbook in a "
+                              "spreadsheet program, recalculate and save it, then run lagsheet again",
+                              sheet.name, address(r, c.col)))
     if f.kind in (schema.TEXT, schema.YESNO) and f.key != "thicknesses":
-        vals = np.empty(len(raw), dtype=object)
-        for i, v in enumerate(raw):
-            vals[i] = None if v is None else (str(v).strip() if not isinstance(v, float) or not v.is_integer() else str(int(v)))
-            if f.kind == schema.YESNO and vals[i] is not None:
-                w = fold(vals[i])
+        texts = [None if v is None else v.strip() if type(v) is str else _text(v) for v in raw]
+        if f.kind == schema.YESNO:
+            for i, w in enumerate(texts):
+                if w is None:
+                    continue
+                w = fold(w)
                 if w in schema.YES:
-                    vals[i] = True
+                    texts[i] = True
                 elif w in schema.NO:
-                    vals[i] = False
+                    texts[i] = False
                 else:
-                    t.add(i, Note("error", "not-yes-no", f"{f.header!r} must be yes or no: {v!r}",
+                    t.add(i, Note("error", "not-yes-no", f"{f.header!r} must be yes or no: {raw[i]!r}",
                                   sheet.name, address(t.rows[i], c.col)))
-                    vals[i] = None
+                    texts[i] = None
+        vals = np.empty(len(raw), dtype=object)
+        vals[:] = texts
         c.values = vals
         return
     if f.key == "thicknesses":
@@ -175,11 +214,13 @@ def _convert(sheet: RawSheet, t: Table, c: Column) -> None:
                               sheet.name, address(t.rows[i], c.col)))
         return
     difference = f.kind == schema.DIFFERENCE
-    nums = np.full(len(raw), np.nan)
-    plain = []
-    for i, v in enumerate(raw):
-        if v is None:
-            continue
+    # numbers as they are (float or int cells); every other cell is looked at below, in order
+    nan = np.nan
+    nums = np.array([v if type(v) is float else float(v) if type(v) is int else nan for v in raw], dtype=float)
+    plain = [i for i, v in enumerate(raw) if type(v) is float or type(v) is int]
+    others = [i for i, v in enumerate(raw) if v is not None and type(v) is not float and type(v) is not int]
+    for i in others:
+        v = raw[i]
         if isinstance(v, bool) or not isinstance(v, (int, float, str)):
             t.add(i, Note("error", "not-a-number", f"{f.header!r} must be a number: {v!r}",
                           sheet.name, address(t.rows[i], c.col)))
@@ -216,20 +257,25 @@ def _convert(sheet: RawSheet, t: Table, c: Column) -> None:
         plain.append(i)
         nums[i] = float(v)
     if plain:
-        idx = np.array(plain)
+        idx = np.array(sorted(plain))
         vals = nums[idx]
         finite = np.isfinite(vals)
         out = np.full(len(idx), np.nan)
         out[finite] = to_si(vals[finite], c.unit, c.si_unit, difference=difference)
         nums[idx] = out
-    for i in range(len(raw)):
-        if raw[i] is None or np.isnan(nums[i]) and not isinstance(raw[i], float):
-            continue
-        v = nums[i]
-        if not np.isfinite(v) or (f.minimum is not None and v <= f.minimum) or (f.maximum is not None and v > f.maximum):
-            t.add(i, Note("error", "out-of-range", _range_message(f, c, raw[i]),
-                          sheet.name, address(t.rows[i], c.col)))
-            nums[i] = np.nan
+    # a cell is range-checked when it holds something that gave a number (or is a float: NaN)
+    looked = np.array([v is not None for v in raw], dtype=bool)
+    looked &= ~np.isnan(nums) | np.array([isinstance(v, float) for v in raw], dtype=bool)
+    with np.errstate(invalid="ignore"):
+        out_of_range = ~np.isfinite(nums)
+        if f.minimum is not None:
+            out_of_range |= nums <= f.minimum
+        if f.maximum is not None:
+            out_of_range |= nums > f.maximum
+    for i in np.flatnonzero(looked & out_of_range).tolist():
+        t.add(i, Note("error", "out-of-range", _range_message(f, c, raw[i]),
+                      sheet.name, address(t.rows[i], c.col)))
+        nums[i] = np.nan
     c.values = nums
     _plausibility(sheet, t, c, raw, nums)
 
@@ -239,8 +285,8 @@ def _plausibility(sheet: RawSheet, t: Table, c: Column, raw, nums) -> None:
     from . import plausibility
 
     key = c.field.key
-    written = np.array([float(v) if isinstance(v, (int, float)) and not isinstance(v, bool) else np.nan
-                        for v in raw])
+    written = np.array([v if type(v) is float else float(v) if isinstance(v, (int, float)) and not isinstance(v, bool)
+                        else np.nan for v in raw], dtype=float)
     hint = plausibility.suggest(key, str(c.unit), written, nums)
     if hint:
         c.status = "warning" if c.status == "ok" else c.status

@@ -124,7 +124,7 @@ class OdsBook:
                     dst.writestr(info, body, compress_type=info.compress_type)
 
         before = {e.sheet: self.sheet(e.sheet) for e in edits}
-        written = {e.sheet: set(e.values) for e in edits}
+        written = {e.sheet: e.values.keys() for e in edits}  # a view: no copy of every position
         names = set(self._zip.namelist())
 
         def verify(tmp: Path) -> None:

@@ -8,6 +8,7 @@ cell A1, and the addresses of formula cells that carry no cached value. Writing 
 from __future__ import annotations
 
 import re
+from collections.abc import Container
 from dataclasses import dataclass, field
 from functools import lru_cache
 from pathlib import Path
@@ -146,7 +147,7 @@ class Book(Protocol):
     def save(self, edits: list[SheetEdits], out: Path, new_sheets: list[NewSheet] = ()) -> None: ...
 
 
-def kept(before: RawSheet, after_grid, written: set[tuple[int, int]], limit: int = 5) -> list[str]:
+def kept(before: RawSheet, after_grid, written: Container[tuple[int, int]], limit: int = 5) -> list[str]:
     """Addresses of original cells whose value changed although lagsheet did not write them.
 
     ``after_grid`` is the rows of the written sheet from A1 (a list, or any iterable: it is
@@ -204,7 +205,7 @@ def rows_from_a1(sheet):
         yield pad + row
 
 
-def post_write_check(tmp: Path, before: dict[str, RawSheet], written: dict[str, set[tuple[int, int]]],
+def post_write_check(tmp: Path, before: dict[str, RawSheet], written: dict[str, Container[tuple[int, int]]],
                      parts_before: set[str], removed: set[str] = frozenset()) -> None:
     """Reopen what was written: every original part is there and every original cell kept.
 

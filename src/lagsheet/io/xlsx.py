@@ -140,7 +140,9 @@ class XlsxBook:
     def sheet(self, name: str) -> RawSheet:
         if name not in self._raw:
             grid = calamine_grid(self._values, name, self.path)
-            uncached = _uncached_formulas(self._zip.read(self._part(name)).decode("utf-8"))
+            data = self._zip.read(self._part(name))
+            uncached = _uncached_formulas(data.decode("utf-8")) if b"<f" in data or b":f" in data else set()
+            del data
             self._raw[name] = RawSheet(name, grid, uncached)
         return self._raw[name]
 
@@ -176,9 +178,10 @@ class XlsxBook:
                         info = zipfile.ZipInfo(name, time.localtime(time.time())[:6])
                         info.compress_type = zipfile.ZIP_DEFLATED
                         write_pieces(dst, info, pieces, hint)
+            pkg.streams.clear()  # what they hold (the original rows, the cells by row) is no longer needed
 
         before = {e.sheet: self.sheet(e.sheet) for e in edits}
-        written = {e.sheet: set(e.values) for e in edits}
+        written = {e.sheet: e.values.keys() for e in edits}  # a view: no copy of every position
         names = set(self._zip.namelist())
 
         def verify(tmp: Path) -> None:
