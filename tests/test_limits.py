@@ -105,3 +105,21 @@ def test_process_columns_are_written_where_used_in_the_sheets_units(tmp_path, cl
     assert ws.cell(2, heads.index("Condensate [kg/h]") + 1).value == pytest.approx(kg_s * 3600, rel=1e-6)
     assert rep["summary"]["condensate_kg_per_s"] == pytest.approx(kg_s)
     assert np.isfinite(kg_s) and kg_s > 0
+
+
+def test_explain_shows_the_process_results(tmp_path, cli):
+    """explain prints the condensate with its latent heat (CoolProp h_fg at 10 bar(a): 2014.6 kJ/kg, IF97)."""
+    src = write_book(tmp_path / "in.xlsx", [pipe(**{"Fluid": "steam", "Operating pressure [bar]": 10,
+                                                   "Operating temperature [°C]": 180})], HEADERS)
+    r = cli("explain", src, "P-1")
+    assert r.exit_code == 0, r.output
+    assert "Process:" in r.output and "h_fg 2014.6 kJ/kg" in r.output and "kg/h" in r.output
+
+
+def test_check_prints_units_in_brackets(tmp_path, cli):
+    """A message that quotes a header with its unit, 'Length [m]', is printed with the brackets."""
+    row = pipe()
+    row["Length"] = row.pop("Length [m]")
+    src = write_book(tmp_path / "in.xlsx", [row], [h if h != "Length [m]" else "Length" for h in HEADERS])
+    r = cli("check", src)
+    assert "'Length [m]'" in r.output, r.output

@@ -206,6 +206,7 @@ def check(
     quiet: bool = typer.Option(False, "--quiet", "-q", help="Print errors only."),
 ):
     from rich.console import Console
+    from rich.markup import escape
     from rich.table import Table
 
     from .checking import check as run
@@ -221,7 +222,8 @@ def check(
         for col in ("level", "where", "what", "message"):
             table.add_column(col, overflow="fold")
         for n in shown:
-            table.add_row(n.level, f"{n.sheet}!{n.cell}" if n.sheet and n.cell else n.sheet, n.code, n.message)
+            table.add_row(n.level, f"{n.sheet}!{n.cell}" if n.sheet and n.cell else n.sheet, n.code,
+                          escape(n.message))  # '[m]' in a message is text, not rich markup
         console.print(table)
     errors = sum(n.level == "error" for n in outcome.notes)
     warnings = sum(n.level == "warning" for n in outcome.notes)

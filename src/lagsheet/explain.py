@@ -94,6 +94,7 @@ def explain(inputs: Inputs, raw: RawSheet, res: Results, i: int) -> list[str]:
     out.append(f"  governing: {v['governing'][i]}" + (f" at '{v['governing_condition'][i]}'"
                                                       if v["governing_condition"][i] else ""))
     out.append(f"  chosen: {v['layers'][i]}")
+    out += _process(L, v, i, us)
     cur = inputs.settings["currency"]
     out += ["", f"Energy and money at '{cond.name}': annual energy {v['annual_energy'][i]:,.0f} kWh, "
             f"cost {v['annual_cost'][i]:,.0f} {cur}, saving {v['annual_saving'][i]:,.0f} {cur}, "
@@ -103,3 +104,22 @@ def explain(inputs: Inputs, raw: RawSheet, res: Results, i: int) -> list[str]:
     out += ["", "Cautions: surface limits depend on contact time and surface material (ASTM C1055, ISO 13732-1); "
             "follow local codes, the owner's specification and licensed practice."]
     return out
+
+
+def _process(L, v, i: int, us: bool) -> list[str]:
+    """The process results of the line (outlet, condensate, freeze and cool-down), if any."""
+    P, out = L.process, []
+    if np.isfinite(v["outlet_temperature"][i]):
+        out.append(f"  outlet temperature {show(float(v['outlet_temperature'][i]), 'temperature', us)} after "
+                   f"the line's length, flow {P.m_dot:.4g} kg/s of {P.label} (c_p {P.cp:.0f} J/(kg·K) at the "
+                   "inlet; marched with the coefficient re-evaluated along the line)")
+    if np.isfinite(v["condensate"][i]):
+        out.append(f"  condensate {v['condensate'][i] * 3600:.2f} kg/h = heat loss / h_fg "
+                   f"{P.h_fg / 1000:.1f} kJ/kg (saturation {show(P.t_sat, 'temperature', us)}, CoolProp)")
+    if np.isfinite(v["time_to_freeze"][i]):
+        out.append(f"  time to freeze {v['time_to_freeze'][i] / 3600:.1f} h (bore "
+                   f"{show(P.bore, 'radius', us)}; required {P.freeze / 3600:g} h)")
+    if np.isfinite(v["time_to_cool"][i]):
+        out.append(f"  time to cool {v['time_to_cool'][i] / 3600:.1f} h to {show(P.t_limit, 'temperature', us)} "
+                   f"({P.volume:g} m³ of {P.label}; required {P.hold / 3600:g} h)")
+    return ["", "Process:"] + out if out else []
