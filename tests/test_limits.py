@@ -123,3 +123,10 @@ def test_check_prints_units_in_brackets(tmp_path, cli):
     src = write_book(tmp_path / "in.xlsx", [row], [h if h != "Length [m]" else "Length" for h in HEADERS])
     r = cli("check", src)
     assert "'Length [m]'" in r.output, r.output
+
+
+def test_a_steam_flow_is_not_needed_and_not_an_error(tmp_path):
+    """A steam line's condensate comes from its heat loss: a flow in m³/h is accepted and not used."""
+    res, notes = notes_of(tmp_path, pipe(**{"Fluid": "steam", "Flow rate [kg/s]": "500 m³/h"}))
+    assert res.status[0] == "ok", [n.message for n in res.notes[0]]
+    assert res.values["condensate"][0] > 0 and np.isnan(res.values["outlet_temperature"][0])

@@ -40,6 +40,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, replace
+from functools import lru_cache
 
 import numpy as np
 
@@ -132,15 +133,14 @@ def resolve_process(t, inputs, i: int, L, num, text, err, warn) -> None:
         return
     p = P.pressure if np.isfinite(P.pressure) else P_ATM
     if P.steam:
-        sat = saturation(p=P.pressure) if np.isfinite(P.pressure) else saturation(t=L.t_op)
-        P.t_sat, P.h_fg = float(sat.t), float(sat.h_fg)
+        P.t_sat, P.h_fg = _saturation_p(P.pressure) if np.isfinite(P.pressure) else _saturation_t(L.t_op)
         if not np.isfinite(P.h_fg):
             err("steam-state", "operating_pressure" if np.isfinite(P.pressure) else "operating_temperature",
                 "saturated steam needs a temperature between 0.01 °C and 373.9 °C (or a pressure between "
                 "0.006 bar and 220 bar absolute); check the value and its unit")
             return
         if np.isfinite(P.pressure) and L.t_op < P.t_sat - STEAM_TOLERANCE_K:
-            gauge = float(saturation(p=P.pressure + P_ATM).t)
+            gauge = _saturation_p(P.pressure + P_ATM)[0]
             warn("steam-state", "operating_pressure",
                  f"steam at {show(P.pressure, 'pressure', us)} (absolute) condenses at "
                  f"{show(P.t_sat, 'temperature', us)}, above the operating temperature "
@@ -159,20 +159,18 @@ def resolve_process(t, inputs, i: int, L, num, text, err, warn) -> None:
             err("water-boils", "operating_pressure", f"water at {show(L.t_op, 'temperature', us)} boils at "
                 "1 atm: give its 'Operating pressure' (absolute), or 'Fluid' steam for a steam line")
             return
-        props = fluid_properties(P.coolprop, L.t_op, p)
-        P.cp, P.density = float(props.cp), float(props.density)
+        P.cp, P.density = _state(P.coolprop, L.t_op, p)
         if not np.isfinite(P.cp):
             err("fluid-state", "fluid", f"CoolProp has no single-phase state of {P.coolprop} at "
                 f"{show(L.t_op, 'temperature', us)} and {show(p, 'pressure', us)}")
             return
     else:
         P.cp, P.density = P.user_cp, P.user_density
-    if np.isfinite(flow):
+    if np.isfinite(flow) and not P.steam:  # a steam line's condensate comes from its heat loss, not its flow
         col = t.columns["flow_rate"]
         volumetric = (col.si_unit == "m**3/s") != (i in col.alternate)
         if volumetric:
-            rho = P.density if not P.steam else float(fluid_properties("Water", P.t_sat, P.pressure
-                                                                       if np.isfinite(P.pressure) else P_ATM).density)
+            rho = P.density
             if not np.isfinite(rho):
                 err("no-density", "flow_rate", f"a volume flow needs the density of {label!r}: give "
                     "'Density' on the Fluids sheet, or the flow in kg/s")
@@ -196,6 +194,25 @@ def resolve_process(t, inputs, i: int, L, num, text, err, warn) -> None:
         if P.user_cp == P.user_cp and not np.isfinite(P.user_density):
             err("no-density", "fluid", f"'Contents volume' needs the density of {label!r}: give "
                 "'Density' on the Fluids sheet")
+
+
+# CoolProp once per distinct state of a schedule, not once per line
+@lru_cache(maxsize=4096)
+def _state(fluid: str, t: float, p: float) -> tuple[float, float]:
+    props = fluid_properties(fluid, t, p)
+    return float(props.cp), float(props.density)
+
+
+@lru_cache(maxsize=4096)
+def _saturation_p(p: float) -> tuple[float, float]:
+    sat = saturation(p=p)
+    return float(sat.t), float(sat.h_fg)
+
+
+@lru_cache(maxsize=4096)
+def _saturation_t(t: float) -> tuple[float, float]:
+    sat = saturation(t=t)
+    return float(sat.t), float(sat.h_fg)
 
 
 def _freeze_inputs(t, i, L, num, text, err, warn) -> None:
