@@ -11,8 +11,10 @@ added. Text is written as string cells, never as a formula.
 
 from __future__ import annotations
 
+import copy
 import re
 import zipfile
+from functools import lru_cache
 from pathlib import Path
 from typing import Any
 from xml.sax.saxutils import escape, quoteattr
@@ -121,15 +123,16 @@ class OdsBook:
             with zipfile.ZipFile(tmp, "w") as dst:
                 for info in self._zip.infolist():
                     body = data if info.filename == "content.xml" else self._zip.read(info.filename)
-                    dst.writestr(info, body, compress_type=info.compress_type)
+                    # a copy: writing fills in sizes, and the input's entries must stay as read
+                    dst.writestr(copy.copy(info), body, compress_type=info.compress_type)
 
         before = {e.sheet: self.sheet(e.sheet) for e in edits}
         written = {e.sheet: e.values.keys() for e in edits}  # a view: no copy of every position
         names = set(self._zip.namelist())
 
         def verify(tmp: Path) -> None:
-            VERIFIERS[".ods"](tmp)
-            post_write_check(tmp, before, written, names)
+            reopened = VERIFIERS[".ods"](tmp)  # calamine reads a whole .ods when it opens it: once
+            post_write_check(tmp, before, written, names, reopened=reopened)
 
         atomic_write(out, write, like=self.path, verify=verify)
 
@@ -231,18 +234,30 @@ def _unescape(s: str) -> str:
             .replace("&apos;", "'").replace("&amp;", "&"))
 
 
+@lru_cache(maxsize=64)
+def _attr_re(name: str) -> re.Pattern:
+    return re.compile(rf'\b{re.escape(name)}="([^"]*)"')
+
+
+@lru_cache(maxsize=64)
+def _set_attr_re(name: str) -> re.Pattern:
+    return re.compile(rf'\s{re.escape(name)}="[^"]*"')
+
+
 def _attr(tag: str, name: str) -> str | None:
-    m = re.search(rf'\b{re.escape(name)}="([^"]*)"', tag)
+    if name not in tag:
+        return None
+    m = _attr_re(name).search(tag)
     return m.group(1) if m else None
 
 
 def _set_attr(tag: str, name: str, value: str | None) -> str:
     """Set, replace or (value None) remove an attribute in a start tag."""
-    pat = rf'\s{re.escape(name)}="[^"]*"'
+    pat = _set_attr_re(name)
     if value is None:
-        return re.sub(pat, "", tag, count=1)
-    if re.search(pat, tag):
-        return re.sub(pat, f' {name}="{value}"', tag, count=1)
+        return pat.sub("", tag, count=1) if name in tag else tag
+    if name in tag and pat.search(tag):
+        return pat.sub(f' {name}="{value}"', tag, count=1)
     end = tag.rfind("/>") if tag.endswith("/>") else tag.rfind(">")
     return tag[:end] + f' {name}="{value}"' + tag[end:]
 
@@ -348,6 +363,12 @@ class _TablePatch:
     def __init__(self, xml: str, e: SheetEdits, n: _Names, styles: _AutoStyles):
         self.xml, self.e, self.n, self.styles = xml, e, n, styles
         self.t, self.o = n.table, n.office
+        t = n.table
+        # _cells_re with the start tag's attributes as group 2 (the same matches)
+        self._cell_start_re = re.compile(rf"<{t}:(table-cell|covered-table-cell)\b([^>]*?)(?:/>|>.*?</{t}:\1>)",
+                                         re.S)
+        self._floats: dict[tuple, str] = {}  # (number format, header style) -> the cell's start
+        self._strings: dict[tuple, str] = {}  # (text, header style) -> the whole cell
 
     def run(self) -> str:
         xml = _strip_our_annotations(self.xml, self.n)
@@ -394,9 +415,12 @@ class _TablePatch:
         if not positions:
             return found
         rows = {r for r, _ in positions}
+        last = max(rows)
         r = 0
         cell_re = _cells_re(self.n)
         for rm in _rows(xml, self.n).finditer(xml):
+            if r > last:
+                break
             row = rm.group(0)
             rep = int(_attr(row[:row.find(">") + 1], f"{self.t}:number-rows-repeated") or 1)
             if any(r <= x < r + rep for x in rows):
@@ -454,21 +478,30 @@ class _TablePatch:
             body = row[len(head):-len(close)]
         out, pos, c = [], 0, 0
         todo = sorted(cells)
-        k = 0
-        for cm in _cells_re(self.n).finditer(body):
-            tok = cm.group(0)
-            tag = tok[:tok.find(">") + 1]
-            rep = int(_attr(tag, f"{t}:number-columns-repeated") or 1)
+        k, n_todo = 0, len(todo)
+        repeated = f"{t}:number-columns-repeated"
+        last_end = 0
+        for cm in self._cell_start_re.finditer(body):  # the cells; those we write in are split
+            if k >= n_todo:
+                break  # the rest of the row is copied as it is
+            attrs = cm.group(2)
+            rep = int(_attr(attrs, repeated) or 1) if repeated in attrs else 1
+            last_end = cm.end()
+            if todo[k] >= c + rep:  # nothing of ours in this one: it stays in the text as it is
+                c += rep
+                continue
             hits = []
-            while k < len(todo) and todo[k] < c + rep:
+            while k < n_todo and todo[k] < c + rep:
                 hits.append(todo[k])
                 k += 1
             out.append(body[pos:cm.start()])
-            out.append(_split(tok, f"{t}:number-columns-repeated", c, rep, hits,
-                              lambda one, h: self._cell(one, r, h, cells[h], notes.get((r, h)), header_src))
-                       if hits else tok)
+            out.append(_split(cm.group(0), repeated, c, rep, hits,
+                              lambda one, h: self._cell(one, r, h, cells[h], notes.get((r, h)), header_src)))
             pos = cm.end()
             c += rep
+        else:  # every cell was seen (c is the row's width): ours past the last one go after it
+            out.append(body[pos:last_end])
+            pos = last_end
         tail = body[pos:]
         for h in todo[k:]:  # past the row's last cell
             if h > c:
@@ -489,6 +522,25 @@ class _TablePatch:
         fmt = self.e.number_formats.get((r, c))
         if v is None:
             return f"<{t}:table-cell/>"
+        if type(v) is float:  # the same text as below, its start made once per format
+            key = (fmt, style)
+            head = self._floats.get(key)
+            if head is None:
+                s = self.styles.cell(fmt) or style
+                sattr = f' {t}:style-name="{s}"' if s else ""
+                head = self._floats[key] = f'<{t}:table-cell{sattr} {o}:value-type="float" {o}:value="'
+            x = repr(v)
+            return f'{head}{x}"><{self.n.text}:p>{x}</{self.n.text}:p></{t}:table-cell>'
+        if type(v) is str and not note:
+            key = (v, style)
+            cell = self._strings.get(key)
+            if cell is None:
+                if len(self._strings) > 50000:
+                    self._strings.clear()
+                sattr = f' {t}:style-name="{style}"' if style else ""
+                cell = self._strings[key] = (f'<{t}:table-cell{sattr} {o}:value-type="string"><{self.n.text}:p>'
+                                             f"{_text(v)}</{self.n.text}:p></{t}:table-cell>")
+            return cell
         if isinstance(v, bool):
             v = "yes" if v else "no"
         if isinstance(v, (int, float)):
@@ -516,10 +568,11 @@ def _split(tok: str, attr: str, first: int, count: int, hits: list[int], make) -
     place around ``hits``: the runs between keep the element (with their repeat counts), each
     hit becomes ``make(single_copy, position)``."""
     parts, start = [], first
+    one = _repeat(tok, attr, 1) if hits else ""
     for h in hits:
         if h > start:
             parts.append(_repeat(tok, attr, h - start))
-        parts.append(make(_repeat(tok, attr, 1), h))
+        parts.append(make(one, h))
         start = h + 1
     if first + count > start:
         parts.append(_repeat(tok, attr, first + count - start))

@@ -74,8 +74,10 @@ def remove_stale_temps(out: Path) -> list[str]:
     return removed
 
 
-def verify_workbook(path: Path, *, required: str = "[Content_Types].xml") -> None:
-    """A written workbook is a sound zip (every member's CRC) holding ``required``, that calamine opens."""
+def verify_workbook(path: Path, *, required: str = "[Content_Types].xml"):
+    """A written workbook is a sound zip (every member's CRC) holding ``required``, that calamine opens.
+
+    Returns the calamine workbook it opened (the post-write check reads it further)."""
     import python_calamine
 
     try:
@@ -85,11 +87,13 @@ def verify_workbook(path: Path, *, required: str = "[Content_Types].xml") -> Non
                 raise WorkbookError(f"the written file failed its check (member {bad!r} is corrupt)")
             if required not in zf.namelist():
                 raise WorkbookError(f"the written file failed its check (no {required})")
-        python_calamine.CalamineWorkbook.from_path(str(path)).sheet_names  # noqa: B018
+        reopened = python_calamine.CalamineWorkbook.from_path(str(path))
+        reopened.sheet_names  # noqa: B018
     except WorkbookError:
         raise
     except Exception as exc:  # any failure to reopen means the file must not replace anything
         raise WorkbookError(f"the written file failed its check ({type(exc).__name__}: {exc})") from None
+    return reopened
 
 
 BLOCK = 1 << 20  # characters encoded and compressed at a time by write_pieces
@@ -126,7 +130,7 @@ def write_pieces(dst: zipfile.ZipFile, info: zipfile.ZipInfo, pieces: Callable[[
             pending.popleft().result()
 
 
-VERIFIERS: dict[str, Callable[[Path], None]] = {
+VERIFIERS: dict[str, Callable[[Path], object]] = {
     ".xlsx": verify_workbook, ".xlsm": verify_workbook,
     ".ods": lambda p: verify_workbook(p, required="content.xml"),
 }

@@ -206,8 +206,10 @@ def rows_from_a1(sheet):
 
 
 def post_write_check(tmp: Path, before: dict[str, RawSheet], written: dict[str, Container[tuple[int, int]]],
-                     parts_before: set[str], removed: set[str] = frozenset()) -> None:
+                     parts_before: set[str], removed: set[str] = frozenset(), reopened=None) -> None:
     """Reopen what was written: every original part is there and every original cell kept.
+
+    ``reopened``: the calamine workbook of ``tmp`` if the caller has opened it already.
 
     Raises :class:`~lagsheet.errors.WorkbookError` (the temporary file is then discarded,
     and the previous output stays as it was).
@@ -223,7 +225,7 @@ def post_write_check(tmp: Path, before: dict[str, RawSheet], written: dict[str, 
     if missing:
         raise WorkbookError(f"the written file lacks parts of the input ({', '.join(missing[:5])}); "
                             "nothing was written. Please report this with the workbook")
-    wb = python_calamine.CalamineWorkbook.from_path(str(tmp))
+    wb = reopened if reopened is not None else python_calamine.CalamineWorkbook.from_path(str(tmp))
     for name, raw in before.items():
         bad = kept(raw, rows_from_a1(wb.get_sheet_by_name(name)), written.get(name, set()))
         if bad:
