@@ -64,6 +64,13 @@ UNITS = {
     "max_heat_loss": ["W/m", "W/m²", "W/m2", "Btu/h/ft", "Btu/(h·ft)", "W", "", "kW/m", "W/mK"],
     "min_thickness": ["mm", "in", "m", '"', "", "°C"],
     "fixed_thickness": ["mm", "in", "m", '"', "", "K"],
+    "flow_rate": ["kg/s", "m³/h", "kg/h", "lb/h", "", "m/s", "l/min"],
+    "operating_pressure": ["bar", "psi", "kPa", "MPa", "", "K", "atm"],
+    "inside_diameter": ["mm", "in", "", "m"],
+    "max_temperature_drop": ["K", "°C", "°F", "delta_degC", "", "mm"],
+    "freeze_protection": ["h", "min", "s", "day", "", "m"],
+    "hold_time": ["h", "min", "", "kg"],
+    "contents_volume": ["m³", "m3", "l", "gallon", "ft³", "", "m²"],
 }
 WORDS = {
     "shape": [*schema.SHAPES, "Pipe", " RISER ", "cone", "", "pipe horizontal", 7],
@@ -77,6 +84,10 @@ WORDS = {
                   "@here"],
     "prevent_condensation": ["yes", "no", "y", "n", "x", "maybe", True, False, 1, 0],
     "economic": ["yes", "no", "true", "oui", "?", True, 0],
+    "fluid": ["water", "steam", "Water", "air", "nitrogen", "saturated steam", "unobtainium oil",
+              "INCOMP::MEG[0.3]", "INCOMP::nothing", "", "R134a", 3],
+    "schedule": ["40", "STD", "80", "XS", "Sch 40", "160", "", 40],
+    "part_of": ["P-1", "P-2", "P-9", "", None, 1],
 }
 QUANTITIES = ["2 in", "150 °F", "3/4\"", "60 W/m²", "10 ft", "-40 °C", "1e308 °F", "5 furlongs", "12,5 mm",
               "0.5 m", "NaN", "inf", "-inf", "1e400", "", " ", "=A1*2", "+5", "-5", "@SUM(A1)"]
@@ -97,11 +108,15 @@ PLAUSIBLE = {
     "operating_temperature": (-50, 600), "surface_emissivity": (0.05, 0.95),
     "max_surface_temperature": (40, 70), "max_heat_loss": (10, 300), "min_thickness": (0, 100),
     "fixed_thickness": (0, 200),
+    "flow_rate": (0.01, 50), "operating_pressure": (0.5, 40), "inside_diameter": (10, 900),
+    "max_temperature_drop": (0.5, 20), "freeze_protection": (1, 72), "contents_volume": (0.5, 100),
+    "hold_time": (1, 200), "min_temperature": (0, 200),
 }
 VALID_WORDS = {"shape": list(schema.SHAPE_WORDS), "size": ["NPS 4", "DN 100", '4"', "NPS 1 1/2"],
                "insulation": WORDS["insulation"][:6], "outer_insulation": WORDS["outer_insulation"][:3],
                "finish": WORDS["finish"][:6], "condition": WORDS["condition"][:4],
-               "prevent_condensation": ["yes", "no"], "economic": ["no"]}
+               "prevent_condensation": ["yes", "no"], "economic": ["no"], "fluid": ["water", "steam", "air"],
+               "schedule": ["40", "80"], "part_of": ["P-1", "P-2"]}
 
 CLEAN = {"shape": ["pipe", "riser"], "size": VALID_WORDS["size"], "insulation": ["mineral wool", "calcium silicate"],
          "finish": VALID_WORDS["finish"], "condition": ["indoor", "outdoor", ""], "length": (1, 500),
@@ -155,6 +170,11 @@ def header_for(draw, key: str, clean: bool = False) -> tuple[str, str | None]:
 
 
 KEYS = [f.key for f in schema.LINE_FIELDS]
+PROCESS_BUNDLES = [
+    ["fluid", "flow_rate", "max_temperature_drop", "operating_pressure"],
+    ["fluid", "freeze_protection", "schedule", "inside_diameter", "condition"],
+    ["fluid", "contents_volume", "hold_time", "min_temperature", "part_of", "surface_area"],
+]
 
 
 @st.composite
@@ -171,6 +191,8 @@ def workbooks(draw) -> dict:
         keys += [k for k in ("size", "length", "insulation") if draw(st.integers(0, 3)) > 0]
         keys += draw(st.lists(st.sampled_from([k for k in KEYS if k not in keys and k not in required]),
                               max_size=8, unique=True))
+        if draw(st.integers(0, 2)) == 0:  # a bundle of process columns, so they meet each other
+            keys += [k for k in draw(st.sampled_from(PROCESS_BUNDLES)) if k not in keys]
         if draw(st.integers(0, 9)) == 0:
             keys.append(draw(st.sampled_from(keys or KEYS)))  # a duplicated column
     keys = draw(st.permutations(keys))
@@ -193,6 +215,11 @@ def workbooks(draw) -> dict:
             ["Name", "Ambient temperature [°C]", "Wind speed [m/s]", "Relative humidity [%]"],
             *([draw(st.sampled_from(["indoor", "outdoor", "plant room", "x"])), draw(numbers),
                draw(numbers), draw(st.one_of(numbers, odd))] for _ in range(draw(st.integers(1, 2))))]
+    if draw(st.integers(0, 3)) == 0:
+        sheets["Fluids"] = [["Name", "Specific heat [kJ/(kg·K)]", "Density [kg/m³]"],
+                            *([draw(st.sampled_from(["unobtainium oil", "oil", "water", ""])),
+                               draw(st.one_of(numbers, odd)), draw(st.one_of(numbers, odd))]
+                              for _ in range(draw(st.integers(1, 2))))]
     if draw(st.booleans()):
         sheets["Settings"] = [["Setting", "Value", "Unit"],
                               *([draw(st.sampled_from([s[0] for s in schema.SETTINGS.values()] + ["Colour"])),

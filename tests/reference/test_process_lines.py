@@ -285,3 +285,23 @@ def test_vessel_time_to_cool_with_its_roof_equals_an_ode_and_conserves_energy(tm
     alone, _ = run(tmp_path, [rows[0]])
     assert alone.values["time_to_cool"][0] > res.values["time_to_cool"][v] * 1.05
     assert any(n.code == "part-of" and "T-1" in n.message for n in res.notes[r])
+
+
+def test_eight_nodes_judge_freezing_as_the_reported_24_do(tmp_path):
+    """The candidate search integrates the cool-down with 8 Gauss–Legendre nodes, the reported value with
+    24: over every sold thickness of a line the two agree within 1e-4 (so the search picks the same)."""
+    from lagsheet.physics import process as pp
+
+    res, ix = run(tmp_path, [pipe("F", **{"Operating temperature [°C]": 60, "Condition": "winter",
+                                           "Insulation": "mineral wool", "Fluid": "water",
+                                           "Freeze protection [h]": 1, "Schedule": "40",
+                                           "Max surface temperature [°C]": None})])
+    s = at(res, ix["F"], CONDITIONS[3])
+    sold = np.array(library.materials()["mineral wool"].thicknesses)
+    many = per_line(s, np.zeros(len(sold), dtype=int), thickness=sold[:, None] * np.ones((1, s.thickness.shape[1]))
+                    * np.r_[1.0, np.zeros(s.thickness.shape[1] - 1)])
+    u = pp.loss_coefficient(many, res.table)
+    di, do = _bore_nps4_sch40()
+    args = (many.t_operating, many.t_air, u, np.pi / 4 * di**2, np.pi / 4 * (do**2 - di**2) * STEEL_RHO, STEEL_CP)
+    t8, t24 = pp.freeze_time(*args, nodes=8).total, pp.freeze_time(*args, nodes=24).total
+    assert np.all(np.isfinite(t24)) and np.max(np.abs(t8 / t24 - 1)) < 1e-4
