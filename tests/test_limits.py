@@ -130,3 +130,20 @@ def test_a_steam_flow_is_not_needed_and_not_an_error(tmp_path):
     res, notes = notes_of(tmp_path, pipe(**{"Fluid": "steam", "Flow rate [kg/s]": "500 m³/h"}))
     assert res.status[0] == "ok", [n.message for n in res.notes[0]]
     assert res.values["condensate"][0] > 0 and np.isnan(res.values["outlet_temperature"][0])
+
+
+def test_a_linked_part_with_errors_is_left_out_and_said(tmp_path):
+    """A roof linked to a vessel but in error is not counted (not as bare either); the vessel says so."""
+    headers = HEADERS + ["Surface area [m²]"]
+    vessel = pipe("T-1", **{"Shape": "vessel", "Size": None, "Outside diameter [mm]": 2000, "Length [m]": 3,
+                            "Operating temperature [°C]": 80, "Fluid": "water", "Contents volume [m³]": 8,
+                            "Hold time [h]": 1, "Min temperature [°C]": 60, "Max surface temperature [°C]": None})
+    roof = pipe("T-1R", **{"Shape": "top", "Size": None, "Surface area [m²]": 3.1, "Length [m]": None,
+                           "Operating temperature [°C]": 80, "Part of": "T-1", "Insulation": "unobtainium"})
+    _, inputs = load(write_book(tmp_path / "a.xlsx", [vessel, roof], headers))
+    res = specify(inputs)
+    _, inputs = load(write_book(tmp_path / "b.xlsx", [vessel], headers))
+    alone = specify(inputs)
+    assert res.status[1] == "error"
+    assert res.values["time_to_cool"][0] == pytest.approx(alone.values["time_to_cool"][0], rel=1e-12)
+    assert any(n.code == "part-of" and "T-1R" in n.message for n in res.notes[0])

@@ -282,7 +282,7 @@ def targets(lines, ok, cases: System, starts, case_line, cand, table: MaterialTa
         ua = c.heat_rate * factor[case_line][:, None] / np.where(t_in != ta, t_in - ta, np.nan)
         m_dot = np.array([P.m_dot for P in procs])[case_line][:, None]
         cp = np.array([P.cp for P in procs])[case_line][:, None]
-        drop = np.abs(t_in - pp.outlet_temperature_closed(t_in, ta, ua, 1.0, m_dot, cp))
+        drop = np.where(t_in == ta, 0.0, np.abs(t_in - pp.outlet_temperature_closed(t_in, ta, ua, 1.0, m_dot, cp)))
         limit = np.array([P.max_drop for P in procs])[case_line][:, None]
         given["temperature drop"] = drop_given
         meets["temperature drop"] = all_cases(np.where(np.isfinite(drop), drop <= limit + 1e-9, False))
@@ -333,6 +333,10 @@ def parts_of(lines, tags, res, t) -> dict[int, list[int]]:
             res.notes[i].append(Note("warning", "part-of", f"'Part of' {name!r} is not the Tag of another "
                                      "line; its heat loss is not added to any vessel", t.sheet,
                                      t.cell(i, "part_of")))
+        elif not L.ok:
+            res.notes[v].append(Note("warning", "part-of", f"{tags[i] or 'a line'} is linked by 'Part of' but "
+                                     "has errors: its heat loss is left out of the time to cool", t.sheet,
+                                     t.cell(v, "hold_time")))
         elif not np.isfinite(lines[v].process.hold):
             res.notes[i].append(Note("info", "part-of", f"'Part of' {name!r}: that line has no 'Hold time', "
                                      "so nothing is added up", t.sheet, t.cell(i, "part_of")))
