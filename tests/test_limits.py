@@ -147,3 +147,14 @@ def test_a_linked_part_with_errors_is_left_out_and_said(tmp_path):
     assert res.status[1] == "error"
     assert res.values["time_to_cool"][0] == pytest.approx(alone.values["time_to_cool"][0], rel=1e-12)
     assert any(n.code == "part-of" and "T-1R" in n.message for n in res.notes[0])
+
+
+def test_a_temperature_difference_typed_with_its_unit_is_a_difference(tmp_path):
+    """'9 °F' in a 'Max temperature drop [K]' column is 5 K (a difference, NIST SP 811: 1 °F = 5/9 K);
+    in a '[°F]' column '150 °F' stays 150 °F. The fuzzer found the second raising a pint error."""
+    for header, cell, expected in (("Max temperature drop [K]", "9 °F", 5.0),
+                                   ("Max temperature drop [°F]", "150 °F", 150 * 5 / 9)):
+        heads = [h if not h.startswith("Max temperature drop") else header for h in HEADERS]
+        row = pipe(**{"Fluid": "water", "Flow rate [kg/s]": 1, "Operating temperature [°C]": 60, header: cell})
+        _, inputs = load(write_book(tmp_path / "in.xlsx", [row], heads))
+        assert inputs.lines.get("max_temperature_drop")[0] == pytest.approx(expected)

@@ -112,10 +112,10 @@ def to_si(values, unit: pint.Unit, si: str, *, difference: bool = False) -> np.n
     With ``difference=True`` an offset temperature unit is read as a difference.
     """
     values = np.asarray(values, dtype=float)
-    if difference:
-        name = str(unit)
-        unit = UREG.parse_units(_DIFFERENCE.get(_short(name), name))
-    return UREG.Quantity(values, unit).to(parse_unit(si)).magnitude
+    target = parse_unit(si)
+    if difference:  # both sides: a difference in °F converts to one in °C (or K), not to a temperature
+        unit, target = (UREG.parse_units(_DIFFERENCE.get(_short(str(u)), str(u))) for u in (unit, target))
+    return UREG.Quantity(values, unit).to(target).magnitude
 
 
 def from_si(values, si: str, unit_text: str, *, difference: bool = False) -> np.ndarray:
