@@ -91,11 +91,6 @@ class Process:
     def flowing(self) -> bool:
         return np.isfinite(self.m_dot) and not self.steam
 
-    @property
-    def any(self) -> bool:
-        return bool(self.label) or np.isfinite(self.m_dot) or np.isfinite(self.freeze) \
-            or np.isfinite(self.hold) or self.part_of is not None
-
 
 def resolve_process(t, inputs, i: int, L, num, text, err, warn) -> None:
     """Fill ``L.process`` from the line's process columns; ``err``/``warn`` note problems."""
@@ -293,14 +288,14 @@ def targets(lines, ok, cases: System, starts, case_line, cand, table: MaterialTa
                              for i, P in enumerate(procs)])
     if freeze_given.any():
         idx = np.flatnonzero(freeze_given)
-        hours = _freeze_time(lines, idx, _coldest(lines, idx, starts), cases, cand[idx], table,
-                             settings, SELECT_NODES)
+        seconds = _freeze_time(lines, idx, _coldest(lines, idx, starts), cases, cand[idx], table,
+                               settings, SELECT_NODES)
         met = np.zeros((n, m), dtype=bool)
-        met[idx] = hours >= np.array([procs[i].freeze for i in idx])[:, None]
+        met[idx] = seconds >= np.array([procs[i].freeze for i in idx])[:, None]
         given["freeze protection"] = freeze_given
         meets["freeze protection"] = met
         values["freeze protection"] = np.full((n, m), np.nan)
-        values["freeze protection"][idx] = hours
+        values["freeze protection"][idx] = seconds
     hold_given = np.array([ok[i] and np.isfinite(P.hold) and np.isfinite(P.volume) and np.isfinite(P.t_limit)
                            for i, P in enumerate(procs)])
     if hold_given.any():
