@@ -20,7 +20,7 @@ from .errors import Note, WorkbookError
 from .inputs import Inputs, read_inputs
 from .io import open_book
 from .io.table import SheetEdits, address, fold
-from .resolve import resolve
+from .resolve import Columns, resolve
 
 
 @dataclass
@@ -68,9 +68,10 @@ def check(path: Path, sheet: str = "Lines", annotate: Path | None = None) -> Che
         out.notes.extend(unknown_headers(inputs, raw.grid[t.header_row]))
         tags = t.get("tag")
         seen: dict[str, int] = {}
+        cols = Columns(t)
         for i in range(len(t.rows)):
             line_notes = list(t.cell_notes.get(i, []))
-            resolve(t, inputs, i, line_notes)
+            resolve(t, inputs, i, line_notes, cols)
             tag = tags[i] if tags is not None else None
             if not tag:
                 line_notes.append(Note("error", "blank-tag", "'Tag' is blank; give every line a unique tag",

@@ -11,7 +11,9 @@ import difflib
 import itertools
 import math
 import re
+from collections.abc import Sequence
 from dataclasses import dataclass, field
+from functools import lru_cache
 
 import numpy as np
 
@@ -52,7 +54,7 @@ class Line:
     materials: list[library.Material] = field(default_factory=list)  # inner first
     emissivity: float = np.nan
     bare_emissivity: float = np.nan
-    candidates: list[tuple[float, ...]] = field(default_factory=list)  # thickness per slot [m]
+    candidates: Sequence[tuple[float, ...]] = ()  # thickness per slot [m]; may be shared, never mutate
     fixed: bool = False
     economic: bool = False
     process: Process = field(default_factory=Process)
@@ -72,13 +74,40 @@ def sold(material: library.Material, settings: dict) -> tuple[float, ...]:
     return base
 
 
+@lru_cache(maxsize=1024)
+def _single(thicknesses: tuple[float, ...]) -> tuple[tuple[float, ...], ...]:
+    """One-material candidates, shared by every line of that material (never mutated)."""
+    return tuple((th,) for th in thicknesses)
+
+
+@lru_cache(maxsize=1024)
+def _pairs(inner: tuple[float, ...], outer: tuple[float, ...]) -> tuple[tuple[float, ...], ...]:
+    """Inner × outer candidates, thinnest in total first (then the thinner inner layer)."""
+    return tuple(sorted(itertools.product(inner, outer), key=lambda p: (p[0] + p[1], p[0])))
+
+
+class Columns:
+    """A checked table's columns as Python lists, read once for the loop over lines
+    (an element of a list is about ten times cheaper to take than one of an array)."""
+
+    def __init__(self, t: Table):
+        self.lists = {k: (c.values.tolist() if isinstance(c.values, np.ndarray) else list(c.values))
+                      for k, c in t.columns.items() if c.values is not None}
+
+    def get(self, key: str):
+        return self.lists.get(key)
+
+
 def split_conditions(text: str) -> list[str]:
     return [p.strip() for p in re.split(r"[;,]", text) if p.strip()]
 
 
-def resolve(t: Table, inputs: Inputs, i: int, notes: list[Note]) -> Line:
+def resolve(t: Table, inputs: Inputs, i: int, notes: list[Note], cols: Columns | None = None) -> Line:
+    """Line ``i`` of ``t``; ``cols`` (:class:`Columns` of ``t``) spares re-reading the columns
+    when every line is resolved."""
     L = Line()
     sheet, us, st = t.sheet, inputs.us_units, inputs.settings
+    cols = cols if cols is not None else Columns(t)
 
     def err(code: str, key: str, message: str):
         cell = t.cell(i, key)
@@ -88,11 +117,11 @@ def resolve(t: Table, inputs: Inputs, i: int, notes: list[Note]) -> Line:
         notes.append(Note("error", code, message, sheet, cell))
 
     def text(key):
-        v = t.get(key)
+        v = cols.get(key)
         return None if v is None or v[i] in (None, "") else str(v[i])
 
     def num(key):
-        v = t.get(key)
+        v = cols.get(key)
         return float(v[i]) if v is not None else np.nan
 
     words = ", ".join(schema.SHAPE_WORDS)
@@ -123,7 +152,7 @@ def resolve(t: Table, inputs: Inputs, i: int, notes: list[Note]) -> Line:
     eps = num("surface_emissivity")
     L.emissivity = eps if np.isfinite(eps) else (fin.emissivity if fin else np.nan)
     L.bare_emissivity = float(st["bare_emissivity"])
-    economic = t.get("economic")
+    economic = cols.get("economic")
     L.economic = economic is not None and economic[i] is True
     if np.isfinite(fixed):
         L.fixed = True
@@ -137,11 +166,11 @@ def resolve(t: Table, inputs: Inputs, i: int, notes: list[Note]) -> Line:
         else:
             L.candidates = [(fixed,)]
     elif len(L.materials) == 1:
-        L.candidates = [(th,) for th in sold(L.materials[0], st)]
+        L.candidates = _single(sold(L.materials[0], st))
     elif len(L.materials) == 2:
         inner = sold(L.materials[0], st)[:MAX_PAIR_CANDIDATES]
         outer = sold(L.materials[1], st)
-        L.candidates = sorted(itertools.product(inner, outer), key=lambda p: (p[0] + p[1], p[0]))
+        L.candidates = _pairs(inner, outer)
 
     def warn(code: str, key: str, message: str):
         notes.append(Note("warning", code, message, sheet, t.cell(i, key)))

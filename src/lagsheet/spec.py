@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from functools import lru_cache
 
 import numpy as np
 
@@ -25,7 +26,7 @@ from .physics.layers import CYLINDER, FLAT, SPHERE, MaterialTable
 from .physics.properties import dew_point
 from .physics.sizing import evaluate, heat_rate, per_line
 from .physics.surface import CORRELATION_NAMES, linearised_h
-from .resolve import Line, resolve
+from .resolve import Columns, Line, resolve
 
 GOVERNING_ORDER = ("surface temperature", "condensation", "heat loss", "temperature drop",
                    "freeze protection", "hold time", "interface", "minimum")
@@ -117,9 +118,10 @@ def _specify(inputs: Inputs) -> Results:
         return res
     us, st = inputs.us_units, inputs.settings
     lines = []
+    cols = Columns(t)
     for i in range(n):
         res.notes[i].extend(t.cell_notes.get(i, []))
-        L = resolve(t, inputs, i, res.notes[i])
+        L = resolve(t, inputs, i, res.notes[i], cols)
         L.ok = L.ok and not t.bad[i]
         lines.append(L)
     _check_tags(t, res, lines)
@@ -174,11 +176,15 @@ def _specify(inputs: Inputs) -> Results:
                      wind=np.array([c.wind for c in case_cond]))
     width = max(len(L.candidates) for L in lines) or 1
     cand = np.full((n, width, slots), np.nan)
+    shared: dict[int, tuple] = {}  # lines of one material share one candidates object: one block each
     for i, L in enumerate(lines):
         if ok[i]:
-            for k, c in enumerate(L.candidates):
-                cand[i, k, :len(c)] = c
-                cand[i, k, len(c):] = 0.0
+            shared.setdefault(id(L.candidates), (L.candidates, []))[1].append(i)
+    for cands, members in shared.values():
+        block = np.zeros((len(cands), slots))
+        for k, c in enumerate(cands):
+            block[k, :len(c)] = c
+        cand[np.array(members)[:, None], np.arange(len(cands))[None, :]] = block
     total = cand.sum(axis=2)
 
     # the engine: every candidate of every case in one call
@@ -475,6 +481,16 @@ def _installed_cost(lines, cand, base, st, res, t):
 
 def layers_text(th: np.ndarray, materials: list[library.Material], us: bool,
                 t_interface: float = np.nan) -> str:
+    text, count = _layer_words(tuple(float(x) for x in th), tuple(materials), us)
+    if count == 2 and np.isfinite(t_interface):
+        text += f" (interface {show(t_interface, 'temperature', us)})"
+    return text
+
+
+@lru_cache(maxsize=4096)
+def _layer_words(th: tuple[float, ...], materials: tuple[library.Material, ...],
+                 us: bool) -> tuple[str, int]:
+    """('2 × 50 mm calcium silicate + 40 mm mineral wool', 2): few distinct systems in a schedule."""
     parts = []
     for thick, m in zip(th, materials, strict=False):
         if thick <= 0:
@@ -482,10 +498,7 @@ def layers_text(th: np.ndarray, materials: list[library.Material], us: bool,
         count = max(1, math.ceil(thick / m.max_layer - 1e-9)) if np.isfinite(m.max_layer) else 1
         each = show(thick / count, "thickness", us)
         parts.append(f"{count} × {each} {m.name}" if count > 1 else f"{each} {m.name}")
-    text = " + ".join(parts) if parts else "bare"
-    if len(parts) == 2 and np.isfinite(t_interface):
-        text += f" (interface {show(t_interface, 'temperature', us)})"
-    return text
+    return (" + ".join(parts) if parts else "bare"), len(parts)
 
 
 def _notes(i, L, res, t, th, c, k, start, case_cond, given, meets, sol, loss, bare_loss, r_crit,
@@ -517,7 +530,8 @@ def _notes(i, L, res, t, th, c, k, start, case_cond, given, meets, sol, loss, ba
                              f"any sold thickness: {show(c.t_surface[j, last], 'temperature', us)} at {thick}"
                              f"{at(j)}, the thickest of {names}")
             elif name == "heat loss":
-                per_area = bool(_per_area(t, res.n)[i])
+                col = t.columns["max_heat_loss"]
+                per_area = (col.si_unit == "W/m**2") != (i in col.alternate)  # _per_area, one line
                 kind = "per_area" if per_area else "per_length"
                 size = np.abs(c.q[:, last]) if per_area else np.abs(c.heat_rate[:, last])
                 j = max(cases, key=lambda j: size[j])
