@@ -67,11 +67,15 @@ def _print_summary(outcome, out: Path, quiet: bool) -> None:
 
 @app.command(help="Size and evaluate every line and write the filled workbook to OUT.\n\n" + CAUTION)
 def fill(
-    file: Path = typer.Argument(..., exists=True, dir_okay=False, help="The schedule (.xlsx/.xlsm)."),
+    file: Path = typer.Argument(..., exists=True, dir_okay=False, help="The schedule (.xlsx, .xlsm or .ods)."),
     output: Path = typer.Option(None, "-o", "--output", dir_okay=False, help="Where to write the filled workbook."),
     report: Path = typer.Option(None, "--report", dir_okay=False, help="Also write the JSON report here."),
     sheet: str = typer.Option("Lines", "--sheet", help="The sheet holding the lines."),
     in_place: bool = typer.Option(False, "--in-place", help="Overwrite the input (a backup copy is kept)."),
+    allow_loss: bool = typer.Option(False, "--allow-loss",
+                                    help="Write even if the check of the written file finds input content "
+                                         "changed or missing (each loss is listed as a warning). Without it "
+                                         "such a run writes nothing and exits 2."),
     ignore_lock: bool = typer.Option(False, "--ignore-lock",
                                      help="Write even if a spreadsheet program's lock file says the output "
                                           "is open (for a stale lock left by a crash)."),
@@ -81,7 +85,7 @@ def fill(
 
     with _progress(quiet) as stage:
         outcome = _guarded(lambda: run(file, output, sheet=sheet, report_path=report, in_place=in_place,
-                                       ignore_lock=ignore_lock, progress=stage))
+                                       ignore_lock=ignore_lock, allow_loss=allow_loss, progress=stage))
     _print_summary(outcome, file if in_place else output, quiet)
     raise typer.Exit(outcome.exit_code)
 

@@ -71,7 +71,8 @@ def load(path: Path, sheet: str = "Lines"):
 
 
 def fill(path: Path, out: Path | None, *, sheet: str = "Lines", report_path: Path | None = None,
-         in_place: bool = False, ignore_lock: bool = False, progress=None) -> Outcome:
+         in_place: bool = False, ignore_lock: bool = False, allow_loss: bool = False,
+         progress=None) -> Outcome:
     """Size and evaluate every line of ``path`` and write the filled workbook to ``out``.
 
     ``progress``, if given, is called with the name of each stage as it starts
@@ -130,7 +131,11 @@ def fill(path: Path, out: Path | None, *, sheet: str = "Lines", report_path: Pat
         atomic_copy(path, backup)
         inputs.notes.append(Note("info", "backup", f"the input was kept as {backup.name}"))
     rep = report.build(inputs, res, path, out)
-    book.save(edits, out, [summary(inputs, res), quantities_table(inputs, res)])
+    losses = book.save(edits, out, [summary(inputs, res), quantities_table(inputs, res)], allow_loss=allow_loss)
+    for loss in losses:  # only with --allow-loss: otherwise the save refused
+        note = Note("warning", "content-lost", f"{loss}; written anyway because --allow-loss was given")
+        inputs.notes.append(note)
+        rep["notes"].append(note.as_dict())
     if report_path is not None:
         report.write(rep, report_path)
     errors = any(s == "error" for s in res.status) or any(

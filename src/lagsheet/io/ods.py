@@ -104,7 +104,7 @@ class OdsBook:
             self._raw[name] = RawSheet(name, grid, _uncached(self._content[a:b], self.n))
         return self._raw[name]
 
-    def save(self, edits: list[SheetEdits], out: Path, new_sheets=()) -> None:
+    def save(self, edits: list[SheetEdits], out: Path, new_sheets=(), allow_loss: bool = False) -> list[str]:
         content = _declare(self._content, self.n)
         styles = _AutoStyles(content, self.n)
         for e in edits:
@@ -130,11 +130,15 @@ class OdsBook:
         written = {e.sheet: e.values.keys() for e in edits}  # a view: no copy of every position
         names = set(self._zip.namelist())
 
+        losses: list[str] = []
+
         def verify(tmp: Path) -> None:
             reopened = VERIFIERS[".ods"](tmp)  # calamine reads a whole .ods when it opens it: once
-            post_write_check(tmp, before, written, names, reopened=reopened)
+            losses.extend(post_write_check(tmp, before, written, names, reopened=reopened,
+                                           allow_loss=allow_loss))
 
         atomic_write(out, write, like=self.path, verify=verify)
+        return losses
 
 
 def _new_table(sheet, n: _Names, styles: _AutoStyles) -> str:

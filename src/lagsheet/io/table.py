@@ -144,7 +144,8 @@ class Book(Protocol):
 
     def sheet(self, name: str) -> RawSheet: ...
 
-    def save(self, edits: list[SheetEdits], out: Path, new_sheets: list[NewSheet] = ()) -> None: ...
+    def save(self, edits: list[SheetEdits], out: Path, new_sheets: list[NewSheet] = (),
+             allow_loss: bool = False) -> list[str]: ...
 
 
 def kept(before: RawSheet, after_grid, written: Container[tuple[int, int]], limit: int = 5) -> list[str]:
@@ -206,13 +207,15 @@ def rows_from_a1(sheet):
 
 
 def post_write_check(tmp: Path, before: dict[str, RawSheet], written: dict[str, Container[tuple[int, int]]],
-                     parts_before: set[str], removed: set[str] = frozenset(), reopened=None) -> None:
+                     parts_before: set[str], removed: set[str] = frozenset(), reopened=None,
+                     allow_loss: bool = False) -> list[str]:
     """Reopen what was written: every original part is there and every original cell kept.
 
     ``reopened``: the calamine workbook of ``tmp`` if the caller has opened it already.
 
-    Raises :class:`~lagsheet.errors.WorkbookError` (the temporary file is then discarded,
-    and the previous output stays as it was).
+    Raises :class:`~lagsheet.errors.WorkbookError` on the first loss (the temporary file
+    is then discarded, and the previous output stays as it was), unless ``allow_loss``:
+    then every loss is returned, in words, and the file is kept.
     """
     import zipfile
 
@@ -222,12 +225,18 @@ def post_write_check(tmp: Path, before: dict[str, RawSheet], written: dict[str, 
 
     with zipfile.ZipFile(tmp) as z:
         missing = sorted(parts_before - set(z.namelist()) - set(removed))
+    losses = []
+    nothing = ("; nothing was written (give --allow-loss to write it anyway). Please report this with "
+               "the workbook")
     if missing:
-        raise WorkbookError(f"the written file lacks parts of the input ({', '.join(missing[:5])}); "
-                            "nothing was written. Please report this with the workbook")
+        losses.append(f"the written file lacks parts of the input ({', '.join(missing[:5])})")
+        if not allow_loss:
+            raise WorkbookError(losses[-1] + nothing)
     wb = reopened if reopened is not None else python_calamine.CalamineWorkbook.from_path(str(tmp))
     for name, raw in before.items():
         bad = kept(raw, rows_from_a1(wb.get_sheet_by_name(name)), written.get(name, set()))
         if bad:
-            raise WorkbookError(f"the written file changed cells lagsheet does not write ({name}!"
-                                f"{', '.join(bad)}); nothing was written. Please report this with the workbook")
+            losses.append(f"the written file changed cells lagsheet does not write ({name}!{', '.join(bad)})")
+            if not allow_loss:
+                raise WorkbookError(losses[-1] + nothing)
+    return losses

@@ -146,7 +146,7 @@ class XlsxBook:
             self._raw[name] = RawSheet(name, grid, uncached)
         return self._raw[name]
 
-    def save(self, edits: list[SheetEdits], out: Path, new_sheets=()) -> None:
+    def save(self, edits: list[SheetEdits], out: Path, new_sheets=(), allow_loss: bool = False) -> list[str]:
         pkg = _Package(self._zip)
         for e in edits:
             if e.sheet not in self.sheet_names():
@@ -184,11 +184,14 @@ class XlsxBook:
         written = {e.sheet: e.values.keys() for e in edits}  # a view: no copy of every position
         names = set(self._zip.namelist())
 
+        losses: list[str] = []
+
         def verify(tmp: Path) -> None:
             VERIFIERS[out.suffix.lower()](tmp)
-            post_write_check(tmp, before, written, names, pkg.removed)
+            losses.extend(post_write_check(tmp, before, written, names, pkg.removed, allow_loss=allow_loss))
 
         atomic_write(out, write, like=self.path, verify=verify)
+        return losses
 
 
 def _unescape(s: str) -> str:
