@@ -158,3 +158,13 @@ def test_a_temperature_difference_typed_with_its_unit_is_a_difference(tmp_path):
         row = pipe(**{"Fluid": "water", "Flow rate [kg/s]": 1, "Operating temperature [°C]": 60, header: cell})
         _, inputs = load(write_book(tmp_path / "in.xlsx", [row], heads))
         assert inputs.lines.get("max_temperature_drop")[0] == pytest.approx(expected)
+
+
+def test_fill_prints_the_total_steam_condensate(tmp_path, cli):
+    """The closing table adds the condensate of every steam line, in kg/h (the report's kg/s × 3600)."""
+    src = write_book(tmp_path / "in.xlsx", [pipe("S-1", Fluid="steam"), pipe("S-2", Fluid="steam")], HEADERS)
+    r = cli("fill", src, "-o", tmp_path / "out.xlsx", "--report", tmp_path / "r.json")
+    import json
+
+    total = json.loads((tmp_path / "r.json").read_text())["summary"]["condensate_kg_per_s"] * 3600
+    assert "steam condensate" in r.output and f"{total:,.1f} kg/h" in r.output

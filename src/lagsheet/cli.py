@@ -61,6 +61,8 @@ def _print_summary(outcome, out: Path, quiet: bool) -> None:
     table.add_row("heat loss, bare", f"{bare / 1000:,.1f} kW")
     table.add_row("annual cost", f"{s['annual_cost']:,.0f} {cur}")
     table.add_row("annual saving", f"{s['annual_saving']:,.0f} {cur}")
+    if s.get("condensate_kg_per_s"):
+        table.add_row("steam condensate", f"{s['condensate_kg_per_s'] * 3600:,.1f} kg/h")
     table.add_row("written", str(out))
     Console(width=100).print(table)
 
