@@ -3,10 +3,12 @@
 Every name and number here is invented for the demonstration; none is a real site.
 The plant has steam, process and building-services pipes, a vessel, duct walls, a tank
 roof, a duct underside, a chilled sphere, an economic line, a two-material
-high-temperature line and lines judged at two conditions. The problems (a header
+high-temperature line, lines judged at two conditions, and process limits (steam
+condensate, a flowing line's temperature drop, freeze times of standing water and a
+hot-hold tank's cool-down). The problems (a header
 without its unit, a diameter typed as text, a size that disagrees with its diameter,
 a chilled line left without condensation control, a hot line with no surface limit,
-lines with no target) produce warnings, not errors.
+lines with no target, a water line with no pipe schedule) produce warnings, not errors.
 """
 
 from __future__ import annotations
