@@ -44,7 +44,11 @@ class Column:
     message: str = ""
     si_unit: str = ""
     values: np.ndarray | None = None  # SI floats (numbers) or object array (text)
-    alternate: set[int] = field(default_factory=set)  # rows whose cell gave the field's other unit
+    alternate: dict[int, str] = field(default_factory=dict)  # row -> the other SI unit its cell gave
+
+    def si_of(self, i: int) -> str:
+        """The SI unit of row ``i``'s value: the column's, or the other one its own cell gave."""
+        return self.alternate.get(i, self.si_unit)
 
     def report(self, sheet: str) -> dict:
         return {"sheet": sheet, "header": self.header, "field": self.field.key,
@@ -241,7 +245,7 @@ def _convert(sheet: RawSheet, t: Table, c: Column) -> None:
                                   sheet.name, address(t.rows[i], c.col)))
                     continue
                 if si != c.si_unit:
-                    c.alternate.add(i)  # e.g. '60 W/m²' typed in a W/m column
+                    c.alternate[i] = si  # e.g. '60 W/m²' typed in a W/m column
                     nums[i] = to_si([number], unit, si, difference=difference)[0]
                     t.add(i, Note("info", "text-quantity", f"{f.header!r} typed as text {v!r}: read "
                                   f"as {_fmt(nums[i])} {si.replace('**2', '²')}",

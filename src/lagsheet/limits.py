@@ -44,14 +44,15 @@ from functools import lru_cache
 
 import numpy as np
 
+from . import library
 from .display import show
 from .errors import Note
 from .io.table import fold
 from .physics import process as pp
 from .physics.balance import System
-from .physics.layers import CYLINDER, FLAT, MaterialTable
+from .physics.layers import CYLINDER, MaterialTable
 from .physics.properties import P_ATM, coolprop_name, fluid_properties, saturation
-from .physics.sizing import per_line
+from .physics.sizing import per_line, whole_factor
 
 STEAM_WORDS = {"steam", "saturated steam", "wet steam", "dry steam"}
 STEEL_DENSITY = 7850.0  # kg/m³, carbon steel (handbook value, from memory)
@@ -162,9 +163,7 @@ def resolve_process(t, inputs, i: int, L, num, text, err, warn) -> None:
     else:
         P.cp, P.density = P.user_cp, P.user_density
     if np.isfinite(flow) and not P.steam:  # a steam line's condensate comes from its heat loss, not its flow
-        col = t.columns["flow_rate"]
-        volumetric = (col.si_unit == "m**3/s") != (i in col.alternate)
-        if volumetric:
+        if t.columns["flow_rate"].si_of(i) == "m**3/s":  # a volume flow
             rho = P.density
             if not np.isfinite(rho):
                 err("no-density", "flow_rate", f"a volume flow needs the density of {label!r}: give "
@@ -186,7 +185,7 @@ def resolve_process(t, inputs, i: int, L, num, text, err, warn) -> None:
         elif abs(P.t_limit - L.t_op) < 1e-9:
             err("no-limit", "min_temperature", "'Min temperature' equals the operating temperature: "
                 "there is no time to hold")
-        if P.user_cp == P.user_cp and not np.isfinite(P.user_density):
+        if np.isfinite(P.user_cp) and not np.isfinite(P.user_density):
             err("no-density", "fluid", f"'Contents volume' needs the density of {label!r}: give "
                 "'Density' on the Fluids sheet")
 
@@ -211,8 +210,6 @@ def _saturation_t(t: float) -> tuple[float, float]:
 
 
 def _freeze_inputs(t, i, L, num, text, err, warn) -> None:
-    from . import library
-
     P = L.process
     if L.geometry != CYLINDER or L.word == "vessel":
         err("freeze-shape", "freeze_protection", "'Freeze protection' is for pipes and risers (water "
@@ -249,15 +246,20 @@ def _freeze_inputs(t, i, L, num, text, err, warn) -> None:
 # --------------------------------------------------------------------------- targets
 
 
-def _whole_factor(geometry, lengths, areas):
-    """Heat rate -> whole line: × length (cylinders), × area (flats), × 1 (spheres)."""
-    return np.select([geometry == CYLINDER, geometry == FLAT], [lengths, areas], 1.0)
+def _factor(lines, rows) -> np.ndarray:
+    """Heat rate -> whole line for the lines ``rows`` (:func:`~lagsheet.physics.sizing.whole_factor`)."""
+    return whole_factor(*(np.array([getattr(lines[i], a) for i in rows], dtype=float)
+                          for a in ("geometry", "length", "area")))
+
+
+def coldest(line) -> int:
+    """Index among the line's named conditions of the coldest one (freeze and hold time are judged there)."""
+    return int(np.argmin([c.t_air for c in line.conditions]))
 
 
 def _coldest(lines, idx, starts) -> np.ndarray:
     """Case index of the coldest named condition of each line ``idx``."""
-    return np.array([starts[i] + int(np.argmin([c.t_air for c in lines[i].conditions])) for i in idx],
-                    dtype=int)
+    return np.array([starts[i] + coldest(lines[i]) for i in idx], dtype=int)
 
 
 def targets(lines, ok, cases: System, starts, case_line, cand, table: MaterialTable, c, all_cases,
@@ -267,8 +269,7 @@ def targets(lines, ok, cases: System, starts, case_line, cand, table: MaterialTa
     (judged later by :func:`hold_targets`, once their parts are chosen)."""
     n, m, _ = cand.shape
     procs = [L.process for L in lines]
-    factor = _whole_factor(np.array([L.geometry for L in lines]), np.array([L.length for L in lines]),
-                           np.array([L.area for L in lines]))
+    factor = _factor(lines, range(n))
 
     drop_given = np.array([ok[i] and P.flowing and np.isfinite(P.max_drop) for i, P in enumerate(procs)])
     if drop_given.any():
@@ -371,7 +372,7 @@ def _cool_time(lines, idx, case_idx, cases, starts, thickness, table, chosen_th,
     k, m, _ = thickness.shape
     sysp, good = _pairs(cases, case_idx, thickness)
     rep = np.repeat(np.asarray(idx), m)
-    factor = np.array([_whole_factor(lines[i].geometry, lines[i].length, lines[i].area) for i in rep])
+    factor = _factor(lines, rep)
     shell = pp.loss_coefficient(sysp, table, scale=factor)
     owner = [j for j, v in enumerate(rep) for _ in parts.get(int(v), [])]
     rows = [p for v in rep for p in parts.get(int(v), [])]
@@ -382,7 +383,7 @@ def _cool_time(lines, idx, case_idx, cases, starts, thickness, table, chosen_th,
         psys = replace(per_line(cases, np.asarray(starts)[rows_a], thickness=np.nan_to_num(chosen_th[rows_a])),
                        t_air=sysp.t_air[owner_a], t_surroundings=sysp.t_surroundings[owner_a],
                        wind=sysp.wind[owner_a])
-        pf = np.array([_whole_factor(lines[p].geometry, lines[p].length, lines[p].area) for p in rows])
+        pf = _factor(lines, rows)
         ua_p = pp.loss_coefficient(psys, table, scale=pf)
 
         def ua_parts(tt):
@@ -430,8 +431,7 @@ def results(lines, put, first_sys: System, cases: System, starts, chosen_th, tab
     if flowing.any():
         idx = np.flatnonzero(flowing)
         sysf = per_line(first_sys, idx)
-        factor = _whole_factor(sysf.geometry, np.array([lines[i].length for i in idx]),
-                               np.array([lines[i].area for i in idx]))
+        factor = _factor(lines, idx)
         u = pp.loss_coefficient(sysf, table, scale=factor)
         out = pp.outlet_temperature_marching(sysf.t_operating, sysf.t_air, u, 1.0,
                                              np.array([procs[i].m_dot for i in idx]),
@@ -460,7 +460,7 @@ def results(lines, put, first_sys: System, cases: System, starts, chosen_th, tab
                              pp.NODES)[:, 0]
         fraction = float(settings["freeze_fraction"])
         for j, i in enumerate(idx):
-            name = cases_name(lines[i], cold[j] - starts[i])
+            name = lines[i].conditions[cold[j] - starts[i]].name
             if np.isinf(times[j]):
                 note(i, "info", "no-freezing", f"the air at condition '{name}' (the coldest named) is above "
                      "0 °C: standing water does not freeze there", "freeze_protection")
@@ -482,7 +482,7 @@ def results(lines, put, first_sys: System, cases: System, starts, chosen_th, tab
         times = _cool_time(lines, idx, cold, cases, starts, chosen_th[idx][:, None, :], table, chosen_th,
                            parts, pp.NODES)[:, 0]
         for j, i in enumerate(idx):
-            name = cases_name(lines[i], cold[j] - starts[i])
+            name = lines[i].conditions[cold[j] - starts[i]].name
             if np.isfinite(times[j]):
                 v["time_to_cool"][i] = times[j]
             with_parts = len(parts.get(int(i), []))
@@ -493,10 +493,6 @@ def results(lines, put, first_sys: System, cases: System, starts, chosen_th, tab
                  "shell's own heat capacity left out" if np.isfinite(times[j]) else
                  f"the contents never reach {show(procs[i].t_limit, 'temperature', us)} at condition "
                  f"'{name}': the air is at or beyond it", "hold_time")
-
-
-def cases_name(line, k: int) -> str:
-    return line.conditions[k].name
 
 
 def unmet_words(name: str, value: float, thick: str, names: str, us: bool) -> str:

@@ -24,7 +24,7 @@ from .io.table import fold
 from .physics.balance import System, solve
 from .physics.layers import CYLINDER, FLAT, SPHERE, MaterialTable
 from .physics.properties import dew_point
-from .physics.sizing import evaluate, heat_rate, per_line
+from .physics.sizing import evaluate, heat_rate, per_line, whole_factor
 from .physics.surface import CORRELATION_NAMES, linearised_h
 from .resolve import Columns, Line, resolve
 
@@ -314,7 +314,7 @@ def _specify(inputs: Inputs) -> Results:
             gov_cond[i] = case_cond[cs.start + int(np.nanargmax(w[cs]))].name
     for name in ("freeze protection", "hold time"):  # judged at the coldest named condition
         for i in np.flatnonzero(np.array([g == name for g in governing]) & several & ok):
-            gov_cond[i] = min(lines[i].conditions, key=lambda cc: cc.t_air).name
+            gov_cond[i] = lines[i].conditions[limits.coldest(lines[i])].name
     for i in np.flatnonzero(ok & (gov_cond == None)):  # noqa: E711
         gov_cond[i] = lines[i].conditions[0].name
     res.values["governing_condition"][:] = gov_cond
@@ -382,18 +382,14 @@ def _specify(inputs: Inputs) -> Results:
 def _per_area(t, n: int) -> np.ndarray:
     """Per line: is its 'Max heat loss' per square metre of outer surface (else per metre)?"""
     col = t.columns["max_heat_loss"]
-    base = col.si_unit == "W/m**2"
-    out = np.full(n, base)
-    out[list(col.alternate)] = not base
-    return out
+    return np.array([col.si_of(i) == "W/m**2" for i in range(n)], dtype=bool)
 
 
 def _whole(geometry, rate, lengths, areas):
     """Whole-line heat flow [W] from the heat rate: × length (cylinders), × area (flats)."""
     extra = (1,) * (np.ndim(rate) - 1)
-    g = np.reshape(geometry, (-1,) + extra)
-    lengths, areas = np.reshape(lengths, (-1,) + extra), np.reshape(areas, (-1,) + extra)
-    return np.select([g == CYLINDER, g == FLAT], [rate * lengths, rate * areas], rate)
+    return rate * np.reshape(whole_factor(np.asarray(geometry), np.asarray(lengths), np.asarray(areas)),
+                             (-1,) + extra)
 
 
 def _energy_cost(whole, hours, st):
@@ -530,8 +526,7 @@ def _notes(i, L, res, t, th, c, k, start, case_cond, given, meets, sol, loss, ba
                              f"any sold thickness: {show(c.t_surface[j, last], 'temperature', us)} at {thick}"
                              f"{at(j)}, the thickest of {names}")
             elif name == "heat loss":
-                col = t.columns["max_heat_loss"]
-                per_area = (col.si_unit == "W/m**2") != (i in col.alternate)  # _per_area, one line
+                per_area = t.columns["max_heat_loss"].si_of(i) == "W/m**2"
                 kind = "per_area" if per_area else "per_length"
                 size = np.abs(c.q[:, last]) if per_area else np.abs(c.heat_rate[:, last])
                 j = max(cases, key=lambda j: size[j])

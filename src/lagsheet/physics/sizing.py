@@ -14,7 +14,7 @@ from dataclasses import dataclass, fields
 import numpy as np
 
 from .balance import System, solve
-from .layers import CYLINDER, SPHERE, MaterialTable
+from .layers import CYLINDER, FLAT, SPHERE, MaterialTable
 
 
 @dataclass(frozen=True)
@@ -35,6 +35,11 @@ def heat_rate(geometry, q, r_outer):
     """Heat rate from the outer flux: ×2πr per length (cylinder), ×4πr² (sphere), ×1 (flat)."""
     return np.select([geometry == CYLINDER, geometry == SPHERE],
                      [q * 2 * np.pi * r_outer, q * 4 * np.pi * r_outer**2], q)
+
+
+def whole_factor(geometry, lengths, areas):
+    """Heat rate -> whole item: × length (cylinders), × area (flats), × 1 (spheres, already whole)."""
+    return np.select([geometry == CYLINDER, geometry == FLAT], [lengths, areas], 1.0)
 
 
 def per_line(system: System, rows: np.ndarray, **replace) -> System:
