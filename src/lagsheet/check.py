@@ -69,6 +69,7 @@ class Table:
     bad: np.ndarray | None = None  # True where a row has an error from its cells
     last_col: int = 0  # last used column (0-based, exclusive)
     units_row: int | None = None
+    unused: list[tuple[int, str]] = field(default_factory=list)  # (column, header) read as no field
 
     def get(self, key: str, default=None):
         c = self.columns.get(key)
@@ -104,7 +105,8 @@ def read_table(sheet: RawSheet, fields, marker: str) -> Table | None:
         name, unit_text = split_header(str(text))
         f = schema.match(fields, fold(name))
         if f is None:
-            continue  # unknown headers are the user's own columns; never touched
+            t.unused.append((c, str(text).strip()))  # the user's own column: never touched, but reported
+            continue
         if f.key in cols:
             t.notes.append(Note("error", "duplicate-column",
                                 f"column {name!r} appears twice; the second ({address(hr, c)}) is ignored",
@@ -126,6 +128,53 @@ def read_table(sheet: RawSheet, fields, marker: str) -> Table | None:
     for c in cols.values():
         _convert(sheet, t, c)
     return t
+
+
+# Per-line condition fields (WORKBOOK.md section 4) that the Lines sheet does not apply yet.
+LINE_CONDITION_HEADERS = {"ambient temperature": "Ambient temperature", "wind speed": "Wind speed",
+                          "relative humidity": "Relative humidity",
+                          "surroundings temperature": "Surroundings temperature",
+                          "solar irradiance": "Solar irradiance"}
+_CONDITION_WORDS = {**{k: v for k, v in LINE_CONDITION_HEADERS.items()},
+                    **{a: f.header for f in schema.CONDITION_FIELDS if f.header in LINE_CONDITION_HEADERS.values()
+                       for a in f.aliases},
+                    "solar": "Solar irradiance", "irradiance": "Solar irradiance", "solar radiation": "Solar irradiance"}
+
+
+def unused_columns(t: Table, fields, outputs=()) -> list[Note]:
+    """A warning for every header of ``t`` that is no field and none of ``outputs``: the column is
+    not used, with the nearest field if one is close. On Lines, a per-line condition column says
+    that it is not applied and that the line is computed at its named condition."""
+    known = {}
+    for f in fields:
+        known.setdefault(fold(f.header), f)
+        for a in f.aliases:
+            known.setdefault(a, f)
+    skip = {fold(o) for o in outputs}
+    notes = []
+    for c, text in t.unused:
+        name = fold(split_header(text)[0])
+        if name in skip:
+            continue
+        where = address(t.header_row, c)
+        cond = _CONDITION_WORDS.get(name) if fields is schema.LINE_FIELDS else None
+        if cond is not None:
+            notes.append(Note("warning", "condition-column",
+                              f"column {text!r} ({cond!r} of a line) is not applied yet: each line is computed "
+                              "at its named 'Condition' (indoor when blank); put these values in a row of the "
+                              "Conditions sheet and name that row in the line's 'Condition'", t.sheet, where))
+            continue
+        near = difflib.get_close_matches(name, list(known), n=1, cutoff=0.75)
+        if near:
+            f = known[near[0]]
+            aliases = ", ".join(repr(a) for a in f.aliases) or "none"
+            hint = (f"; did you mean {f.header!r}{' [' + f.unit + ']' if f.unit else ''}? "
+                    f"(also accepted: {aliases})")
+        else:
+            hint = "; it is kept as it is (rename it to a lagsheet header if it was meant as an input)"
+        notes.append(Note("warning", "unknown-header",
+                          f"column {text!r} on {t.sheet!r} is not used by lagsheet" + hint, t.sheet, where))
+    return notes
 
 
 def _data_rows(sheet: RawSheet, first: int, cols: list[int]) -> list[int]:

@@ -10,17 +10,19 @@ sheet and cell. ``--annotate`` saves a copy with a comment on every offending ce
 
 from __future__ import annotations
 
-import difflib
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from . import schema
-from .check import split_header
 from .errors import Note, WorkbookError
 from .inputs import Inputs, read_inputs
 from .io import open_book
-from .io.table import SheetEdits, address, fold
-from .resolve import Columns, resolve
+from .io.table import SheetEdits
+from .resolve import resolve_lines
+
+# Error codes only the calculation can give (a target no sold thickness meets, a balance that
+# does not converge, a conductivity outside its data): `fill` reports them, `check` cannot.
+# Every other error is an input error, decided by reading and resolving, which both commands share.
+COMPUTED = frozenset({"target-not-met", "not-converged", "k-out-of-range"})
 
 
 @dataclass
@@ -30,33 +32,6 @@ class CheckOutcome:
     exit_code: int = 0
 
 
-def unknown_headers(inputs: Inputs, raw_header: list) -> list[Note]:
-    """Headers of Lines that are no field: a note with the closest known header and its aliases."""
-    t = inputs.lines
-    known = {f.header.lower(): f for f in schema.LINE_FIELDS}
-    for f in schema.LINE_FIELDS:
-        for a in f.aliases:
-            known.setdefault(a, f)
-    outputs = {fold(o.header) for o in schema.OUTPUTS}
-    notes = []
-    for c, text in enumerate(raw_header):
-        if not isinstance(text, str) or not text.strip():
-            continue
-        name = fold(split_header(text)[0])
-        if name in known or name in outputs:
-            continue
-        near = difflib.get_close_matches(name, list(known), n=1, cutoff=0.75)
-        if not near:
-            continue  # a column of the user's own: not ours to judge
-        f = known[near[0]]
-        aliases = ", ".join(repr(a) for a in f.aliases) or "none"
-        notes.append(Note("warning", "unknown-header",
-                          f"header {text!r} is not one lagsheet reads; did you mean {f.header!r}"
-                          f"{' [' + f.unit + ']' if f.unit else ''}? (also accepted: {aliases})",
-                          t.sheet, address(t.header_row, c)))
-    return notes
-
-
 def check(path: Path, sheet: str = "Lines", annotate: Path | None = None) -> CheckOutcome:
     book = open_book(Path(path))
     inputs = read_inputs(book, sheet)
@@ -64,23 +39,7 @@ def check(path: Path, sheet: str = "Lines", annotate: Path | None = None) -> Che
     out.notes.extend(inputs.notes)
     t = inputs.lines
     if t is not None:
-        raw = book.sheet(t.sheet)
-        out.notes.extend(unknown_headers(inputs, raw.grid[t.header_row]))
-        tags = t.get("tag")
-        seen: dict[str, int] = {}
-        cols = Columns(t)
-        for i in range(len(t.rows)):
-            line_notes = list(t.cell_notes.get(i, []))
-            resolve(t, inputs, i, line_notes, cols)
-            tag = tags[i] if tags is not None else None
-            if not tag:
-                line_notes.append(Note("error", "blank-tag", "'Tag' is blank; give every line a unique tag",
-                                       t.sheet, t.cell(i, "tag")))
-            elif fold(tag) in seen:
-                line_notes.append(Note("error", "duplicate-tag", f"tag {tag!r} is used again (first in row "
-                                       f"{t.rows[seen[fold(tag)]] + 1})", t.sheet, t.cell(i, "tag")))
-            else:
-                seen[fold(tag)] = i
+        for line_notes in resolve_lines(inputs)[1]:  # the input errors `fill` finds, by the same code
             out.notes.extend(line_notes)
     if annotate is not None:
         if t is None:

@@ -12,7 +12,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from . import library, plausibility, schema
-from .check import Table, read_table, split_header
+from .check import Table, read_table, split_header, unused_columns
 from .errors import Note
 from .io.table import Book, address, fold
 from .units import UnitTextError, is_unit, parse_unit, split_currency, to_si
@@ -85,6 +85,7 @@ def read_inputs(book: Book, lines_sheet: str = "Lines") -> Inputs:
                           "(Tag, Shape, Size, Operating temperature [°C], ...) in one row", name))
     if lines is not None:
         notes.extend(lines.notes)
+        notes.extend(unused_columns(lines, schema.LINE_FIELDS, [o.header for o in schema.OUTPUTS]))
         columns.extend(c.report(lines.sheet) for c in lines.columns.values())
         for req in ("tag", "shape", "operating_temperature"):
             if req not in lines.columns:
@@ -192,6 +193,7 @@ def _conditions(book: Book, notes: list[Note], columns: list[dict]) -> dict[str,
                           "it is ignored", name))
         return out
     notes.extend(t.notes)
+    notes.extend(unused_columns(t, schema.CONDITION_FIELDS))
     columns.extend(c.report(t.sheet) for c in t.columns.values())
     for i in range(len(t.rows)):
         notes.extend(t.cell_notes.get(i, []))
@@ -223,6 +225,7 @@ def _fluids(book: Book, notes: list[Note], columns: list[dict]) -> dict[str, Use
         notes.append(Note("warning", "no-header", "sheet 'Fluids' has no header cell 'Name'; ignored", name))
         return {}
     notes.extend(t.notes)
+    notes.extend(unused_columns(t, schema.FLUID_FIELDS))
     columns.extend(c.report(t.sheet) for c in t.columns.values())
     out: dict[str, UserFluid] = {}
     for i in range(len(t.rows)):
@@ -259,6 +262,7 @@ def _materials(book: Book, notes: list[Note], columns: list[dict]) -> dict[str, 
         notes.append(Note("warning", "no-header", "sheet 'Materials' has no header cell 'Name'; ignored", name))
         return out
     notes.extend(t.notes)
+    notes.extend(unused_columns(t, schema.MATERIAL_FIELDS))
     columns.extend(c.report(t.sheet) for c in t.columns.values())
     groups: dict[str, list[int]] = {}
     names = t.get("name")

@@ -176,7 +176,66 @@ def resolve(t: Table, inputs: Inputs, i: int, notes: list[Note], cols: Columns |
         notes.append(Note("warning", code, message, sheet, t.cell(i, key)))
 
     resolve_process(t, inputs, i, L, num, text, err, warn)
+    _limit_and_costs(L, t, i, inputs, num, err)
     return L
+
+
+def _limit_and_costs(L: Line, t: Table, i: int, inputs: Inputs, num, err) -> None:
+    """Input errors that need the line's shape or materials: a per-length heat-loss limit on a
+    flat line or a sphere, and 'Economic' without the costs it needs."""
+    q = t.columns.get("max_heat_loss")
+    if (q is not None and np.isfinite(num("max_heat_loss")) and q.si_of(i) != "W/m**2"
+            and L.geometry != CYLINDER):
+        err("heat-loss-unit", "max_heat_loss",
+            "'Max heat loss' is per length (W/m) but this line is flat or a sphere; type its limit "
+            "with its unit, e.g. '60 W/m²'")
+    if L.economic and L.materials:
+        st = inputs.settings
+        missing = [f"'Cost per volume' of {m.name} (Materials sheet)" for m in L.materials
+                   if not np.isfinite(m.cost_per_volume)]
+        missing += [f"the setting {name!r}" for name, key in (("Jacket cost per area", "jacket_cost_per_area"),
+                                                           ("Labour per layer", "labour_per_layer"))
+                    if not np.isfinite(float(st[key]))]
+        if missing:
+            err("economic-costs", "economic", "'Economic' needs " + ", ".join(missing) + "; give them, or "
+                "leave 'Economic' blank")
+
+
+def resolve_lines(inputs: Inputs) -> tuple[list[Line], list[list[Note]]]:
+    """Every line of ``inputs.lines`` resolved, with its notes from reading and resolving.
+
+    The one place that decides what is wrong with a line's input: ``check`` and ``fill``
+    both call it, so they report the same input errors.
+    """
+    t = inputs.lines
+    if t is None:
+        return [], []
+    cols = Columns(t)
+    lines, notes = [], []
+    for i in range(len(t.rows)):
+        ns = list(t.cell_notes.get(i, []))
+        L = resolve(t, inputs, i, ns, cols)
+        L.ok = L.ok and not t.bad[i]
+        lines.append(L)
+        notes.append(ns)
+    tags = t.get("tag")
+    seen: dict[str, int] = {}
+    for i, L in enumerate(lines):
+        tag = tags[i] if tags is not None else None
+        if not tag:
+            notes[i].append(Note("error", "blank-tag", "'Tag' is blank; give every line a unique tag",
+                                 t.sheet, t.cell(i, "tag")))
+            L.ok = False
+        elif fold(tag) in seen:
+            notes[i].append(Note("error", "duplicate-tag", f"tag {tag!r} is used again (first in row "
+                                 f"{t.rows[seen[fold(tag)]] + 1}); tags must be unique", t.sheet, t.cell(i, "tag")))
+            L.ok = False
+        else:
+            seen[fold(tag)] = i
+            if fold(tag).startswith("example"):
+                notes[i].append(Note("warning", "example-row", "example row from the lagsheet template: "
+                                     "replace it with your own line or delete it", t.sheet, t.cell(i, "tag")))
+    return lines, notes
 
 
 def _dimensions(L: Line, t: Table, i: int, num, text, err, notes, us) -> None:

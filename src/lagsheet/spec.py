@@ -20,13 +20,12 @@ from . import economics, library, limits
 from .display import show
 from .errors import Note
 from .inputs import Condition, Inputs
-from .io.table import fold
 from .physics.balance import System, solve
 from .physics.layers import CYLINDER, FLAT, SPHERE, MaterialTable
 from .physics.properties import dew_point
 from .physics.sizing import evaluate, heat_rate, per_line, whole_factor
 from .physics.surface import CORRELATION_NAMES, linearised_h
-from .resolve import Columns, Line, resolve
+from .resolve import Line, resolve_lines
 
 GOVERNING_ORDER = ("surface temperature", "condensation", "heat loss", "temperature drop",
                    "freeze protection", "hold time", "interface", "minimum")
@@ -78,28 +77,6 @@ def _dew(c: Condition) -> float:
     return _DEW[key]
 
 
-def _check_tags(t, res: Results, lines: list[Line]) -> None:
-    tags = t.get("tag")
-    seen: dict[str, int] = {}
-    for i, L in enumerate(lines):
-        tag = tags[i] if tags is not None else None
-        res.tags.append(tag or "")
-        if not tag:
-            res.notes[i].append(Note("error", "blank-tag", "'Tag' is blank; give every line a unique tag",
-                                     t.sheet, t.cell(i, "tag")))
-            L.ok = False
-        elif fold(tag) in seen:
-            res.notes[i].append(Note("error", "duplicate-tag", f"tag {tag!r} is used again (first in row "
-                                     f"{t.rows[seen[fold(tag)]] + 1}); tags must be unique",
-                                     t.sheet, t.cell(i, "tag")))
-            L.ok = False
-        else:
-            seen[fold(tag)] = i
-            if fold(tag).startswith("example"):
-                res.notes[i].append(Note("warning", "example-row", "example row from the lagsheet template: "
-                                         "replace it with your own line or delete it", t.sheet, t.cell(i, "tag")))
-
-
 def specify(inputs: Inputs) -> Results:
     """Choose and evaluate the insulation system of every line of ``inputs.lines``.
 
@@ -117,14 +94,11 @@ def _specify(inputs: Inputs) -> Results:
     if t is None or n == 0:
         return res
     us, st = inputs.us_units, inputs.settings
-    lines = []
-    cols = Columns(t)
+    lines, line_notes = resolve_lines(inputs)  # every input error, as `check` reports them
     for i in range(n):
-        res.notes[i].extend(t.cell_notes.get(i, []))
-        L = resolve(t, inputs, i, res.notes[i], cols)
-        L.ok = L.ok and not t.bad[i]
-        lines.append(L)
-    _check_tags(t, res, lines)
+        res.notes[i].extend(line_notes[i])
+    tags = t.get("tag")
+    res.tags.extend((tags[i] if tags is not None else None) or "" for i in range(n))
     res.lines = lines
 
     used: dict[str, library.Material] = {}
@@ -206,13 +180,7 @@ def _specify(inputs: Inputs) -> Results:
     qmax = t.get("max_heat_loss")
     if qmax is not None:
         per_area = _per_area(t, n)
-        g = np.isfinite(qmax)
-        for i in np.flatnonzero(g & ~per_area & (geometry != CYLINDER) & ok):
-            res.notes[i].append(Note("error", "heat-loss-unit",
-                                     "'Max heat loss' is per length (W/m) but this line is flat or a "
-                                     "sphere; type its limit with its unit, e.g. '60 W/m²'", t.sheet,
-                                     t.cell(i, "max_heat_loss")))
-            lines[i].ok = ok[i] = False
+        g = np.isfinite(qmax)  # a per-length limit on a flat line is an input error (resolve)
         measure = np.where(per_area[case_line][:, None], np.abs(c.q), np.abs(c.heat_rate))
         given["heat loss"] = g
         meets["heat loss"] = all_cases(measure <= qmax[case_line][:, None] * (1 + 1e-12))
@@ -451,7 +419,7 @@ def _installed_cost(lines, cand, base, st, res, t):
 
     insulation volume × 'Cost per volume' of its material + outer area × 'Jacket cost per
     area' + Σ over layers of the layer's area at its mid-radius × 'Labour per layer'.
-    Lines with 'Economic' get an error naming what is missing.
+    ('Economic' without a cost it needs is an input error: see resolve.)
     """
     n, m, slots = cand.shape
     jacket = float(st["jacket_cost_per_area"])
@@ -461,17 +429,6 @@ def _installed_cost(lines, cand, base, st, res, t):
                       for L in lines])[:, None, :]
     total = (price * q.volume + labour * q.layer_area).sum(axis=2) + jacket * q.jacket_area
     total = np.where(np.isfinite(cand[:, :, 0]), total, np.nan)
-    for i, L in enumerate(lines):
-        if not (L.economic and L.ok):
-            continue
-        missing = [f"'Cost per volume' of {mm.name} (Materials sheet)" for mm in L.materials
-                   if not np.isfinite(mm.cost_per_volume)]
-        missing += [f"the setting {name!r}" for name, val in (("Jacket cost per area", jacket),
-                                                           ("Labour per layer", labour)) if not np.isfinite(val)]
-        if missing:
-            res.notes[i].append(Note("error", "economic-costs",
-                                     "'Economic' needs " + ", ".join(missing) + "; give them, or leave "
-                                     "'Economic' blank", t.sheet, t.cell(i, "economic")))
     return total
 
 

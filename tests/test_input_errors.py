@@ -1,0 +1,139 @@
+"""What is wrong with the input: every column accounted for, and `check` agreeing with `fill`."""
+
+from __future__ import annotations
+
+import json
+import tempfile
+from pathlib import Path
+
+import pytest
+from hypothesis import event, given, settings
+from hypothesis import strategies as st
+
+from lagsheet.checking import COMPUTED, check
+from lagsheet.errors import WorkbookError
+from lagsheet.pipeline import fill
+from test_fuzz import FUZZ, workbooks, write
+
+from conftest import pipe, write_book
+
+LINE_HEADERS = ["Tag", "Shape", "Size", "Length [m]", "Operating temperature [°C]", "Insulation",
+                "Max surface temperature [°C]"]
+
+
+def _codes(notes) -> set[tuple[str, str, str]]:
+    return {(n["code"], n["sheet"], n["cell"]) for n in notes}
+
+
+def _check_report(tmp_path, src, cli) -> dict:
+    r = cli("check", src, "--report", tmp_path / "check.json")
+    assert r.exit_code in (0, 1), r.output
+    return json.loads((tmp_path / "check.json").read_text(encoding="utf-8"))
+
+
+def _fill_notes(tmp_path, src) -> list[dict]:
+    rep = fill(src, tmp_path / "out.xlsx", report_path=tmp_path / "fill.json").report
+    return rep["notes"] + [n for line in rep["lines"] for n in line["notes"]]
+
+
+def test_per_line_condition_columns_are_reported_as_not_applied(tmp_path, cli):
+    """'Ambient [°C]' and 'Wind [m/s]' on Lines are warnings in check and fill: not applied, named condition used."""
+    head = [*LINE_HEADERS, "Ambient [°C]", "Wind [m/s]"]
+    src = write_book(tmp_path / "in.xlsx", [pipe(**{"Ambient [°C]": -20, "Wind [m/s]": 8})], head)
+    rep = _check_report(tmp_path, src, cli)
+    found = {(n["code"], n["cell"]): n["message"] for n in rep["notes"]}
+    assert set(found) >= {("condition-column", "H1"), ("condition-column", "I1")}
+    assert "not applied" in found[("condition-column", "H1")] and "'Ambient temperature'" in found[("condition-column", "H1")]
+    assert "'Wind speed'" in found[("condition-column", "I1")]
+    assert rep["warnings"] >= 2
+    assert _codes(n for n in _fill_notes(tmp_path, src) if n["code"] == "condition-column") == {
+        ("condition-column", "Lines", "H1"), ("condition-column", "Lines", "I1")}
+
+
+@pytest.mark.parametrize(("header", "near"), [
+    ("Insulaton", "'Insulation'"),
+    ("Max surface temp. [°C]", "'Max surface temperature'"),
+    ("Painter's remark", "kept as it is"),
+])
+def test_every_header_lagsheet_does_not_use_is_a_warning_with_the_nearest_field(tmp_path, cli, header, near):
+    """A header that is no input and none of our outputs is listed, with the nearest field when one is close."""
+    head = [*LINE_HEADERS, header, "Thickness [mm]", "Notes"]
+    src = write_book(tmp_path / "in.xlsx", [pipe(**{header: "x"})], head)
+    rep = _check_report(tmp_path, src, cli)
+    unused = [n for n in rep["notes"] if n["code"] == "unknown-header"]
+    assert [n["cell"] for n in unused] == ["H1"]  # not the outputs 'Thickness' and 'Notes'
+    assert near in unused[0]["message"] and "not used" in unused[0]["message"]
+    assert ("unknown-header", "Lines", "H1") in _codes(_fill_notes(tmp_path, src))
+
+
+def test_unused_columns_of_the_other_sheets_are_listed(tmp_path, cli):
+    """A Conditions column 'Altitude [m]' and a Materials column 'Supplier' are reported on their sheets."""
+    src = write_book(tmp_path / "in.xlsx", [pipe()], LINE_HEADERS, sheets={
+        "Conditions": [["Name", "Ambient temperature [°C]", "Altitude [m]"], ["indoor", 20, 300]],
+        "Materials": [["Name", "Cost per volume [EUR/m³]", "Supplier"], ["mineral wool", 300, "ACME"]]})
+    rep = _check_report(tmp_path, src, cli)
+    assert {("unknown-header", "Conditions", "C1"), ("unknown-header", "Materials", "C1")} <= _codes(rep["notes"])
+
+
+@pytest.mark.parametrize(("row", "code", "cell"), [
+    ({"Shape": "wall", "Size": None, "Surface area [m²]": 12, "Length [m]": 3, "Max heat loss [W/m]": 50},
+     "heat-loss-unit", "H2"),
+    ({"Economic": "yes", "Max surface temperature [°C]": None}, "economic-costs", "I2"),
+])
+def test_check_reports_the_input_errors_fill_reports(tmp_path, cli, row, code, cell):
+    """A per-length limit on a wall and 'Economic' without costs are errors in check as in fill."""
+    head = [*LINE_HEADERS, "Max heat loss [W/m]", "Economic", "Surface area [m²]"]
+    src = write_book(tmp_path / "in.xlsx", [pipe(**row)], head)
+    rep = _check_report(tmp_path, src, cli)
+    assert (code, "Lines", cell) in _codes(n for n in rep["notes"] if n["level"] == "error")
+    assert (code, "Lines", cell) in _codes(n for n in _fill_notes(tmp_path, src) if n["level"] == "error")
+
+
+def input_errors(notes) -> set[tuple[str, str, str]]:
+    return {(n["sheet"], n["cell"], n["code"]) for n in notes
+            if n["level"] == "error" and n["code"] not in COMPUTED}
+
+
+@st.composite
+def near_valid(draw) -> dict:
+    """A schedule of mostly sound lines of every shape, with limits, costs and conditions that
+    only some shapes or settings allow: the errors that need a line's shape or its materials."""
+    head = ["Tag", "Shape", "Size", "Length [m]", "Surface area [m²]", "Operating temperature [°C]",
+            "Insulation", "Condition", draw(st.sampled_from(["Max heat loss [W/m]", "Max heat loss [W/m²]"])),
+            "Economic", "Max surface temperature [°C]"]
+    rows = [head]
+    for i in range(draw(st.integers(1, 4))):
+        rows.append([draw(st.sampled_from([f"L-{i}", f"L-{i}", "L-0", None])),
+                     draw(st.sampled_from(["pipe", "riser", "vessel", "wall", "top", "underside", "sphere"])),
+                     draw(st.sampled_from(["NPS 4", "DN 50", None])), draw(st.sampled_from([10, 3, None])),
+                     draw(st.sampled_from([12, None])), draw(st.sampled_from([150, 250, 5])),
+                     draw(st.sampled_from(["mineral wool", "calcium silicate", "elastomeric foam"])),
+                     draw(st.sampled_from(["indoor", "outdoor", "somewhere"])),
+                     draw(st.sampled_from([None, 80, "60 W/m²", "60 W/m"])),
+                     draw(st.sampled_from([None, "yes", "no"])), draw(st.sampled_from([None, 55]))])
+    sheets = {"Lines": rows}
+    if draw(st.booleans()):
+        sheets["Materials"] = [["Name", "Cost per volume [EUR/m³]"],
+                               [draw(st.sampled_from(["mineral wool", "calcium silicate"])), 300]]
+    if draw(st.booleans()):
+        sheets["Settings"] = [["Setting", "Value", "Unit"], ["Jacket cost per area", 20, "EUR/m²"],
+                              ["Labour per layer", draw(st.sampled_from([15, "x"])), "EUR/m²"]]
+    return sheets
+
+
+@pytest.mark.filterwarnings("ignore::RuntimeWarning")
+@settings(FUZZ)
+@given(st.one_of(workbooks(), near_valid()))
+def test_check_and_fill_find_the_same_input_errors_in_random_workbooks(sheets):
+    """For any workbook, the input errors (sheet, cell, code) of check equal those of fill's report."""
+    with tempfile.TemporaryDirectory() as d:
+        src = write(sheets, Path(d) / "in.xlsx")
+        found = input_errors(n.as_dict() for n in check(src).notes)
+        try:
+            rep = fill(src, Path(d) / "out.xlsx").report
+        except WorkbookError:  # fill stops (exit 2) on a workbook without a usable Lines table
+            event("fill exit 2")
+            assert {c for _, _, c in found} & {"no-lines-sheet", "no-header", "missing-column"}
+            return
+        event("compared")
+        assert input_errors(rep["notes"] + [n for line in rep["lines"] for n in line["notes"]]) == found
