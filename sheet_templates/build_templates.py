@@ -228,7 +228,8 @@ _SETTING_MEANING = {
     "currency": "Currency of every cost and price (any text).",
     "energy_price": "Price of a kWh of delivered heat or electricity.",
     "heating_efficiency": "Converts heat lost to fuel bought.",
-    "cooling_cop": "Converts heat gained to electricity bought.",
+    "cooling_cop": "Converts heat gained to electricity bought. 3.5 is a whole chilled-water plant "
+                   "(chillers, pumps, towers) at about 1 kW per ton of refrigeration (common practice).",
     "emission_factor": "CO2 per kWh bought.",
     "discount_rate": "For the annualised cost of Economic lines.",
     "service_life": "For the annualised cost of Economic lines.",

@@ -74,9 +74,9 @@ def test_a_unit_that_does_not_parse_is_an_error():
 
 
 def test_a_quantity_typed_as_text_is_converted_and_noted():
-    """'2 in' in a mm column is read as 50.8 mm and noted on its cell."""
-    t = read_table(sheet([["Tag", "Outside diameter [mm]"], ["P1", "2 in"]]), schema.LINE_FIELDS, "Tag")
-    assert t.get("outside_diameter")[0] == pytest.approx(0.0508)
+    """'2 in' in a mm thickness column is read as 50.8 mm and noted on its cell (a diameter would be NPS 2)."""
+    t = read_table(sheet([["Tag", "Min thickness [mm]"], ["P1", "2 in"]]), schema.LINE_FIELDS, "Tag")
+    assert t.get("min_thickness")[0] == pytest.approx(0.0508)
     note = t.cell_notes[0][0]
     assert (note.code, note.cell, note.level) == ("text-quantity", "B2", "info")
     assert "50.8 mm" in note.message

@@ -7,12 +7,12 @@ import json
 import openpyxl
 import pytest
 
-from lagsheet import demo
+from lagsheet import demo, library
 
 # exact definitions (NIST SP 811): 1 in = 25.4 mm, 1 ft = 0.3048 m; Btu/(h·ft) = 0.9615194 W/m
 US_HEADERS = {
     "Outside diameter [mm]": ("Outside diameter [in]", lambda v: v / 25.4),
-    "Length": ("Length [ft]", lambda v: v / 0.3048),
+    "Length [m]": ("Length [ft]", lambda v: v / 0.3048),
     "Operating temperature [°C]": ("Operating temperature [°F]", lambda v: v * 9 / 5 + 32),
     "Max surface temperature [°C]": ("Max surface temperature [°F]", lambda v: v * 9 / 5 + 32),
     "Max heat loss [W/m]": ("Max heat loss [Btu/(h·ft)]", lambda v: v / 0.9615194),
@@ -50,7 +50,7 @@ def write_us_demo(path):
             elif isinstance(v, str) and v.endswith("W/m²"):
                 v = f"{float(v.split()[0]) / 3.15459075:.6f} Btu/(h·ft²)"  # 1 Btu/(h·ft²) = 3.15459075 W/m²
             elif h == "Outside diameter [mm]" and isinstance(v, str):
-                pass  # '2 in' stays a text quantity
+                v = library.pipe_outside_diameter(v) / 0.0254  # '2 in' among millimetres is read as NPS 2
             out.append(v)
         ws.append(out)
     c = wb.create_sheet("Conditions")

@@ -40,6 +40,7 @@ class Column:
     header: str
     unit_text: str | None
     unit: Any = None
+    unit_cell: str | None = None  # the units-row cell the unit came from (None: the header)
     status: str = "ok"
     message: str = ""
     si_unit: str = ""
@@ -113,13 +114,18 @@ def read_table(sheet: RawSheet, fields, marker: str) -> Table | None:
                                 sheet.name, address(hr, c)))
             continue
         cols[f.key] = Column(f, c, str(text).strip(), unit_text)
-    # a units row: every unit-less numeric column has a parseable unit just below
+    # a units row: most unit-less numeric columns have a unit just below ('m', '[m]', '(F)');
+    # a cell there that is no unit is an error on that cell, not a reason to read the row as data
     numeric = [c for c in cols.values() if c.field.kind in (schema.NUMBER, schema.TEMPERATURE, schema.DIFFERENCE)]
     bare = [c for c in numeric if c.unit_text is None]
     first = hr + 1
-    if bare and all(_parses(sheet.value(hr + 1, c.col)) for c in bare):
+    below = {c.col: _unwrap(sheet.value(hr + 1, c.col)) for c in bare}
+    if bare and 2 * sum(_parses(u) for u in below.values()) > len(bare):
         for c in bare:
-            c.unit_text = str(sheet.value(hr + 1, c.col)).strip()
+            u = below[c.col]
+            if u not in (None, ""):
+                c.unit_text = str(u).strip()
+                c.unit_cell = address(hr + 1, c.col)
         first = hr + 2
         t.units_row = hr + 1
     t.rows = _data_rows(sheet, first, [c.col for c in cols.values()])
@@ -213,6 +219,15 @@ def _text(v) -> str:
     return str(v).strip() if not isinstance(v, float) or not v.is_integer() else str(int(v))
 
 
+def _unwrap(v):
+    """A units-row cell without its brackets: '[m]' and '(F)' -> 'm' and 'F'."""
+    if isinstance(v, str):
+        m = re.fullmatch(r"\s*[\[(]\s*(.*?)\s*[\])]\s*", v)
+        if m and m.group(1):
+            return m.group(1)
+    return v
+
+
 def _parses(v) -> bool:
     if not isinstance(v, str) or not v.strip():
         return False
@@ -286,6 +301,17 @@ def _convert(sheet: RawSheet, t: Table, c: Column) -> None:
                               f"{f.header!r} must be a number in {unit_label(c.unit)}: {v!r}; "
                               "type the number alone", sheet.name, address(t.rows[i], c.col)))
                 continue
+            if unit is not None and f.key == "outside_diameter" and str(unit) == "inch" and str(c.unit) != "inch":
+                od = _nominal_od(v)
+                if od is not None:  # '2"' among millimetres: a practitioner's nominal size, NPS 2
+                    nums[i] = od
+                    t.add(i, Note("warning", "od-as-nominal-size",
+                                  f"{v!r} in {c.header!r} is read as the nominal size NPS {_text(number)} "
+                                  f"(outside diameter {_fmt(to_si([od], parse_unit('m'), str(c.unit))[0])} "
+                                  f"{unit_label(c.unit)}, ASME B36.10M), not as {_fmt(to_si([number], unit, str(c.unit))[0])} "
+                                  f"{unit_label(c.unit)}; put sizes in 'Size', or type the diameter in "
+                                  f"{unit_label(c.unit)}", sheet.name, address(t.rows[i], c.col)))
+                    continue
             if unit is not None:
                 si = _cell_si(unit, c)
                 if si is None:
@@ -355,6 +381,13 @@ def _plausibility(sheet: RawSheet, t: Table, c: Column, raw, nums) -> None:
             "usual range for this field; check the value and its unit", sheet.name, address(t.rows[i], c.col)))
 
 
+def _nominal_od(text: str) -> float | None:
+    """The outside diameter [m] of an inch-marked nominal size ('2"', '1 1/2 in'), or None."""
+    from .library import pipe_outside_diameter
+
+    return pipe_outside_diameter(text.strip())
+
+
 def _fmt(x: float) -> str:
     return f"{x:.4g}"
 
@@ -385,6 +418,7 @@ def _cell_si(unit, c: Column) -> str | None:
 def _column_unit(t: Table, c: Column, here: str) -> bool:
     """Settle the column's unit; False (with the column marked error) when unusable."""
     f = c.field
+    here = c.unit_cell or here
     if c.unit_text is None or c.unit_text == "":
         c.unit = parse_unit(f.unit)
         c.si_unit = f.si

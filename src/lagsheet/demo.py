@@ -5,17 +5,17 @@ The plant has steam, process and building-services pipes, a vessel, duct walls, 
 roof, a duct underside, a chilled sphere, an economic line, a two-material
 high-temperature line, lines judged at two conditions, and process limits (steam
 condensate, a flowing line's temperature drop, freeze times of standing water and a
-hot-hold tank's cool-down). The problems (a header
-without its unit, a diameter typed as text, a size that disagrees with its diameter,
-a chilled line left without condensation control, a hot line with no surface limit,
-lines with no target, a water line with no pipe schedule) produce warnings, not errors.
+hot-hold tank's cool-down). The problems (a diameter typed as an inch size in the
+millimetre column, a size that disagrees with its diameter, a chilled line left without
+condensation control, a hot line with no surface limit, lines with no target, a water
+line with no pipe schedule) produce warnings, not errors; nothing else is warned about.
 """
 
 from __future__ import annotations
 
 from pathlib import Path
 
-HEADERS = ["Tag", "Area", "Service", "Shape", "Size", "Outside diameter [mm]", "Length",
+HEADERS = ["Tag", "Area", "Service", "Shape", "Size", "Outside diameter [mm]", "Length [m]",
            "Operating temperature [°C]", "Condition", "Insulation", "Finish",
            "Max surface temperature [°C]", "Max heat loss [W/m]", "Prevent condensation",
            "Min thickness [mm]", "Fixed thickness [mm]", "Surface area [m²]", "Outer insulation",

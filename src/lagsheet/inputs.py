@@ -15,7 +15,7 @@ from . import library, plausibility, schema
 from .check import Table, read_table, split_header, unused_columns
 from .errors import Note
 from .io.table import Book, address, fold
-from .units import UnitTextError, is_unit, parse_unit, split_currency, to_si
+from .units import UnitTextError, from_si, is_unit, parse_unit, split_currency, to_si, unit_label
 
 
 @dataclass(frozen=True)
@@ -57,6 +57,7 @@ class Inputs:
     columns: list[dict] = field(default_factory=list)  # column reports (JSON)
     us_units: bool = False
     fluids: dict[str, UserFluid] = field(default_factory=dict)  # folded name -> fluid
+    unusable: dict[str, str] = field(default_factory=dict)  # material key -> its Materials cell in error
 
 
 def _find(book: Book, wanted: str) -> str | None:
@@ -71,7 +72,8 @@ def read_inputs(book: Book, lines_sheet: str = "Lines") -> Inputs:
     columns: list[dict] = []
     settings = _settings(book, notes)
     conditions = _conditions(book, notes, columns)
-    materials = _materials(book, notes, columns)
+    unusable: dict[str, str] = {}
+    materials = _materials(book, notes, columns, unusable)
     fluids = _fluids(book, notes, columns)
     name = _find(book, lines_sheet)
     lines = read_table(book.sheet(name), schema.LINE_FIELDS, "Tag") if name else None
@@ -96,7 +98,7 @@ def read_inputs(book: Book, lines_sheet: str = "Lines") -> Inputs:
                                   address(lines.header_row, 0)))
     us = _us_units(lines)
     return Inputs(lines, conditions, materials, dict(library.finishes()), settings, notes, columns, us,
-                  fluids)
+                  fluids, unusable)
 
 
 def _us_units(t: Table | None) -> bool:
@@ -113,11 +115,6 @@ def _us_units(t: Table | None) -> bool:
         elif any(w in name for w in ("Celsius", "kelvin", "meter", "watt")):
             si += 1
     return us > si
-
-
-# settings that divide or step: 0 is no value for them
-_POSITIVE = {"heating_efficiency", "cooling_cop", "service_life", "thickness_step", "max_thickness",
-             "freeze_fraction"}
 
 
 def _settings(book: Book, notes: list[Note]) -> dict[str, object]:
@@ -165,18 +162,37 @@ def _settings(book: Book, notes: list[Note]) -> dict[str, object]:
             if not is_unit(unit, dim):
                 raise UnitTextError(f"unit {unit_text!r} is not like {dim}")
             converted = float(to_si([number], unit, si, difference=kind == schema.DIFFERENCE)[0])
-            if not np.isfinite(converted) or (key in _POSITIVE and converted <= 0) or converted < 0:
-                raise ValueError("it must be a finite number" + (" above 0" if key in _POSITIVE else " of 0 or more"))
+            lo, closed, hi = schema.SETTING_RANGES[key]
+            if not (np.isfinite(converted) and (converted >= lo if closed else converted > lo) and converted <= hi):
+                raise ValueError(f"it must be {'from' if closed else 'above'} {_show_setting(lo, si, unit)} "
+                                 f"{'to' if closed else 'and at most'} {_show_setting(hi, si, unit)}")
+            if str(unit) == "percent" and 0 < number < 1:
+                words = (f"setting {title!r}: {value!r} % is read as {number / 100:g}, i.e. {number:g} %; "
+                         f"a value under 1 in a % field is usually a fraction: write {number * 100:g} %, "
+                         "or the fraction with the unit 1")
+                if key == "heating_efficiency":  # no plant runs at under 1 %: the costs would be 100 × off
+                    raise ValueError(words)
+                notes.append(Note("warning", "percent-fraction", words, name, where))
             values[key] = converted
             values["_given"].add(key)
             if currency and "currency" not in values["_given"]:
                 values["currency"] = currency
-        except (TypeError, ValueError) as exc:
+        except (TypeError, ValueError, OverflowError) as exc:
             notes.append(Note("error", "bad-setting",
                               f"setting {title!r}: {value!r} {unit_text} cannot be used ({exc}); "
                               f"write a number with a unit like {dim or 'none'}; the default is used",
                               name, where))
     return values
+
+
+def _show_setting(x: float, si: str, unit) -> str:
+    """A bound of a setting in the unit the user wrote it in ('100 %', '2000 mm')."""
+    try:
+        v = float(from_si([x], si or "dimensionless", str(unit))[0])
+    except Exception:  # a unit pint cannot turn back: the SI value
+        return f"{x:g} {si}".strip()
+    label = unit_label(unit)
+    return f"{v:g}" if label == "1" else f"{v:g} {label}"
 
 
 def _conditions(book: Book, notes: list[Note], columns: list[dict]) -> dict[str, Condition]:
@@ -252,7 +268,16 @@ def _or(x: float, default: float) -> float:
     return x if np.isfinite(x) else default
 
 
-def _materials(book: Book, notes: list[Note], columns: list[dict]) -> dict[str, library.Material]:
+_THICKNESS = (1e-3, 2.0)  # m: a thickness on sale, from 1 mm to 2 m
+
+
+def _materials(book: Book, notes: list[Note], columns: list[dict],
+               unusable: dict[str, str]) -> dict[str, library.Material]:
+    """The built-in materials, with the Materials sheet's rows added or overriding them.
+
+    A material whose rows have an error is not used at all, not even as the built-in of
+    that name: its key goes to ``unusable`` so that a line naming it is an error too.
+    """
     out = dict(library.materials())
     name = _find(book, "Materials")
     if name is None:
@@ -270,8 +295,16 @@ def _materials(book: Book, notes: list[Note], columns: list[dict]) -> dict[str, 
         notes.extend(t.cell_notes.get(i, []))
         if names is not None and names[i]:
             groups.setdefault(library.key(names[i]), []).append(i)
+    def unusable_here(idx, key_="name"):
+        where = f"{name}!{t.cell(idx[0], key_)}"
+        unusable[library.key(names[idx[0]])] = where
+        base_ = library.lookup(library.materials(), names[idx[0]])
+        if base_ is not None:
+            unusable[library.key(base_.name)] = where
+
     for idx in groups.values():
         if any(t.bad[i] for i in idx):
+            unusable_here(idx)
             notes.append(Note("error", "bad-material",
                               f"material {names[idx[0]]!r} has cells in error and is not used", name,
                               t.cell(idx[0], "name")))
@@ -288,12 +321,14 @@ def _materials(book: Book, notes: list[Note], columns: list[dict]) -> dict[str, 
                 notes.append(Note("error", "bad-material",
                                   f"material {names[idx[0]]!r} lists the same mean temperature twice",
                                   name, t.cell(idx[0], "mean_temperature")))
+                unusable_here(idx, "mean_temperature")
                 continue
             fields.update(mean_temperatures=tuple(tm_s), conductivities=tuple(k_s))
         elif base is None:
             notes.append(Note("error", "bad-material",
                               f"material {names[idx[0]]!r} needs 'Mean temperature' and 'Conductivity' "
                               "on at least one row", name, t.cell(idx[0], "conductivity")))
+            unusable_here(idx, "conductivity")
             continue
         for key_, attr in (("max_temperature", "max_temperature"), ("min_temperature", "min_temperature"),
                            ("cost_per_volume", "cost_per_volume"), ("max_layer", "max_layer")):
@@ -308,10 +343,16 @@ def _materials(book: Book, notes: list[Note], columns: list[dict]) -> dict[str, 
                 col = t.columns["thicknesses"]
                 try:
                     nums = library.parse_thickness_list(str(texts[0]))
-                    fields["thicknesses"] = tuple(to_si(nums, col.unit, "m"))
-                except ValueError as exc:
-                    notes.append(Note("error", "bad-thicknesses", f"{exc}; write e.g. '25, 40, 50'",
-                                      name, t.cell(idx[0], "thicknesses")))
+                    si = tuple(float(x) for x in to_si(nums, col.unit, "m"))
+                    if not all(_THICKNESS[0] <= x <= _THICKNESS[1] for x in si):
+                        raise ValueError(f"thickness list {texts[0]!r} must hold thicknesses from "
+                                         f"{_THICKNESS[0] * 1000:g} mm to {_THICKNESS[1] * 1000:g} mm")
+                    fields["thicknesses"] = si
+                except (ValueError, OverflowError) as exc:
+                    notes.append(Note("error", "bad-thicknesses", f"{exc}; write e.g. '25, 40, 50'; material "
+                                      f"{names[idx[0]]!r} is not used until then", name, t.cell(idx[0], "thicknesses")))
+                    unusable_here(idx, "thicknesses")
+                    continue
         if "conductivities" in fields:
             floor = plausibility.below_still_air(str(names[idx[0]]), np.array(fields["mean_temperatures"]),
                                                  np.array(fields["conductivities"]))

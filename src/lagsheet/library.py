@@ -148,6 +148,8 @@ def _nps_of(size: str) -> float | None:
     if m:
         return _dn_to_nps().get(int(m.group(1)))
     m = _NPS.match(text)
+    if m and m.group(1).lstrip().startswith("-"):
+        return None  # 'NPS -4', '-4"': no size is negative (a hyphen only joins '1-1/2')
     if m and (text.lower().startswith("nps") or re.search(r'("|in|inch|inches|\'\')\s*$', text, re.I)):
         try:
             nps = round(_fraction(m.group(1)), 4)

@@ -307,6 +307,11 @@ def _materials(L: Line, inputs: Inputs, mname, oname, fixed, err, us) -> None:
     for key, name in (("insulation", mname), ("outer_insulation", oname)):
         if name is None:
             continue
+        where = inputs.unusable.get(library.key(name))
+        if where is not None:
+            err("bad-material", key, f"material {name!r} is not used: its row on the Materials sheet has "
+                f"an error ({where}); fix it there")
+            continue
         mat = library.lookup(inputs.materials, name)
         if mat is None:
             names = sorted({m.name for m in inputs.materials.values()})

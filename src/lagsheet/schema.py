@@ -25,16 +25,16 @@ class Field:
 
 
 LINE_FIELDS = (
-    Field("tag", "Tag", aliases=("line", "line no", "line number", "id")),
+    Field("tag", "Tag", aliases=("line", "line no", "line no.", "line number", "line nr", "line #", "id")),
     Field("area", "Area", aliases=("system", "plant area")),
     Field("service", "Service", aliases=("fluid service", "description")),
     Field("shape", "Shape", aliases=("type", "geometry")),
     Field("size", "Size", aliases=("nominal size", "nps", "dn", "pipe size")),
     Field("outside_diameter", "Outside diameter", NUMBER, "mm", "m",
-          ("od", "outer diameter", "pipe od", "diameter"), 0.0, 20.0),
-    Field("length", "Length", NUMBER, "m", "m", ("run length", "height"), 0.0, 1e5),
-    Field("surface_area", "Surface area", NUMBER, "m²", "m**2", ("area m2", "bare area"), 0.0, 1e6),
-    Field("width", "Width", NUMBER, "m", "m", ("plate width", "flat width"), 0.0, 1e4),
+          ("od", "outer diameter", "pipe od", "diameter"), 1e-3, 20.0),
+    Field("length", "Length", NUMBER, "m", "m", ("run length", "height"), 1e-3, 1e5),
+    Field("surface_area", "Surface area", NUMBER, "m²", "m**2", ("area m2", "bare area"), 1e-4, 1e6),
+    Field("width", "Width", NUMBER, "m", "m", ("plate width", "flat width"), 1e-3, 1e4),
     Field("operating_temperature", "Operating temperature", TEMPERATURE, "°C", "K",
           ("temperature", "operating temp", "fluid temperature", "design temperature"), 0.0, 2000.0),
     Field("condition", "Condition", aliases=("conditions", "location", "design condition")),
@@ -58,14 +58,14 @@ LINE_FIELDS = (
           0.0, 1e5, alt_units=(("m**3/h", "m**3/s"),)),
     Field("fluid", "Fluid", aliases=("medium", "process fluid")),
     Field("operating_pressure", "Operating pressure", NUMBER, "bar", "Pa",
-          ("pressure", "absolute pressure", "steam pressure"), 0.0, 1e8),
-    Field("inside_diameter", "Inside diameter", NUMBER, "mm", "m", ("bore", "inner diameter", "internal diameter"), 0.0, 20.0),
+          ("pressure", "absolute pressure", "steam pressure"), 100.0, 1e8),
+    Field("inside_diameter", "Inside diameter", NUMBER, "mm", "m", ("bore", "inner diameter", "internal diameter"), 1e-3, 20.0),
     Field("schedule", "Schedule", aliases=("sch", "pipe schedule")),
     Field("max_temperature_drop", "Max temperature drop", DIFFERENCE, "K", "K",
           ("max temperature change", "allowed temperature drop"), 0.0, 2000.0),
     Field("freeze_protection", "Freeze protection", NUMBER, "h", "s",
           ("freeze protection time", "hours to freeze"), 0.0, 1e9),
-    Field("contents_volume", "Contents volume", NUMBER, "m³", "m**3", ("liquid volume", "contents"), 0.0, 1e6),
+    Field("contents_volume", "Contents volume", NUMBER, "m³", "m**3", ("liquid volume", "contents"), 1e-6, 1e6),
     Field("hold_time", "Hold time", NUMBER, "h", "s", ("holding time", "cool-down time"), 0.0, 1e9),
     Field("min_temperature", "Min temperature", TEMPERATURE, "°C", "K",
           ("minimum temperature", "hold temperature", "limit temperature"), 0.0, 2000.0),
@@ -89,21 +89,21 @@ MATERIAL_FIELDS = (
     Field("name", "Name", aliases=("material",)),
     Field("mean_temperature", "Mean temperature", TEMPERATURE, "°C", "K", ("mean temp",), 0.0, 2000.0),
     Field("conductivity", "Conductivity", NUMBER, "W/(m·K)", "W/(m*K)",
-          ("thermal conductivity", "k", "lambda"), 0.0, 5.0),
+          ("thermal conductivity", "k", "lambda"), 1e-4, 5.0),
     Field("max_temperature", "Max temperature", TEMPERATURE, "°C", "K",
           ("maximum temperature", "max service temperature"), 0.0, 2500.0),
     Field("min_temperature", "Min temperature", TEMPERATURE, "°C", "K",
           ("minimum temperature", "min service temperature"), 0.0, 2500.0),
-    Field("cost_per_volume", "Cost per volume", NUMBER, "1/m³", "1/m**3", ("cost", "installed cost")),
+    Field("cost_per_volume", "Cost per volume", NUMBER, "1/m³", "1/m**3", ("cost", "installed cost"), -1e-12, 1e12),
     Field("thicknesses", "Thicknesses", TEXT, "mm", "m", ("sizes", "available thicknesses")),
-    Field("max_layer", "Max layer", NUMBER, "mm", "m", ("max layer thickness",), 0.0, 2.0),
+    Field("max_layer", "Max layer", NUMBER, "mm", "m", ("max layer thickness",), 1e-3, 2.0),
 )
 
 # Process fluids the user defines (thermal oils, brines): used where 'Fluid' names them.
 FLUID_FIELDS = (
     Field("name", "Name", aliases=("fluid",)),
-    Field("specific_heat", "Specific heat", NUMBER, "kJ/(kg·K)", "J/(kg*K)", ("cp", "heat capacity"), 0.0, 1e5),
-    Field("density", "Density", NUMBER, "kg/m³", "kg/m**3", ("rho",), 0.0, 3e4),
+    Field("specific_heat", "Specific heat", NUMBER, "kJ/(kg·K)", "J/(kg*K)", ("cp", "heat capacity"), 50.0, 1e5),
+    Field("density", "Density", NUMBER, "kg/m³", "kg/m**3", ("rho",), 1e-2, 3e4),
 )
 
 # Settings: key -> (name, dimension unit, SI unit, default in SI, kind)
@@ -111,7 +111,9 @@ SETTINGS = {
     "currency": ("Currency", "", "", "EUR", TEXT),
     "energy_price": ("Energy price", "1/kWh", "1/kWh", 0.05, NUMBER),
     "heating_efficiency": ("Heating efficiency", "%", "dimensionless", 0.85, NUMBER),
-    "cooling_cop": ("Cooling COP", "1", "dimensionless", 1.0, NUMBER),
+    # a whole chilled-water plant (chillers, pumps, cooling towers) at about 1 kW of electricity
+    # per ton of refrigeration, i.e. 3.5 kW of cooling per kW (common practice)
+    "cooling_cop": ("Cooling COP", "1", "dimensionless", 3.5, NUMBER),
     "emission_factor": ("Emission factor", "kg/kWh", "kg/kWh", 0.20, NUMBER),
     "discount_rate": ("Discount rate", "%", "dimensionless", 0.05, NUMBER),
     "service_life": ("Service life", "year", "year", 20.0, NUMBER),
@@ -122,6 +124,22 @@ SETTINGS = {
     "max_thickness": ("Max thickness", "mm", "m", 0.300, NUMBER),
     "bare_emissivity": ("Bare emissivity", "1", "dimensionless", 0.80, NUMBER),
     "freeze_fraction": ("Freeze fraction", "%", "dimensionless", 0.25, NUMBER),
+}
+# Settings' valid ranges in SI: key -> (lowest, lowest allowed itself?, highest).
+SETTING_RANGES = {
+    "energy_price": (0.0, True, 1e6),
+    "heating_efficiency": (0.0, False, 1.0),  # a fraction of the fuel's heat: (0, 100 %]
+    "cooling_cop": (0.0, False, 30.0),
+    "emission_factor": (0.0, True, 10.0),
+    "discount_rate": (0.0, True, 1.0),
+    "service_life": (0.0, False, 200.0),
+    "jacket_cost_per_area": (0.0, True, 1e9),
+    "labour_per_layer": (0.0, True, 1e9),
+    "condensation_margin": (0.0, True, 50.0),
+    "thickness_step": (1e-3, True, 0.5),
+    "max_thickness": (1e-3, True, 2.0),
+    "bare_emissivity": (0.0, True, 1.0),
+    "freeze_fraction": (0.0, False, 1.0),
 }
 SETTING_ALIASES = {"heating efficiency": "heating_efficiency", "boiler efficiency": "heating_efficiency",
                    "cop": "cooling_cop", "co2 factor": "emission_factor", "interest rate": "discount_rate"}

@@ -71,6 +71,8 @@ _DEW: dict[tuple[float, float], float] = {}
 
 
 def _dew(c: Condition) -> float:
+    if c.rh <= 0:  # dry air holds no water: nothing condenses on any surface
+        return -np.inf
     key = (round(c.t_air, 9), round(c.rh, 9))
     if key not in _DEW:
         _DEW[key] = float(dew_point(c.t_air, c.rh)[0])
@@ -326,7 +328,7 @@ def _specify(inputs: Inputs) -> Results:
         "heat_loss_per_length": np.where(geometry == CYLINDER, rate, np.nan), "heat_loss": loss,
         "bare_heat_loss": bare_loss, "annual_energy": energy, "annual_cost": bought * price,
         "annual_saving": saving, "co2": bought * float(st["emission_factor"]),
-        "dew_point": dew[first_case], "installed_cost": inst,
+        "dew_point": np.where(np.isfinite(dew), dew, np.nan)[first_case], "installed_cost": inst,
         "payback": np.where(saving > 0, inst / np.where(saving > 0, saving, 1.0), np.nan),
         "t_interface": np.where(np.sum(chosen_th > 0, axis=1) == 2, sol.faces[:, 1], np.nan),
     }
