@@ -67,6 +67,16 @@ def test_a_percent_efficiency_under_one_says_it_looks_like_a_fraction(tmp_path, 
     assert "write 85 %" in msg and "fraction" in msg
 
 
+def test_a_percent_setting_under_one_without_a_unit_is_a_fraction(tmp_path, cli):
+    """'Heating efficiency 0.85' with no unit is 85 % (a note says so), not 0.85 %: fuel bought = heat / 0.85."""
+    src = write_book(tmp_path / "in.xlsx", [pipe()], HEADERS,
+                     sheets={"Settings": [SETTINGS, ["Heating efficiency", 0.85, None], ["Energy price", 0.05, "EUR/kWh"]]})
+    c_exit, notes, _, rep = run_both(tmp_path, cli, src)
+    assert c_exit == 0 and any(n["code"] == "percent-fraction" for n in notes)
+    r = rep["lines"][0]["results"]
+    assert r["annual_cost"] == pytest.approx(r["annual_energy_kWh"] / 0.85 * 0.05, rel=1e-9)
+
+
 def test_a_material_with_bad_thicknesses_is_not_silently_replaced_by_the_built_in(tmp_path, cli):
     """A Materials row for mineral wool with an unusable thickness list: the lines using it are errors, not ok."""
     src = write_book(tmp_path / "in.xlsx", [pipe()], HEADERS,

@@ -155,6 +155,11 @@ def _settings(book: Book, notes: list[Note]) -> dict[str, object]:
             values["_given"].add(key)
             continue
         unit_text = str(raw.value(r, cu)).strip() if cu is not None and raw.value(r, cu) is not None else dim
+        if (dim == "%" and (cu is None or raw.value(r, cu) is None) and isinstance(value, (int, float))
+                and not isinstance(value, bool) and 0 < value < 1):
+            unit_text = "1"  # no unit written and under 1: a fraction (0.85), not 0.85 %
+            notes.append(Note("info", "percent-fraction", f"setting {title!r}: {value!r} has no unit and is "
+                              f"read as the fraction {value:g} ({value * 100:g} %)", name, where))
         currency, unit_text = split_currency(unit_text)
         try:
             number = float(value)
