@@ -8,7 +8,7 @@ import typer
 
 from . import __version__
 
-app = typer.Typer(add_completion=False, no_args_is_help=True,
+app = typer.Typer(add_completion=False, no_args_is_help=True, rich_markup_mode=None,
                   help="Size and check thermal insulation for every line of an equipment schedule.")
 
 CAUTION = ("Cautions: surface limits for personnel protection depend on contact time and surface "
@@ -36,13 +36,13 @@ def _print_summary(outcome, out: Path, quiet: bool) -> None:
         if n.level in ("error", "warning") or not quiet:
             where = f" ({n.sheet}!{n.cell})" if n.sheet and n.cell else ""
             typer.echo(f"{n.level}: {n.message}{where}", err=True)
-    if quiet:
-        return
-    for line in outcome.report["lines"]:
+    for line in outcome.report["lines"]:  # line errors are printed with --quiet too: it means errors only
         for n in line["notes"]:
             if n["level"] == "error":
                 typer.echo(f"error: {line['tag'] or 'row ' + str(line['row'])}: {n['message']} "
                            f"({n['sheet']}!{n['cell']})", err=True)
+    if quiet:
+        return
     from rich.console import Console
     from rich.table import Table
 
@@ -293,22 +293,45 @@ def audit(
             raise typer.Exit(2)
         mapping[theirs.strip()] = ours.strip()
     book, inputs, res = _guarded(lambda: _open_and_specify(file, sheet))
-    try:
-        found = run(inputs, book.sheet(inputs.lines.sheet), res, mapping, surface_k, loss_pct / 100)
-    except ValueError as exc:
-        typer.echo(f"lagsheet: {exc}", err=True)
-        raise typer.Exit(2) from None
-    for f in found:
+    result = _guarded(lambda: run(inputs, book.sheet(inputs.lines.sheet), res, mapping, surface_k,
+                                  loss_pct / 100))
+    for f in result.findings:
         typer.echo(f"{f.tag or 'row ' + str(f.row)}: {f.message}")
-    typer.echo(f"{len(found)} results differ beyond tolerance" if found else "every audited result agrees")
+    for c in result.columns:
+        if not c.unit_from_header:
+            typer.echo(f"warning: {c.header!r} has no unit in its header; read as {c.unit_text}", err=True)
+    typer.echo(result.summary())
     if report is not None:
         from .report import write_json
 
-        write_json({"input": str(file), "differences": [asdict(f) for f in found]}, report)
-    raise typer.Exit(1 if found else 0)
+        write_json({"input": str(file), "lines_compared": result.lines_compared,
+                    "columns": [{"header": c.header, "result": c.key, "unit": c.unit_text}
+                                for c in result.columns],
+                    "differences": [asdict(f) for f in result.findings]}, report)
+    raise typer.Exit(1 if result.findings else 0)
+
+
+# what --help shows after an option or argument: words a user types, not Python types ('<list[str]>')
+_METAVARS = {"output": "OUT", "report": "REPORT.json", "annotate": "OUT", "plot": "PNG", "sheet": "NAME",
+             "map_": "'THEIRS=OURS'", "surface_k": "KELVIN", "loss_pct": "PERCENT"}
+
+
+def _name_metavars() -> None:
+    import inspect
+
+    from typer.models import ArgumentInfo, OptionInfo
+
+    for command in app.registered_commands:
+        for name, param in inspect.signature(command.callback).parameters.items():
+            info = param.default
+            if isinstance(info, ArgumentInfo) and info.metavar is None:
+                info.metavar = name.upper()
+            elif isinstance(info, OptionInfo) and info.metavar is None and param.annotation not in (bool, "bool"):
+                info.metavar = _METAVARS.get(name, name.upper())
 
 
 def main() -> None:
+    _name_metavars()
     app()
 
 
