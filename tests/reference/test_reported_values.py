@@ -121,8 +121,9 @@ def test_bare_heat_loss_uses_the_bare_emissivity(tmp_path):
                     t_air_c=c["t_air_c"], t_sur_c=c["t_sur_c"])
         d = row["Outside diameter [mm]"] / 1000
         expected = surface_out(bare.t_op_c + C0, bare, d) * math.pi * d * row["Length [m]"]
-        # the bare surface's film reaches 100 K above the 2 K table's mid-points: 1e-3 measured
-        assert got[row["Tag"]]["results"]["bare_heat_loss_W"] == pytest.approx(expected, rel=1e-3)
+        # measured 1.2e-5 (windy) and 2.4e-4 (still air, where the free-convection h from the 2 K air
+        # table carries the balance): 5e-4
+        assert got[row["Tag"]]["results"]["bare_heat_loss_W"] == pytest.approx(expected, rel=5e-4)
 
 
 # --- surroundings: a condition's surroundings temperature reaches the balance ---
