@@ -489,3 +489,13 @@ def test_fit_cell_never_exceeds_the_cell_limit(text):
         head = out[:out.index(" [… cut at")]
         assert text.startswith(head) and units >= CELL_LIMIT - 1 and len(head) > CELL_LIMIT // 3
 
+
+
+def test_a_plot_of_an_unknown_type_is_one_sentence(tmp_path, cli):
+    """--plot p.xyz: exit 2 naming the types a plot can be, no traceback, nothing written."""
+    src = write_book(tmp_path / "in.xlsx", [pipe()])
+    r = cli("explain", src, "P-1", "--plot", tmp_path / "p.xyz")
+    assert r.exit_code == 2
+    assert r.output.strip().splitlines()[-1] == ("lagsheet: p.xyz: a plot is drawn as .png, .svg or .pdf; "
+                                                 "give a name ending in one of them")
+    assert files(tmp_path) == ["in.xlsx"]

@@ -82,6 +82,11 @@ def plot_line(inputs: Inputs, res: Results, i: int, out: Path, *, never=()) -> P
 
     out = Path(out)
     fmt = out.suffix[1:].lower() or "png"  # the temporary file's name says nothing of the format
+    if fmt not in fig.canvas.get_supported_filetypes():
+        plt.close(fig)
+        from .errors import WorkbookError
+
+        raise WorkbookError(f"{out.name}: a plot is drawn as .png, .svg or .pdf; give a name ending in one of them")
 
     def write(tmp: str) -> None:
         fig.savefig(tmp, format=fmt)
