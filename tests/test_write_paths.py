@@ -499,3 +499,26 @@ def test_a_plot_of_an_unknown_type_is_one_sentence(tmp_path, cli):
     assert r.output.strip().splitlines()[-1] == ("lagsheet: p.xyz: a plot is drawn as .png, .svg or .pdf; "
                                                  "give a name ending in one of them")
     assert files(tmp_path) == ["in.xlsx"]
+
+
+def test_libreoffice_reads_the_cut_note_whole(tmp_path, cli):
+    """LibreOffice opens the filled workbook; its Notes cell is the 32,767 characters written, marker last."""
+    import csv
+    import shutil
+
+    exe = shutil.which("soffice") or shutil.which("libreoffice")
+    if exe is None:
+        if os.environ.get("CI", "").lower() in ("true", "1", "yes"):
+            pytest.fail("LibreOffice (soffice) is needed under CI")
+        pytest.skip("LibreOffice (soffice) is not installed here")
+    src = write_book(tmp_path / "in.xlsx", [pipe(Condition="c" * 30_000, Insulation="m" * 30_000)])
+    assert cli("fill", src, "-o", tmp_path / "out.xlsx").exit_code == 1
+    subprocess.run([exe, "--headless", f"-env:UserInstallation=file://{tmp_path}/lo-profile", "--convert-to",
+                    "csv:Text - txt - csv (StarCalc):44,34,76,1,,0,false,true,false,false,false,1",
+                    "--outdir", str(tmp_path / "csv"), str(tmp_path / "out.xlsx")],
+                   check=True, capture_output=True, timeout=240)
+    csv.field_size_limit(1 << 20)
+    with next((tmp_path / "csv").glob("*.csv")).open(encoding="utf-8") as fh:
+        rows = list(csv.reader(fh))
+    note = rows[1][rows[0].index("Notes")]
+    assert len(note) == CELL_LIMIT and note.endswith("is in the JSON report (fill --report)]")
