@@ -8,9 +8,9 @@ spreadsheet program holds open; each is saved atomically, and a run's files are 
 prepared before any is renamed.
 
 A read-only folder: permission bits do not stop root, so as root the folder is
-``/sys`` (sysfs lets no one create a file in it, root included); as another user it
-is a folder of ours made read-only with ``chmod``. The fixture proves creation
-really fails there before a test relies on it.
+``/sys`` (sysfs lets no one create a file in it, root included; ``/proc`` if ``/sys``
+is missing); as another user it is a folder of ours made read-only with ``chmod``.
+The fixture proves creation really fails there before a test relies on it.
 """
 
 from __future__ import annotations
@@ -48,19 +48,26 @@ def no_temporaries(folder: Path) -> bool:
 @pytest.fixture
 def readonly_folder(tmp_path):
     """A folder in which no file can be created, for root (``/sys``) and other users (chmod 0555)."""
-    if os.geteuid() == 0:
-        folder = Path("/sys")
-    else:
-        folder = tmp_path / "read-only"
-        folder.mkdir()
-        folder.chmod(0o555)
-    with pytest.raises(OSError):
-        fd, name = tempfile.mkstemp(dir=folder)
+    def refuses(folder: Path) -> bool:
+        try:
+            fd, name = tempfile.mkstemp(dir=folder)
+        except OSError:
+            return True
         os.close(fd)
         os.unlink(name)
+        return False
+
+    if os.geteuid() == 0:
+        folder = next((f for f in (Path("/sys"), Path("/proc")) if f.is_dir() and refuses(f)), None)
+        assert folder is not None, "no folder here refuses root a new file (/sys, /proc)"
+        yield folder
+        return
+    folder = tmp_path / "read-only"
+    folder.mkdir()
+    folder.chmod(0o555)
+    assert refuses(folder)
     yield folder
-    if folder != Path("/sys"):
-        folder.chmod(0o755)
+    folder.chmod(0o755)
 
 
 @pytest.fixture
@@ -522,3 +529,11 @@ def test_libreoffice_reads_the_cut_note_whole(tmp_path, cli):
         rows = list(csv.reader(fh))
     note = rows[1][rows[0].index("Notes")]
     assert len(note) == CELL_LIMIT and note.endswith("is in the JSON report (fill --report)]")
+
+
+def test_check_refuses_one_file_for_both_its_copy_and_its_report(tmp_path, cli):
+    """check --annotate X --report X: exit 2 before any work; nothing written."""
+    src = write_book(tmp_path / "in.xlsx", [pipe()])
+    r = cli("check", src, "--annotate", tmp_path / "x.xlsx", "--report", tmp_path / "x.xlsx")
+    assert r.exit_code == 2 and "the annotated copy and the report would be the same file" in r.output
+    assert files(tmp_path) == ["in.xlsx"]
