@@ -537,3 +537,16 @@ def test_check_refuses_one_file_for_both_its_copy_and_its_report(tmp_path, cli):
     r = cli("check", src, "--annotate", tmp_path / "x.xlsx", "--report", tmp_path / "x.xlsx")
     assert r.exit_code == 2 and "the annotated copy and the report would be the same file" in r.output
     assert files(tmp_path) == ["in.xlsx"]
+
+
+def test_demo_says_its_schedule_was_written_when_the_fill_is_refused(tmp_path, cli):
+    """The filled copy is open in Excel: exit 2; the message says the schedule itself was written."""
+    demo = tmp_path / "demo"
+    demo.mkdir()
+    (demo / "demo-plant-filled.xlsx").write_bytes(b"open elsewhere")
+    (demo / "~$demo-plant-filled.xlsx").write_bytes(EXCEL_LOCK)
+    r = cli("demo", demo)
+    assert r.exit_code == 2
+    assert f"(the demo schedule {demo / 'demo-plant.xlsx'} was written)" in r.output, r.output
+    assert (demo / "demo-plant-filled.xlsx").read_bytes() == b"open elsewhere"
+    assert files(demo) == ["demo-plant-filled.xlsx", "demo-plant.xlsx", "~$demo-plant-filled.xlsx"]

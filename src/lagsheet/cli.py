@@ -153,7 +153,10 @@ def demo(
             raise WorkbookError(f"{directory}: cannot create the folder ({exc.strerror or exc}); "
                                 "nothing was written") from None
         write_demo(src)
-        return run(src, out, report_path=directory / "demo-plant-report.json")
+        try:
+            return run(src, out, report_path=directory / "demo-plant-report.json")
+        except WorkbookError as exc:  # say what the demo did write
+            raise WorkbookError(f"{exc} (the demo schedule {src} was written)") from None
 
     outcome = _guarded(job)
     if not quiet:
