@@ -140,18 +140,25 @@ def demo(
     quiet: bool = typer.Option(False, "--quiet", "-q", help="Print errors only."),
 ):
     from .demo import write_demo
-    from .errors import LagsheetError
+    from .errors import WorkbookError
     from .pipeline import fill as run
 
-    directory.mkdir(parents=True, exist_ok=True)
     src = directory / "demo-plant.xlsx"
     out = directory / "demo-plant-filled.xlsx"
-    write_demo(src)
-    try:
-        outcome = run(src, out, report_path=directory / "demo-plant-report.json")
-    except LagsheetError as exc:
-        typer.echo(f"lagsheet: {exc}", err=True)
-        raise typer.Exit(2) from None
+
+    def job():
+        try:
+            directory.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            raise WorkbookError(f"{directory}: cannot create the folder ({exc.strerror or exc}); "
+                                "nothing was written") from None
+        write_demo(src)
+        try:
+            return run(src, out, report_path=directory / "demo-plant-report.json")
+        except WorkbookError as exc:  # say what the demo did write
+            raise WorkbookError(f"{exc} (the demo schedule {src} was written)") from None
+
+    outcome = _guarded(job)
     if not quiet:
         typer.echo(f"demo schedule: {src}")
     _print_summary(outcome, out, quiet)
@@ -183,15 +190,28 @@ def new(
     file: Path = typer.Argument(..., help="The workbook to write: a name ending in .xlsx or .ods."),
     force: bool = typer.Option(False, "--force", help="Replace FILE if it already exists."),
 ):
-    from .errors import LagsheetError
     from .templates import write_new
 
-    try:
-        write_new(file, force=force)
-    except LagsheetError as exc:
-        typer.echo(f"lagsheet: {exc}", err=True)
-        raise typer.Exit(2) from None
+    _guarded(lambda: write_new(file, force=force))
     typer.echo(f"written: {file}")
+
+
+def _refuse_unsafe(file: Path, *targets: tuple[Path | None, str]) -> None:
+    """Before any work: each file a command will write must be safe to write (exit 2 with a sentence if not)."""
+    from .errors import WorkbookError
+    from .io.save import refuse_unsafe, same_file
+
+    given = [(Path(t), what) for t, what in targets if t is not None]
+
+    def job():
+        for k, (target, what) in enumerate(given):
+            refuse_unsafe(target, inputs=[file], what=what)
+            for other, other_what in given[k + 1:]:
+                if same_file(target, other):
+                    raise WorkbookError(f"{target}: the {what} and the {other_what} would be the same file; "
+                                        "choose two names")
+
+    _guarded(job)
 
 
 def _open_and_specify(file: Path, sheet: str):
@@ -216,11 +236,25 @@ def check(
     from rich.table import Table
 
     from .checking import check as run
+    from .io.save import writing
 
-    if annotate is not None and Path(annotate).resolve() == Path(file).resolve():
-        typer.echo("lagsheet: --annotate would overwrite the input; choose another file", err=True)
-        raise typer.Exit(2)
-    outcome = _guarded(lambda: run(file, sheet, annotate))
+    _refuse_unsafe(file, (annotate, "annotated copy"), (report, "report"))
+
+    def job():
+        # the annotated copy and the report are both written and verified before either is renamed
+        with writing(inputs=[file], deferred=True):
+            outcome = run(file, sheet, annotate)
+            if report is not None:
+                from .report import write_json
+
+                errors = sum(n.level == "error" for n in outcome.notes)
+                warnings = sum(n.level == "warning" for n in outcome.notes)
+                write_json({"input": str(file), "notes": [n.as_dict() for n in outcome.notes],
+                            "columns": outcome.inputs.columns, "errors": errors, "warnings": warnings},
+                           report, inputs=[p for p in (annotate,) if p is not None])
+        return outcome
+
+    outcome = _guarded(job)
     shown = [n for n in outcome.notes if n.level == "error" or (not quiet and n.level == "warning")]
     console = Console(width=160)
     if shown:
@@ -233,12 +267,8 @@ def check(
         console.print(table)
     errors = sum(n.level == "error" for n in outcome.notes)
     warnings = sum(n.level == "warning" for n in outcome.notes)
-    typer.echo(f"{errors} errors, {warnings} warnings" + (f"; annotated copy: {annotate}" if annotate else ""))
-    if report is not None:
-        from .report import write_json
-
-        write_json({"input": str(file), "notes": [n.as_dict() for n in outcome.notes],
-                    "columns": outcome.inputs.columns, "errors": errors, "warnings": warnings}, report)
+    typer.echo(f"{errors} errors, {warnings} warnings" + (f"; annotated copy: {annotate}" if annotate else "")
+               + (f"; report: {report}" if report else ""))
     raise typer.Exit(outcome.exit_code)
 
 
@@ -253,6 +283,7 @@ def explain(
     from .explain import explain as words
     from .explain import find_line
 
+    _refuse_unsafe(file, (plot, "plot"))
     book, inputs, res = _guarded(lambda: _open_and_specify(file, sheet))
     i = find_line(res, tag)
     if i is None:
@@ -265,7 +296,7 @@ def explain(
             raise typer.Exit(1)
         from .plot import plot_line
 
-        _guarded(lambda: plot_line(inputs, res, i, plot))
+        _guarded(lambda: plot_line(inputs, res, i, plot, never=[file]))
         typer.echo(f"plot: {plot}")
     raise typer.Exit(1 if res.status[i] == "error" else 0)
 
@@ -292,6 +323,7 @@ def audit(
             typer.echo(f"lagsheet: --map {m!r}: write it as 'Their header=Thickness'", err=True)
             raise typer.Exit(2)
         mapping[theirs.strip()] = ours.strip()
+    _refuse_unsafe(file, (report, "report"))
     book, inputs, res = _guarded(lambda: _open_and_specify(file, sheet))
     result = _guarded(lambda: run(inputs, book.sheet(inputs.lines.sheet), res, mapping, surface_k,
                                   loss_pct / 100))
@@ -304,10 +336,11 @@ def audit(
     if report is not None:
         from .report import write_json
 
-        write_json({"input": str(file), "lines_compared": result.lines_compared,
-                    "columns": [{"header": c.header, "result": c.key, "unit": c.unit_text}
-                                for c in result.columns],
-                    "differences": [asdict(f) for f in result.findings]}, report)
+        _guarded(lambda: write_json({"input": str(file), "lines_compared": result.lines_compared,
+                                     "columns": [{"header": c.header, "result": c.key, "unit": c.unit_text}
+                                                 for c in result.columns],
+                                     "differences": [asdict(f) for f in result.findings]}, report,
+                                    inputs=[file]))
     raise typer.Exit(1 if result.findings else 0)
 
 

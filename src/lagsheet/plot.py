@@ -36,7 +36,8 @@ def curve(res: Results, i: int, condition=None, top: float | None = None, points
     return th, sol.t_surface, heat_rate(s.geometry, sol.q, sol.r_outer)
 
 
-def plot_line(inputs: Inputs, res: Results, i: int, out: Path) -> Path:
+def plot_line(inputs: Inputs, res: Results, i: int, out: Path, *, never=()) -> Path:
+    """Draw line ``i``'s curves into ``out`` (a PNG) through the one safe save; never onto a file of ``never``."""
     import matplotlib
 
     matplotlib.use("Agg")
@@ -77,7 +78,21 @@ def plot_line(inputs: Inputs, res: Results, i: int, out: Path) -> Path:
                   f"{res.values['governing'][i]}", fontsize=9)
     ax1.grid(alpha=0.3)
     fig.tight_layout()
+    from .io.save import atomic_write
+
     out = Path(out)
-    fig.savefig(out)
-    plt.close(fig)
+    fmt = out.suffix[1:].lower() or "png"  # the temporary file's name says nothing of the format
+    if fmt not in fig.canvas.get_supported_filetypes():
+        plt.close(fig)
+        from .errors import WorkbookError
+
+        raise WorkbookError(f"{out.name}: a plot is drawn as .png, .svg or .pdf; give a name ending in one of them")
+
+    def write(tmp: str) -> None:
+        fig.savefig(tmp, format=fmt)
+
+    try:
+        atomic_write(out, write, inputs=never, what="plot")
+    finally:
+        plt.close(fig)
     return out

@@ -83,15 +83,15 @@ def build(inputs: Inputs, res: Results, input_path: Path, output_path: Path | No
     }
 
 
-def write_json(data: dict, path: Path) -> None:
-    """Any JSON document lagsheet writes, saved atomically."""
-    write(data, path)
+def write_json(data: dict, path: Path, *, inputs=()) -> None:
+    """Any JSON document lagsheet writes, through the one safe save (never onto one of ``inputs``)."""
+    write(data, path, inputs=inputs)
 
 
-def write(report: dict, path: Path) -> None:
+def write(report: dict, path: Path, *, inputs=()) -> None:
     from .io.save import atomic_write
 
     def w(tmp):
         Path(tmp).write_text(json.dumps(report, indent=1, ensure_ascii=False), encoding="utf-8")
 
-    atomic_write(path, w)
+    atomic_write(path, w, inputs=inputs, what="report")
