@@ -337,13 +337,16 @@ def test_check_writes_its_annotated_copy_only_if_its_report_can_be_written(tmp_p
 def test_a_report_that_cannot_be_written_is_one_sentence(tmp_path, cli, readonly_folder, command, where):
     """check/audit --report into a missing or read-only folder: exit 2, one line, no traceback."""
     src = write_book(tmp_path / "in.xlsx", [pipe()])
+    if command == "audit":  # audit compares a filled sheet (an unfilled one is exit 2 for that alone)
+        cli("fill", src, "-o", tmp_path / "filled.xlsx")
+        src = tmp_path / "filled.xlsx"
     target = tmp_path / "no" / "r.json" if where == "missing folder" else readonly_folder / "r.json"
     r = cli(command, src, "--report", target)
     assert r.exit_code == 2, r.output
     words = "does not exist; create it" if where == "missing folder" else "cannot write in"
     last = r.output.strip().splitlines()[-1]
     assert last.startswith("lagsheet: ") and words in last and "Traceback" not in r.output, r.output
-    assert files(tmp_path) == ["in.xlsx"]
+    assert files(tmp_path) == sorted(["in.xlsx"] + (["filled.xlsx"] if command == "audit" else []))
 
 
 # -- names -----------------------------------------------------------------------------------------
