@@ -243,11 +243,11 @@ def _grow_database_ranges(content: str, e: SheetEdits, n: _Names) -> str:
     if ranges is None or ranges[0] != START:
         return content
     out, pos = [], 0
-    for _, name, s, e, _ in sc.children(ranges[2]):
+    for _, name, start, end, _ in sc.children(ranges[2]):
         if name == f"{t}:database-range":
-            out.append(content[pos:s])
-            out.append(grow(content[s:e]))
-            pos = e
+            out.append(content[pos:start])
+            out.append(grow(content[start:end]))
+            pos = end
     out.append(content[pos:])
     return "".join(out)
 

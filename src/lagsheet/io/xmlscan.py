@@ -180,9 +180,15 @@ class Scanner:
             raise XmlScanError("no root element")
         return tok[1], tok[2], tok[3]
 
-    def child(self, head_end: int, name: str) -> tuple[int, int, int, int] | None:
-        """(kind, start, start-tag end, end) of the first child called ``name``, or None."""
-        for kind, n, s, e, stop in self.children(head_end):
+    def child(self, head_end: int, name: str) -> tuple[int, int, int] | None:
+        """(kind, start, start-tag end) of the first child called ``name``, or None; the
+        children before it are skipped whole, its own end is not looked for."""
+        pos = head_end
+        while True:
+            tok = self.next_tag(pos)
+            if tok is None or tok[0] == END:
+                return None
+            kind, n, s, e = tok
             if n == name:
-                return kind, s, e, stop
-        return None
+                return kind, s, e
+            pos = e if kind == EMPTY else self.element_end(n, e)
