@@ -206,6 +206,59 @@ def rows_from_a1(sheet):
         yield pad + row
 
 
+_XML_INVALID = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ufffe\uffff]")
+
+
+def _shown(v: Any) -> Any:
+    """What a written value reads back as: a number as a float, text with its spaces folded."""
+    if v is None or (isinstance(v, float) and v != v):
+        return ""
+    if isinstance(v, bool):
+        v = "yes" if v else "no"
+    if isinstance(v, (int, float)):
+        return float(v)
+    return " ".join(_XML_INVALID.sub("", str(v)).split())
+
+
+def misplaced(values: dict[tuple[int, int], Any], sheet, limit: int = 5) -> list[str]:
+    """Addresses of written cells that do not read back where they were written.
+
+    ``values``: what was written, by (row, column); ``sheet``: the written sheet as calamine
+    reopened it. Every result is written on its line's row (the row whose Tag the line was
+    read from, which :func:`kept` shows unchanged), so a result read back elsewhere, or
+    another value in its place, means the writer slipped: the file must not be kept.
+    """
+    by_row: dict[int, list[tuple[int, Any]]] = {}
+    for (r, c), v in values.items():
+        by_row.setdefault(r, []).append((c, v))
+    bad: list[str] = []
+    for r, row in enumerate(rows_from_a1(sheet)):
+        cells = by_row.pop(r, None)
+        if cells is None:
+            if not by_row:
+                break
+            continue
+        for c, v in cells:
+            want = _shown(v)
+            got = row[c] if c < len(row) else ""
+            if isinstance(want, float):
+                ok = isinstance(got, (int, float)) and not isinstance(got, bool) and (
+                    got == want or abs(got - want) <= 1e-9 * max(abs(want), 1.0))
+            else:
+                ok = (" ".join(got.split()) if isinstance(got, str) else got) == want
+            if not ok:
+                bad.append(address(r, c))
+                if len(bad) >= limit:
+                    return bad
+    for r, cells in sorted(by_row.items()):  # rows the written sheet does not reach
+        for c, v in cells:
+            if _shown(v) != "":
+                bad.append(address(r, c))
+                if len(bad) >= limit:
+                    return bad
+    return bad
+
+
 def post_write_check(tmp: Path, before: dict[str, RawSheet], written: dict[str, Container[tuple[int, int]]],
                      parts_before: set[str], removed: set[str] = frozenset(), reopened=None,
                      allow_loss: bool = False) -> list[str]:
