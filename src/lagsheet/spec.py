@@ -358,7 +358,8 @@ def _specify(inputs: Inputs) -> Results:
         "heat_loss_per_length": np.where(geometry == CYLINDER, rate, np.nan), "heat_loss": loss,
         "bare_heat_loss": bare_loss, "annual_energy": energy, "annual_cost": bought * price,
         "annual_saving": saving, "co2": bought * float(st["emission_factor"]),
-        "dew_point": dew[first_case], "installed_cost": inst,
+        "dew_point": np.where(_dew_matters(lines, prevent, sol.t_surface, dew[first_case], margin),
+                              dew[first_case], np.nan), "installed_cost": inst,
         "payback": np.where(saving > 0, inst / np.where(saving > 0, saving, 1.0), np.nan),
         "t_interface": np.where(np.sum(chosen_th > 0, axis=1) == 2, sol.faces[:, 1], np.nan),
     }
@@ -377,6 +378,16 @@ def _specify(inputs: Inputs) -> Results:
         res.status.append("error" if "error" in lv or not lines[i].ok else
                           "warning" if "warning" in lv else "ok")
     return res
+
+
+def _dew_matters(lines, prevent, t_surface, dew, margin) -> np.ndarray:
+    """Per line: is its dew point worth writing? Where condensation is asked about ('Prevent
+    condensation' yes) or possible at the first condition: the operating or the surface
+    temperature below the dew point plus margin. A steam main's dew point means nothing."""
+    asked = np.array([v is True for v in prevent]) if prevent is not None else np.zeros(len(lines), bool)
+    t_op = np.array([L.t_op for L in lines], dtype=float)
+    with np.errstate(invalid="ignore"):
+        return asked | (np.fmin(t_op, t_surface) < dew + margin)
 
 
 def _per_area(t, n: int) -> np.ndarray:
