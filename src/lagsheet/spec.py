@@ -325,7 +325,8 @@ def _specify(inputs: Inputs) -> Results:
     sol = solve(first_sys, table)
     bare_eps = np.where(fixed & (np.nan_to_num(total[:, 0]) == 0), base.emissivity,
                         np.array([L.bare_emissivity for L in lines]))
-    bare = solve(per_line(first_sys, rows, thickness=np.zeros((n, slots)), emissivity=bare_eps), table)
+    bare_sys = per_line(first_sys, rows, thickness=np.zeros((n, slots)), emissivity=bare_eps)
+    bare = solve(bare_sys, table)
     res.system = first_sys
     res.quantities = quantities(lines, chosen_th[:, None, :], base)
     res.chosen = chosen_th
@@ -335,6 +336,9 @@ def _specify(inputs: Inputs) -> Results:
     areas = np.array([L.area for L in lines])
     loss = _whole(geometry, rate, lengths, areas)
     bare_loss = _whole(geometry, bare_rate, lengths, areas)
+    # a line with a flow loses the heat its fluid gives up along the line, not the inlet rate × length
+    loss, bare_loss = limits.flowing_lines(lines, ok & (chosen >= 0), first_sys, bare_sys, cases, starts,
+                                           chosen_th, table, loss, bare_loss, res, t, us)
     eff, cop, price = float(st["heating_efficiency"]), float(st["cooling_cop"]), float(st["energy_price"])
     energy = economics.annual_energy_kwh(loss, hours)
     bought = economics.energy_bought_kwh(energy, eff, cop)
