@@ -423,7 +423,7 @@ def _capacity(procs, t_mean) -> np.ndarray:
 
 # --------------------------------------------------------------------------- flowing lines
 
-CP_KNOTS = 17  # knots of a flowing line's c_p(T) table (linear; water's c_p within 1e-4 of CoolProp)
+CP_KNOTS = 65  # knots of a flowing line's c_p(T) table (linear: water's c_p within 1e-5 of CoolProp)
 APPROACH_K = 1.0  # a fluid within 1 K of the air has reached the air temperature (our choice)
 
 
