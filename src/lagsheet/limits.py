@@ -494,7 +494,7 @@ def flowing_lines(lines, put, first_sys: System, bare_sys: System, cases: System
         if freeze is not None:
             x, name = freeze
             note(i, "error", "fluid-freezes",
-                 f"the water reaches 0 °C {show(x, 'length', us)} from the inlet of this "
+                 f"the water reaches {show(pp.T_ICE, 'temperature', us)} {show(x, 'length', us)} from the inlet of this "
                  f"{show(L.length, 'length', us)} line at condition '{name}' and would freeze before the "
                  "outlet: give more flow, more insulation, or heat tracing", "flow_rate")
             if out[j] < pp.T_ICE:  # at the first condition: no liquid outlet, no heat to report

@@ -180,3 +180,20 @@ def test_a_fluid_that_reaches_the_air_temperature_is_a_warning(tmp_path):
     x = march(u_of_t(res, 0, "indoor"), 279.15, AIR["indoor"], 0.01, 400.0, near_air).t_events[0][0]
     shown = float(re.search(r"(\d+) m from the inlet", note["message"]).group(1))
     assert x < 400 and shown == pytest.approx(x, abs=0.6)
+
+
+def test_the_freezing_distance_is_given_in_the_sheets_units(tmp_path):
+    """The same water line typed in feet and °F: the error names 32 °F and the distance in ft, 415.6 m (the
+    solve_ivp figure of the SI test) / 0.3048 (NIST SP 811: 1 ft = 0.3048 m exactly) = 1364 ft, of 1969 ft."""
+    head = ["Tag", "Shape", "Size", "Length [ft]", "Operating temperature [°F]", "Condition", "Insulation",
+            "Fixed thickness [in]", "Fluid", "Flow rate [kg/s]"]
+    conditions = [["Name", "Ambient temperature [°F]", "Surroundings temperature [°F]", "Wind speed [m/s]",
+                   "Relative humidity [%]", "Operating hours [h]"],
+                  ["winter", 10.4, 5, 5, 85, 2000]]  # −12 °C and −15 °C
+    row = {"Tag": "FW", "Shape": "pipe", "Size": "NPS 2", "Length [ft]": 600 / 0.3048,
+           "Operating temperature [°F]": 59, "Condition": "winter", "Insulation": "cellular glass",
+           "Fixed thickness [in]": 25 / 25.4, "Fluid": "water", "Flow rate [kg/s]": 0.05}
+    src = write_book(tmp_path / "us.xlsx", [row], head, sheets={"Conditions": conditions})
+    out = fill(src, tmp_path / "us-out.xlsx")
+    note = next(n for n in out.results.notes[0] if n.code == "fluid-freezes")
+    assert re.search(r"32 °F (\d+) ft from the inlet of this (\d+) ft line", note.message).groups() == ("1364", "1969")
