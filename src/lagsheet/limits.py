@@ -525,6 +525,28 @@ def flowing_lines(lines, put, first_sys: System, bare_sys: System, cases: System
     return loss, bare_loss
 
 
+def flowing_candidates(lines, use, cases: System, starts, cand, table, whole) -> np.ndarray:
+    """``whole`` (lines × candidates, the heat flow [W] of every candidate at the first named
+    condition) with the lines ``use`` that have a flow given the heat their fluid gives up
+    along the line with each candidate (marched, as :func:`flowing_lines`): what the
+    economic choice prices."""
+    procs = [L.process for L in lines]
+    sel = np.flatnonzero([bool(use[i]) and P.flowing and np.isfinite(P.cp) for i, P in enumerate(procs)])
+    if not sel.size:
+        return whole
+    k, m = len(sel), cand.shape[1]
+    sysp, good = _pairs(cases, np.asarray(starts)[sel], cand[sel])
+    rep = np.repeat(sel, m)
+    u = pp.loss_coefficient(sysp, table, scale=_factor(lines, rep))
+    cp = _specific_heat(lines, sel, cases, starts).take(np.repeat(np.arange(k), m))
+    m_dot = np.repeat([procs[i].m_dot for i in sel], m)
+    out = pp.outlet_temperature_marching(sysp.t_operating, sysp.t_air, u, 1.0, m_dot, cp)
+    whole = np.array(whole, dtype=float)
+    given_up = m_dot * (cp.enthalpy(sysp.t_operating) - cp.enthalpy(out))
+    whole[sel] = np.where(good, given_up, np.nan).reshape(k, m)
+    return whole
+
+
 def _reach(lines, idx, cases: System, starts, chosen_th, table, m_dot, cp) -> list[tuple]:
     """Per flowing line ``idx``: (freeze, approach), each None or (distance from the inlet [m],
     condition name), the nearest over the line's named conditions: where water reaches 0 °C,

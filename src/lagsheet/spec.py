@@ -242,6 +242,8 @@ def _specify(inputs: Inputs) -> Results:
     cost = _installed_cost(lines, cand, base, st, res, t)
     first_rate = c.heat_rate[first_case]
     whole = _whole(geometry, first_rate, np.array([L.length for L in lines]), np.array([L.area for L in lines]))
+    whole = limits.flowing_candidates(lines, np.array([L.economic for L in lines]) & ok, cases, starts, cand, table,
+                                      whole)
     hours = np.array([L.conditions[0].hours if ok[i] else 0.0 for i, L in enumerate(lines)])
     energy_cost = _energy_cost(whole, hours[:, None], st)
     crf = float(economics.capital_recovery_factor(float(st["discount_rate"]), float(st["service_life"])))

@@ -197,3 +197,29 @@ def test_the_freezing_distance_is_given_in_the_sheets_units(tmp_path):
     out = fill(src, tmp_path / "us-out.xlsx")
     note = next(n for n in out.results.notes[0] if n.code == "fluid-freezes")
     assert re.search(r"32 °F (\d+) ft from the inlet of this (\d+) ft line", note.message).groups() == ("1364", "1969")
+
+
+def test_the_economic_thickness_of_a_flowing_line_prices_the_heat_the_fluid_gives_up(tmp_path):
+    """An 'Economic' water line picks the sold thickness of least capital × a + annual cost, where each
+    candidate's annual cost is that of the same line at that fixed thickness, which fill writes from the
+    marched heat (held to solve_ivp above); a = i(1+i)ⁿ/((1+i)ⁿ − 1) at 5 %, 20 years (REFERENCES.md)."""
+    from lagsheet import library
+
+    sheets = {"Conditions": CONDITIONS,
+              "Materials": [["Name", "Cost per volume [EUR/m³]"], ["mineral wool", 300]],
+              "Settings": [["Setting", "Value", "Unit"], ["Jacket cost per area", 15, "EUR/m²"],
+                           ["Labour per layer", 10, "EUR/m²"], ["Energy price", 0.08, "EUR/kWh"]]}
+    base = water("ECO", 1500, 0.05, 80, "yard", "mineral wool", None)
+    sold = library.materials()["mineral wool"].thicknesses
+    rows = [base | {"Economic": "yes"}] + [base | {"Tag": f"F{k}", "Fixed thickness [mm]": th * 1000}
+                                            for k, th in enumerate(sold)]
+    src = write_book(tmp_path / "eco.xlsx", rows, HEADERS + ["Economic"], sheets=sheets)
+    res = fill(src, tmp_path / "eco-out.xlsx").results
+    assert res.status[0] != "error", res.notes[0]
+    a = 0.05 * 1.05**20 / (1.05**20 - 1)
+    annualised = [a * res.values["installed_cost"][1 + k] + res.values["annual_cost"][1 + k] for k in range(len(sold))]
+    assert res.values["thickness"][0] == pytest.approx(sold[int(np.argmin(annualised))])
+    # priced at the inlet rate × length (3-4× the heat on such a line) the choice would be thicker
+    inlet = [a * res.values["installed_cost"][1 + k]
+             + res.values["heat_loss_per_length"][1 + k] * 1500 * 8000 / 1000 / 0.85 * 0.08 for k in range(len(sold))]
+    assert sold[int(np.argmin(inlet))] > res.values["thickness"][0]
