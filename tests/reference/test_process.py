@@ -27,6 +27,8 @@ import numpy as np
 import pytest
 from CoolProp import CoolProp as coolprop
 from CoolProp.CoolProp import PropsSI
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 from scipy.integrate import simpson, solve_ivp
 
 from lagsheet.limits import CP_KNOTS
@@ -568,3 +570,27 @@ def test_marching_with_specific_heat_varying_equals_scipy():
     sol = solve_ivp(lambda x, y: [-u(y[0]) * (y[0] - t_air) / (m * PropsSI("C", "T", y[0], "P", 101325.0, "Water"))],
                     (0, length), [363.15], rtol=1e-11, atol=1e-11)
     assert out == pytest.approx(sol.y[0, -1], abs=1e-4)
+
+
+@settings(max_examples=60, derandomize=True, deadline=None, database=None,
+          suppress_health_check=[HealthCheck.too_slow])
+@given(t_in=st.floats(250.0, 600.0), t_air=st.floats(240.0, 320.0), a=st.floats(0.05, 5.0),
+       b=st.floats(0.0, 0.05), m=st.floats(0.005, 5.0), length=st.floats(1.0, 5000.0),
+       cp=st.floats(1000.0, 4500.0))
+def test_heat_given_up_by_a_flowing_fluid_is_bounded_and_grows_with_length(t_in, t_air, a, b, m, length, cp):
+    """Over random lines: the marched outlet lies between the inlet and the air, the heat ṁ ∫c_p dT given
+    up has the sign of θ_in − θ_a and stays below ṁ c_p (θ_in − θ_a) (what the fluid has to give), and a
+    line twice as long gives up more; U′ = a + b|Δ| (positive), c_p constant."""
+    table = SpecificHeat.constant(np.array([cp]))
+
+    def u(t):
+        return a + b * np.abs(np.asarray(t) - t_air)
+
+    out = outlet_temperature_marching(np.array([t_in]), t_air, u, length, m, table)[0]
+    longer = outlet_temperature_marching(np.array([t_in]), t_air, u, 2 * length, m, table)[0]
+    q = m * (table.enthalpy(np.array([t_in])) - table.enthalpy(np.array([out])))[0]
+    q2 = m * (table.enthalpy(np.array([t_in])) - table.enthalpy(np.array([longer])))[0]
+    most = m * cp * (t_in - t_air)
+    assert min(t_in, t_air) - 1e-9 <= out <= max(t_in, t_air) + 1e-9
+    assert abs(q) <= abs(most) * (1 + 1e-12) and q * most >= 0
+    assert abs(q2) >= abs(q) * (1 - 1e-12)
