@@ -54,13 +54,19 @@ def _print_summary(outcome, out: Path, quiet: bool) -> None:
     # as in the Summary sheet: losses and gains apart, bare as the sum of magnitudes
     flows = [line["results"]["heat_loss_W"] or 0.0 for line in outcome.report["lines"]]
     bare = sum(abs(line["results"]["bare_heat_loss_W"] or 0.0) for line in outcome.report["lines"])
-    table.add_row("heat loss, insulated", f"{sum(q for q in flows if q > 0) / 1000:,.1f} kW")
+    covered = s.get("lines_in_totals", {})
+
+    def of(key):  # a total that leaves lines out says how many it adds up
+        k = covered.get(key, s["lines"])
+        return f" ({k} of {s['lines']} lines)" if k < s["lines"] else ""
+
+    table.add_row("heat loss, insulated", f"{sum(q for q in flows if q > 0) / 1000:,.1f} kW{of('heat_loss_W')}")
     gain = -sum(q for q in flows if q < 0)
     if gain:
-        table.add_row("heat gain, insulated", f"{gain / 1000:,.1f} kW")
-    table.add_row("heat loss, bare", f"{bare / 1000:,.1f} kW")
-    table.add_row("annual cost", f"{s['annual_cost']:,.0f} {cur}")
-    table.add_row("annual saving", f"{s['annual_saving']:,.0f} {cur}")
+        table.add_row("heat gain, insulated", f"{gain / 1000:,.1f} kW{of('heat_loss_W')}")
+    table.add_row("heat loss, bare", f"{bare / 1000:,.1f} kW{of('bare_heat_loss_W')}")
+    table.add_row("annual cost", f"{s['annual_cost']:,.0f} {cur}{of('annual_cost')}")
+    table.add_row("annual saving", f"{s['annual_saving']:,.0f} {cur}{of('annual_saving')}")
     if s.get("condensate_kg_per_s"):
         table.add_row("steam condensate", f"{s['condensate_kg_per_s'] * 3600:,.1f} kg/h")
     table.add_row("written", str(out))

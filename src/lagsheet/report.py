@@ -6,6 +6,8 @@ import json
 import math
 from pathlib import Path
 
+import numpy as np
+
 from . import __version__
 from .inputs import Inputs
 from .spec import Results
@@ -78,6 +80,10 @@ def build(inputs: Inputs, res: Results, input_path: Path, output_path: Path | No
             "annual_cost": total("annual_cost"),
             "annual_saving": total("annual_saving"),
             "condensate_kg_per_s": total("condensate"),
+            # how many lines each total adds up (fewer than "lines" where some have no value)
+            "lines_in_totals": {name: int(np.isfinite(res.values[key]).sum()) for key, name in (
+                ("heat_loss", "heat_loss_W"), ("bare_heat_loss", "bare_heat_loss_W"),
+                ("annual_cost", "annual_cost"), ("annual_saving", "annual_saving"))},
         },
         "cautions": list(CAUTIONS),
     }
