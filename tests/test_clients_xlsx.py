@@ -17,6 +17,8 @@ from pathlib import Path
 
 import openpyxl
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from roundtrip.corpus import (
     MAIN,
@@ -646,3 +648,43 @@ def test_libreoffice_opens_the_output_of_each_class_and_shows_the_results(tmp_pa
             assert [bool(re.fullmatch(r"[\d.]+", row[14])) for row in out[1:4]] == [True, True, False]
         else:
             assert checks.check_csv(inp, out, formulas) == [], name
+
+
+# --------------------------------------------------------------------------- properties
+
+class _Book:
+    """A workbook as sheet_name_for sees it: worksheets (with their first cell) and other sheets' names."""
+
+    def __init__(self, worksheets: dict[str, str], others: list[str]):
+        self.worksheets, self.others = worksheets, others
+
+    def sheet_names(self) -> list[str]:
+        return list(self.worksheets)
+
+    def sheet(self, name: str):
+        from lagsheet.io.table import RawSheet
+
+        return RawSheet(name, [[self.worksheets[name]]])
+
+
+_CASES = st.sampled_from(["Summary", "SUMMARY", "summary", "sUMMARY", "Summary (lagsheet)", "SUMMARY (LAGSHEET)",
+                          "summary (lagsheet 2)", "Lines", "Quantities"])
+
+
+@settings(max_examples=200, derandomize=True, database=None)
+@given(worksheets=st.dictionaries(_CASES, st.sampled_from(["my totals", "lagsheet summary"]), max_size=4),
+       others=st.lists(_CASES, max_size=3))
+def test_our_sheet_name_never_equals_another_ignoring_case(worksheets, others):
+    """Whatever sheets a book has, ours either replaces our own worksheet or takes a name no sheet has, ignoring case."""
+    from lagsheet.io.table import sheet_name_for
+
+    others = [n for n in others if n.casefold() not in {w.casefold() for w in worksheets}]
+    book = _Book(worksheets, others)
+    taken = list(worksheets) + others
+    name, replace = sheet_name_for(book, "Summary", taken)
+    if replace:
+        assert worksheets[name].startswith("lagsheet ")
+    else:
+        assert name.casefold() not in {n.casefold() for n in taken}
+        if "summary" not in {n.casefold() for n in taken}:
+            assert name == "Summary"
