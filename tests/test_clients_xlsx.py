@@ -552,6 +552,23 @@ def test_libreoffice_made_sheet_names_clash_only_ignoring_case_and_libreoffice_k
     assert _lo_sheet_names(tmp_path / "out.xlsx", tmp_path) == want
 
 
+def test_an_ods_sheet_named_like_ours_but_for_case_keeps_its_name(tmp_path, cli):
+    """The same rule in .ods (LibreOffice-made): a person's 'SUMMARY' stays, ours is 'Summary (lagsheet)'."""
+    from roundtrip.checks import require_soffice
+    from roundtrip.corpus import soffice
+
+    require_soffice()
+    src = base(tmp_path / "names.xlsx", sheets={"SUMMARY": [["my own totals"]]})
+    soffice(["--convert-to", "ods", "--outdir", str(tmp_path), str(src)], tmp_path / "profile")
+    r, _ = fill(cli, tmp_path / "names.ods", tmp_path / "out.ods")
+    assert r.exit_code == 0, r.output
+    with zipfile.ZipFile(tmp_path / "out.ods") as z:
+        content = _xml(z.read("content.xml"))
+    t = "urn:oasis:names:tc:opendocument:xmlns:table:1.0"
+    assert [e.get(f"{{{t}}}name") for e in content.iter(f"{{{t}}}table")] == [
+        "Lines", "SUMMARY", "Summary (lagsheet)", "Quantities"]
+
+
 def test_libreoffice_made_table_with_a_totals_row(lo_made, tmp_path, cli):
     """LibreOffice keeps the table's totals row: it is no line, and the filter stops above it."""
     r, rep = fill(cli, lo_made["totals"], tmp_path / "out.xlsx")
