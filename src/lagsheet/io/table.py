@@ -8,7 +8,7 @@ cell A1, and the addresses of formula cells that carry no cached value. Writing 
 from __future__ import annotations
 
 import re
-from collections.abc import Container
+from collections.abc import Container, Iterable
 from dataclasses import dataclass, field
 from functools import lru_cache
 from pathlib import Path
@@ -45,6 +45,7 @@ class RawSheet:
     name: str
     grid: list[list[Any]]  # rows from row 1, columns from A; '' or None for empty
     uncached: set[tuple[int, int]] = field(default_factory=set)  # formula cells with no cached value
+    totals_rows: set[int] = field(default_factory=set)  # rows that are a table's totals row, never lines
 
     def value(self, row: int, col: int) -> Any:
         if row < len(self.grid) and col < len(self.grid[row]):
@@ -73,6 +74,11 @@ class RawSheet:
             if any(isinstance(v, str) and fold(v) in want for v in row):
                 return i
         return None
+
+    def header_rows(self, marker: str | tuple[str, ...]) -> list[int]:
+        """Every row (0-based) with a cell equal to ``marker`` or one of several markers (folded)."""
+        want = {fold(m) for m in ((marker,) if isinstance(marker, str) else marker)}
+        return [i for i, row in enumerate(self.grid) if any(type(v) is str and fold(v) in want for v in row)]
 
 
 @dataclass
@@ -121,18 +127,29 @@ def calamine_grid(values, name: str, path: Path) -> list[list[Any]]:
         raise WorkbookError(f"{path.name}: sheet {name!r} cannot be read ({exc})") from exc
 
 
-def sheet_name_for(book: Book, wanted: str) -> tuple[str, bool]:
+def sheet_name_for(book: Book, wanted: str, taken: Iterable[str] | None = None) -> tuple[str, bool]:
     """Where a sheet of lagsheet's goes: (name, replace). Ours from an earlier run (its first
     cell starts with :attr:`NewSheet.MARK`) is replaced; a person's sheet of that name is never
-    touched, ours is then named '<name> (lagsheet)'."""
-    name = wanted
-    while name in book.sheet_names():
-        grid = book.sheet(name).grid
-        first = grid[0][0] if grid and grid[0] else ""
-        if isinstance(first, str) and first.startswith(NewSheet.MARK):
-            return name, True
-        name = f"{name} (lagsheet)"
-    return name, False
+    touched, ours is then named '<name> (lagsheet)' (then '<name> (lagsheet 2)', ...).
+
+    Sheet names compare ignoring case, as spreadsheet programs compare them, over ``taken``:
+    the names of every sheet of the workbook, chart and dialog sheets too (by default the
+    names of ``book.sheet_names()``).
+    """
+    names = list(book.sheet_names() if taken is None else taken)
+    cells = set(book.sheet_names())  # the sheets with cells: only those can be ours
+    name, k = wanted, 1
+    while True:
+        same = next((n for n in names if n.casefold() == name.casefold()), None)
+        if same is None:
+            return name, False
+        if same in cells:
+            grid = book.sheet(same).grid
+            first = grid[0][0] if grid and grid[0] else ""
+            if isinstance(first, str) and first.startswith(NewSheet.MARK):
+                return same, True
+        name = f"{wanted} (lagsheet)" if k == 1 else f"{wanted} (lagsheet {k})"
+        k += 1
 
 
 class Book(Protocol):
