@@ -13,7 +13,11 @@ lines with no target, a water line with no pipe schedule) produce warnings, not 
 
 from __future__ import annotations
 
+import io
+import zipfile
 from pathlib import Path
+
+from .io.xlsx import fonts_in_schema_order
 
 HEADERS = ["Tag", "Area", "Service", "Shape", "Size", "Outside diameter [mm]", "Length",
            "Operating temperature [°C]", "Condition", "Insulation", "Finish",
@@ -174,4 +178,14 @@ def write_demo(path: Path) -> None:
             cell.font = Font(bold=True)
     from .io.save import atomic_write
 
-    atomic_write(path, wb.save, what="demo schedule")  # the one safe save: no link, lock or special file
+    buf = io.BytesIO()
+    wb.save(buf)
+    with zipfile.ZipFile(buf) as src:
+        members = [(i, src.read(i.filename)) for i in src.infolist()]
+
+    def write(tmp: str) -> None:
+        with zipfile.ZipFile(tmp, "w", zipfile.ZIP_DEFLATED) as dst:
+            for info, data in members:  # the fonts as the schema orders them, or validators object
+                dst.writestr(info, fonts_in_schema_order(data) if info.filename == "xl/styles.xml" else data)
+
+    atomic_write(path, write, what="demo schedule")  # the one safe save: no link, lock or special file

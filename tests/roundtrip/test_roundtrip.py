@@ -20,7 +20,7 @@ from pathlib import Path
 
 import pytest
 
-from . import checks
+from . import checks, validators
 from .corpus import (
     CORPUS,
     LO_CORPUS,
@@ -40,6 +40,9 @@ ODS = [e for e in CORPUS if e.is_ods]
 WITH_COMMENTS = [e for e in XLSX if e.has("comments")]
 WITH_TABLE = [e for e in XLSX if e.has("table")]
 ODS_WITH_RANGE = [e for e in ODS if e.has("table")]
+# check --annotate runs on these only (CI time): every part kind our notes touch (legacy notes
+# beside people's, threaded comments, VML, a macro workbook) and both ods
+ANNOTATED = [e for e in CORPUS if e.name in ("plain", "comments", "comments_and_ours", "everything")] + ODS
 
 
 def _ids(e: Entry) -> str:
@@ -276,3 +279,48 @@ def test_an_ods_saved_with_a_password_by_libreoffice_is_refused_in_one_plain_sen
     assert not f.out.exists()
     assert f.output.count("\n") == 0 and "saved with a password" in f.output and "Save As" in f.output
     assert not re.search(r"\w+Error|Traceback|codec|\bb'", f.output), f.output
+
+
+@pytest.fixture(scope="module")
+def annotated(filled: dict[str, Filled], work: Path) -> dict[str, tuple[Path, Path, str]]:
+    """`lagsheet check --annotate` on a subset of the corpus (the inputs fill used): name -> (input, output, text)."""
+    names = [e.name for e in ANNOTATED if e.name in filled]
+    files = {name: filled[name].src for name in names}
+    (work / "annotated").mkdir()
+
+    def run(name: str):
+        e = next(x for x in CORPUS if x.name == name)
+        src, out = files[name], work / "annotated" / f"{name}-annotated{e.suffix}"
+        r = subprocess.run([str(LAGSHEET), "check", str(src), "--annotate", str(out), "-q"],
+                           capture_output=True, text=True, timeout=900, stdin=subprocess.DEVNULL)
+        return name, (src, out, (r.stdout + r.stderr).strip())
+
+    with ThreadPoolExecutor(max_workers=max(2, os.cpu_count() or 2)) as pool:
+        return dict(pool.map(run, names))
+
+
+@pytest.mark.parametrize("entry", CORPUS, ids=_ids)
+def test_fill_output_adds_no_validator_finding(filled, entry):
+    """The filled workbook has no Open XML (Office 2016) or ODF 1.3 RELAX NG error the input lacks."""
+    validators.require_validators()
+    f = done(filled, entry)
+    assert validators.new_findings(f.src, f.out) == []
+
+
+@pytest.mark.parametrize("entry", ANNOTATED, ids=_ids)
+def test_annotated_copy_adds_no_validator_finding(annotated, entry):
+    """check --annotate's copy has no Open XML (Office 2016) or ODF 1.3 RELAX NG error the input lacks."""
+    validators.require_validators()
+    if entry.is_ods:
+        checks.require_soffice()
+    src, out, text = annotated[entry.name]
+    assert out.is_file(), text
+    assert validators.new_findings(src, out) == []
+
+
+@pytest.mark.parametrize("item", LO_FILES, ids=_lo_id)
+def test_libreoffice_made_file_filled_adds_no_validator_finding(lo_filled, item):
+    """Each LibreOffice-made workbook, filled, has no Open XML or ODF 1.3 RELAX NG error its input lacks."""
+    validators.require_validators()
+    f = _lo_done(lo_filled, item)
+    assert validators.new_findings(f.src, f.out) == []

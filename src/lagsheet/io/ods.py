@@ -569,6 +569,14 @@ class _TablePatch:
             out.append(_split(tag, f"{t}:number-columns-repeated", c, rep, hit, styled) if hit else tag)
             pos = end
             c += rep
+        if want and pos:  # new columns right of the declared ones: declare them (and any gap) after the last
+            for k in sorted(want):
+                if k > c:
+                    gap = f' {t}:number-columns-repeated="{k - c}"' if k - c > 1 else ""
+                    out.append(f"<{t}:table-column{gap}/>")
+                name = self.styles.column(want.pop(k))
+                out.append(f'<{t}:table-column {t}:style-name="{name}"/>' if name else f"<{t}:table-column/>")
+                c = k + 1
         out.append(xml[pos:])
         return "".join(out)
 

@@ -22,7 +22,7 @@ import time
 import weakref
 import zipfile
 from collections.abc import Callable, Iterable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 from xml.sax.saxutils import escape
@@ -48,6 +48,8 @@ NS_PKG_REL = "http://schemas.openxmlformats.org/package/2006/relationships"
 REL_COMMENTS = NS_REL + "/comments"
 REL_VML = NS_REL + "/vmlDrawing"
 REL_TABLE = NS_REL + "/table"
+REL_STYLES = NS_REL + "/styles"
+CT_STYLES = "application/vnd.openxmlformats-officedocument.spreadsheetml.styles+xml"
 CT_COMMENTS = "application/vnd.openxmlformats-officedocument.spreadsheetml.comments+xml"
 CT_VML = "application/vnd.openxmlformats-officedocument.vmlDrawing"
 
@@ -414,8 +416,13 @@ class _Package:
         self.streams: dict[str, tuple[Callable[[], Iterable[str]], int]] = {}  # part -> (pieces, size hint)
         self.removed: set[str] = set()
         self.owned: set[str] = set()  # parts of lagsheet's own sheets from an earlier run, replaced now
-        self.styles = _Styles(self.read("xl/styles.xml"))
         self.content_types = self.read("[Content_Types].xml")
+        # the styles part is where the workbook's relationship says, not always xl/styles.xml
+        wb_part = _workbook_part(zf)
+        target = next((r.get("Target", "") for r in _read_rels(zf, wb_part) if r.get("Type") == REL_STYLES
+                       and r.get("TargetMode") != "External"), None)
+        self.styles_part = _rel_target(wb_part, target) if target else None
+        self.styles = _Styles(self.read(self.styles_part) if self.styles_part else "")
 
     def actual(self, name: str) -> str:
         """The name a part already goes by, ignoring case (part names compare so), else ``name``."""
@@ -514,7 +521,12 @@ class _Package:
 
     def finish(self) -> dict[str, bytes]:
         if self.styles.changed:
-            self.write("xl/styles.xml", self.styles.xml)
+            if self.styles_part is None:  # a workbook without one: ours, related and typed
+                wb_part = _workbook_part(self.zf)
+                self.styles_part = self.free("xl/styles{}.xml") if self.exists("xl/styles.xml") else "xl/styles.xml"
+                self.add_rel(wb_part, REL_STYLES, posixpath.relpath(self.styles_part, posixpath.dirname(wb_part)))
+            self.override(self.styles_part, CT_STYLES)
+            self.write(self.styles_part, self.styles.xml)
         if self.content_types != self.zf.read("[Content_Types].xml").decode("utf-8"):
             self.write("[Content_Types].xml", self.content_types)
         return self.out
@@ -975,85 +987,282 @@ def _cell_xml(p: str, ref: str, v: Any, style: str | None, fmt: str | None, styl
             f"</{p}is></{p}c>")
 
 
+# CT_Stylesheet's children in the order its schema fixes (ECMA-376 Part 1, sml.xsd)
+_STYLE_ORDER = ("numFmts", "fonts", "fills", "borders", "cellStyleXfs", "cellXfs", "cellStyles", "dxfs",
+                "tableStyles", "colors", "extLst")
+# the entries each list holds, and the one a list created from nothing starts with (so that an
+# index 0 that cells already use without a styles part keeps meaning "the default")
+_STYLE_ENTRY = {"numFmts": "numFmt", "fonts": "font", "fills": "fill", "borders": "border",
+                "cellStyleXfs": "xf", "cellXfs": "xf", "cellStyles": "cellStyle"}
+_STYLE_BASE = {
+    "fonts": ['<{p}font><{p}sz val="11"/><{p}name val="Calibri"/><{p}family val="2"/></{p}font>'],
+    "fills": ['<{p}fill><{p}patternFill patternType="none"/></{p}fill>',
+              '<{p}fill><{p}patternFill patternType="gray125"/></{p}fill>'],
+    "borders": ["<{p}border><{p}left/><{p}right/><{p}top/><{p}bottom/><{p}diagonal/></{p}border>"],
+    "cellStyleXfs": ['<{p}xf numFmtId="0" fontId="0" fillId="0" borderId="0"/>'],
+    "cellXfs": ['<{p}xf numFmtId="0" fontId="0" fillId="0" borderId="0" xfId="0"/>'],
+    "cellStyles": ['<{p}cellStyle name="Normal" xfId="0" builtinId="0"/>'],
+}
+NS_MC = "http://schemas.openxmlformats.org/markup-compatibility/2006"
+
+
+@dataclass(slots=True)
+class _El:
+    """One element of the styles part: its expanded name, attributes and byte offsets."""
+
+    ns: str
+    name: str
+    attrs: dict[str, str]
+    start: int  # the '<' of its start tag
+    open_end: int  # just after its start tag
+    end: int = -1  # just after its end tag (== open_end when the tag is empty)
+    kids: list[_El] = field(default_factory=list)
+
+    @property
+    def empty(self) -> bool:
+        return self.end == self.open_end
+
+
+_START_TAG = re.compile(rb"""<[^\s/>]+(?:\s+[^\s=/>]+\s*=\s*(?:"[^"]*"|'[^']*'))*\s*/?>""")
+
+
+def _tag_end(data: bytes, i: int) -> int:
+    """The offset just after the start tag that begins at ``i`` ('>' inside a quoted value skipped)."""
+    m = _START_TAG.match(data, i)
+    if m is None:
+        raise ValueError("unterminated tag")
+    return m.end()
+
+
+def _parse_styles(data: bytes, depth: int = 4) -> tuple[_El, set[int]]:
+    """The element tree of a styles part down to ``depth`` levels below the root (byte offsets for
+    the root and its children, the only ones ever spliced at), and every numFmtId used anywhere.
+    An XML parser does it, so markup inside comments, CDATA or attribute values is never taken
+    for an element."""
+    import xml.parsers.expat
+
+    p = xml.parsers.expat.ParserCreate(encoding="utf-8", namespace_separator=" ")
+    stack: list[_El] = []
+    root: list[_El] = []
+    ids: set[int] = set()
+    skipped = [0]
+
+    def start(name, attrs):
+        fid = attrs.get("numFmtId")
+        if fid is not None and fid.isdigit():
+            ids.add(int(fid))
+        if skipped[0] or len(stack) > depth or (len(stack) >= 3 and stack[-1].ns != NS_MC):
+            skipped[0] += 1  # below an entry: nothing counted there (AlternateContent's branches are)
+            return
+        ns, _, local = name.rpartition(" ")
+        if len(stack) <= 1:
+            i = p.CurrentByteIndex
+            el = _El(ns, local, attrs, i, _tag_end(data, i))
+        else:
+            el = _El(ns, local, attrs, -1, -1)
+        (stack[-1].kids if stack else root).append(el)
+        stack.append(el)
+
+    def end(name):
+        if skipped[0]:
+            skipped[0] -= 1
+            return
+        el = stack.pop()
+        if el.start >= 0:
+            i = p.CurrentByteIndex
+            el.end = el.open_end if data[el.open_end - 2] == 0x2F else data.index(b">", i) + 1  # '/>': empty
+
+    def no_dtd(*_args):
+        raise ValueError("a document type declaration")
+
+    p.StartElementHandler, p.EndElementHandler = start, end
+    p.StartDoctypeDeclHandler = no_dtd
+    p.Parse(data, True)
+    return root[0], ids
+
+
 class _Styles:
-    """Adds the few cell formats lagsheet needs to styles.xml, keeping everything else."""
+    """Adds the few cell formats lagsheet needs to the styles part, keeping everything else.
+
+    The part is parsed once (expat, with byte offsets), never searched for tags: an index
+    is the position among the list's entries, where an ``mc:AlternateContent`` stands for
+    the entries of the branch a current spreadsheet program takes (its first Choice). New
+    entries are kept aside and spliced into the original text when :attr:`xml` is asked
+    for; a list the part lacks is created in the schema's order, starting with the default
+    entry (index 0 keeps meaning the default).
+    """
 
     def __init__(self, xml: str):
-        self.xml = xml
-        self.changed = False
         self._fmt: dict[str, str] = {}
         self._quote: dict[str | None, str] = {}
-        m = re.search(r"<(\w+:)?styleSheet\b", xml)
-        self.p = (m.group(1) or "") if m else ""
+        self._bold: int | None = None
+        self._new: dict[str, list[str]] = {}  # list name -> entries added, in order
+        self._new_fmts: dict[str, int] = {}  # format code -> the numFmtId we gave it
+        if not xml.strip():
+            xml = (f'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
+                   f'<styleSheet xmlns="{NS_MAIN}"/>')
+        self._data = xml.encode("utf-8")
+        try:
+            self._root, self._ids = _parse_styles(self._data)
+        except Exception as exc:  # expat's or ours: either way the part cannot be parsed
+            raise WorkbookError("the workbook's styles part cannot be read (not well-formed XML); "
+                                "open the file in a spreadsheet program and save it again") from exc
+        if self._root.name != "styleSheet" or self._root.ns != NS_MAIN:
+            raise WorkbookError("the workbook's styles part is not a spreadsheet style sheet; "
+                                "open the file in a spreadsheet program and save it again")
+        m = re.match(rb"<([\w.-]+:)?styleSheet\b", self._data[self._root.start:self._root.open_end])
+        self.p = (m.group(1) or b"").decode("utf-8")
+        self._lists: dict[str, _El] = {}
+        for k in self._root.kids:
+            if k.ns == NS_MAIN and k.name in _STYLE_ORDER:
+                self._lists.setdefault(k.name, k)
+        self._counts = {name: len(self._entries(lst, _STYLE_ENTRY[name]))
+                        for name, lst in self._lists.items() if name in _STYLE_ENTRY}
+        self._based = False
+
+    @property
+    def changed(self) -> bool:
+        return bool(self._new)
+
+    @staticmethod
+    def _entries(lst: _El, entry: str) -> list[_El]:
+        """The list's entries in index order (an AlternateContent: its first Choice, else its Fallback)."""
+        out = []
+        for k in lst.kids:
+            if k.ns == NS_MC and k.name == "AlternateContent":
+                branches = ([b for b in k.kids if b.ns == NS_MC and b.name == "Choice"]
+                            or [b for b in k.kids if b.ns == NS_MC and b.name == "Fallback"])
+                if branches:
+                    out += [e for e in branches[0].kids if e.ns == NS_MAIN and e.name == entry]
+            elif k.ns == NS_MAIN and k.name == entry:
+                out.append(k)
+        return out
+
+    def _count(self, name: str) -> int:
+        return self._counts.get(name, 0) + len(self._new.get(name, ()))
+
+    def _append(self, name: str, entries: list[str]) -> int:
+        """Add entries (XML with '{p}' for the prefix) to list ``name``; the first one's index."""
+        index = self._count(name)
+        self._new.setdefault(name, []).extend(e.format(p=self.p) for e in entries)
+        return index
+
+    @property
+    def xml(self) -> str:
+        """The part with the added entries spliced in (counts updated, missing lists created)."""
+        p, data, root = self.p, self._data, self._root
+        edits: list[tuple[int, int, int, str]] = []  # (start, end, order, text)
+        created = []
+        for name, entries in self._new.items():
+            lst = self._lists.get(name)
+            body = "".join(entries)
+            rank = _STYLE_ORDER.index(name)
+            if lst is None:
+                created.append((rank, f'<{p}{name} count="{len(entries)}">{body}</{p}{name}>'))
+                continue
+            head = data[lst.start:lst.open_end].decode("utf-8")
+            if re.search(r'\scount\s*=', head):
+                head = re.sub(r'(\scount\s*=\s*)("[^"]*"|\'[^\']*\')', rf'\g<1>"{self._count(name)}"', head, count=1)
+            if lst.empty:
+                edits.append((lst.start, lst.end, rank, head[:-2].rstrip() + f">{body}</{p}{name}>"))
+            else:
+                close = data.rindex(b"</", lst.start, lst.end)
+                edits.append((lst.start, lst.open_end, rank, head))
+                edits.append((close, close, rank, body))
+        if created and root.empty:
+            head = data[root.start:root.open_end].decode("utf-8")
+            edits.append((root.start, root.end, 0, head[:-2].rstrip() + ">"
+                          + "".join(t for _, t in sorted(created)) + f"</{p}styleSheet>"))
+        else:
+            for rank, text in created:
+                follow = next((k for k in root.kids if k.ns == NS_MAIN and k.name in _STYLE_ORDER
+                               and _STYLE_ORDER.index(k.name) > rank), None)
+                at = follow.start if follow else data.rindex(b"</", root.start, root.end)
+                edits.append((at, at, rank, text))
+        out, prev = [], 0
+        for start, end, _rank, text in sorted(edits):
+            out += [data[prev:start], text.encode("utf-8")]
+            prev = end
+        out.append(data[prev:])
+        return b"".join(out).decode("utf-8")
+
+    def _base(self) -> None:
+        """Give a part that lacks them the lists our cell formats refer to, each with its default."""
+        if not self._based:
+            self._based = True
+            for name in ("fonts", "fills", "borders", "cellStyleXfs", "cellXfs", "cellStyles"):
+                if not self._count(name):
+                    self._append(name, _STYLE_BASE[name])
 
     BUILTIN = {"0": 1, "0.00": 2, "#,##0": 3, "#,##0.00": 4, "@": 49}
 
     def _num_fmt_id(self, code: str) -> int:
         if code in self.BUILTIN:
             return self.BUILTIN[code]
-        for m in re.finditer(r'<(?:\w+:)?numFmt\b[^>]*numFmtId="(\d+)"[^>]*formatCode="([^"]*)"', self.xml):
-            if _unescape(m.group(2)) == code:
-                return int(m.group(1))
-        ids = [int(x) for x in re.findall(r'numFmtId="(\d+)"', self.xml)]
-        new = max([163] + ids) + 1
-        el = f'<{self.p}numFmt numFmtId="{new}" formatCode="{_text(code)}"/>'
-        end = re.search(r"</(\w+:)?numFmts>", self.xml)
-        if end:
-            self.xml = self.xml[:end.start()] + el + self.xml[end.start():]
-            self._recount("numFmts", "numFmt")
-        else:
-            at = re.search(r"<(\w+:)?styleSheet\b[^>]*>", self.xml).end()
-            self.xml = self.xml[:at] + f'<{self.p}numFmts count="1">{el}</{self.p}numFmts>' + self.xml[at:]
-        return new
-
-    def _recount(self, parent: str, child: str) -> None:
-        m = re.search(rf"<(\w+:)?{parent}\b[^>]*>(.*?)</(\w+:)?{parent}>", self.xml, re.S)
-        if not m:
-            return
-        n = len(re.findall(rf"<(?:\w+:)?{child}\b", m.group(2)))
-        head = re.match(rf"<(\w+:)?{parent}\b[^>]*>", m.group(0)).group(0)
-        new_head = re.sub(r'count="\d+"', f'count="{n}"', head) if "count=" in head else head
-        self.xml = self.xml[:m.start()] + new_head + self.xml[m.start() + len(head):]
+        lst = self._lists.get("numFmts")
+        for f in self._entries(lst, "numFmt") if lst is not None else ():
+            if f.attrs.get("formatCode") == code and f.attrs.get("numFmtId", "").isdigit():
+                return int(f.attrs["numFmtId"])
+        if code not in self._new_fmts:
+            new = max([163, *self._ids, *self._new_fmts.values()]) + 1
+            attr = _text(code).replace('"', "&quot;").replace("{", "{{").replace("}", "}}")
+            self._append("numFmts", [f'<{{p}}numFmt numFmtId="{new}" formatCode="{attr}"/>'])
+            self._new_fmts[code] = new
+        return self._new_fmts[code]
 
     def _add_xf(self, xf: str) -> str:
-        m = re.search(r"<(\w+:)?cellXfs\b[^>]*>(.*?)</(\w+:)?cellXfs>", self.xml, re.S)
-        if not m:
-            raise WorkbookError("the workbook's styles part has no cell formats; save it again in a spreadsheet program")
-        index = len(re.findall(r"<(?:\w+:)?xf\b", m.group(2)))
-        self.xml = self.xml[:m.end(2)] + xf + self.xml[m.end(2):]
-        self._recount("cellXfs", "xf")
-        self.changed = True
-        return str(index)
+        self._base()
+        return str(self._append("cellXfs", [xf]))
 
     def xf_for(self, code: str | None, bold: bool = False) -> str:
         key = f"{code}|{bold}"
         if key not in self._fmt:
+            self._base()
             fid = self._num_fmt_id(code) if code else 0
             font = self._bold_font() if bold else 0
             self._fmt[key] = self._add_xf(
-                f'<{self.p}xf numFmtId="{fid}" fontId="{font}" fillId="0" borderId="0" xfId="0" '
+                f'<{{p}}xf numFmtId="{fid}" fontId="{font}" fillId="0" borderId="0" xfId="0" '
                 f'applyNumberFormat="1"{" applyFont=" + chr(34) + "1" + chr(34) if bold else ""}/>')
         return self._fmt[key]
 
     def _bold_font(self) -> int:
-        if getattr(self, "_bold", None) is None:
-            m = re.search(r"<(\w+:)?fonts\b[^>]*>(.*?)</(\w+:)?fonts>", self.xml, re.S)
-            if not m:
-                self._bold = 0
-                return 0
-            index = len(re.findall(r"<(?:\w+:)?font\b", m.group(2)))
-            p = self.p
-            self.xml = self.xml[:m.end(2)] + f'<{p}font><{p}b/><{p}sz val="11"/></{p}font>' + self.xml[m.end(2):]
-            self._recount("fonts", "font")
-            self._bold = index
+        if self._bold is None:
+            self._base()
+            self._bold = self._append("fonts", ['<{p}font><{p}b/><{p}sz val="11"/></{p}font>'])
         return self._bold
 
     def quote_xf(self, base: str | None) -> str:
         if base not in self._quote:
             self._quote[base] = self._add_xf(
-                f'<{self.p}xf numFmtId="49" fontId="0" fillId="0" borderId="0" xfId="0" applyNumberFormat="1" '
+                '<{p}xf numFmtId="49" fontId="0" fillId="0" borderId="0" xfId="0" applyNumberFormat="1" '
                 'quotePrefix="1"/>')
         return self._quote[base]
+
+
+# CT_Font's children in the order the Open XML SDK's schema (and Excel) expects; openpyxl
+# writes name, family, color, sz, scheme, which a schema validator rejects
+_FONT_ORDER = ("b", "i", "strike", "condense", "extend", "outline", "shadow", "u", "vertAlign", "sz",
+               "color", "name", "family", "charset", "scheme")
+
+
+def fonts_in_schema_order(styles_xml: bytes) -> bytes:
+    """The styles part with each font's children reordered as CT_Font's sequence asks.
+
+    For the workbooks lagsheet itself writes through openpyxl (the template, the demo):
+    their fonts hold only empty child elements, which this moves; a font holding anything
+    else is left as it is.
+    """
+    rank = {n: k for k, n in enumerate(_FONT_ORDER)}
+
+    def order(m: re.Match) -> bytes:
+        kids = re.findall(rb"<(\w+)\b[^<>]*/>", m.group(2))
+        whole = re.findall(rb"<\w+\b[^<>]*/>", m.group(2))
+        if b"".join(whole) != m.group(2) or any(k.decode() not in rank for k in kids):
+            return m.group(0)
+        pairs = sorted(zip(kids, whole, strict=True), key=lambda kw: rank[kw[0].decode()])
+        return m.group(1) + b"".join(w for _, w in pairs) + m.group(3)
+
+    return re.sub(rb"(<font>)(.*?)(</font>)", order, styles_xml, flags=re.S)
 
 
 def _strip_our_comments(cxml: str) -> tuple[set[str], set[str], str]:
