@@ -79,12 +79,15 @@ def lines_edits(raw: RawSheet, t: Table, res: Results, us: bool, currency: str) 
             col = next_col
             next_col += 1
         e.values[(header_row, col)] = header
+        values = _column(out, res, us)
         if col not in existing.values():
             e.headers[(header_row, col)] = (header_row, _style_source(raw, header_row))
-            e.widths[col] = 60.0 if out.key == "notes" else max(10.0, min(len(header) + 2.0, 24.0))
+            # wide enough for the header (up to 24) and for the longest text written (up to 40)
+            longest = max((len(v) for v in values if isinstance(v, str)), default=0)
+            e.widths[col] = 60.0 if out.key == "notes" else max(10.0, min(len(header) + 2.0, 24.0),
+                                                                 min(longest + 2.0, 40.0))
         if t.units_row is not None:
             e.values[(t.units_row, col)] = unit or None
-        values = _column(out, res, us)
         for i, r in enumerate(t.rows):
             v = values[i]
             e.values[(r, col)] = v

@@ -334,6 +334,18 @@ def _logical_cols(root) -> dict[int, tuple]:
 
 
 NEW_ELEMENTS_ALLOWED = {"dimension", "cols", "legacyDrawing"}
+# a sheet with no page setup of its own gets ours (landscape, fit to pages wide): these only
+PAGE_SETUP_ELEMENTS = {"sheetPr", "pageSetup"}
+
+
+def _without_fit_to_page(el):
+    """A copy of <sheetPr> without the fitToPage flag (and without a pageSetUpPr it leaves empty)."""
+    el = copy.deepcopy(el)
+    for pr in el.findall(q(MAIN, "pageSetUpPr")):
+        pr.attrib.pop("fitToPage", None)
+        if not pr.attrib and len(pr) == 0:
+            el.remove(pr)
+    return el
 
 
 def check_sheet_elements(inp: dict[str, bytes], out: dict[str, bytes]) -> list[str]:
@@ -348,6 +360,8 @@ def check_sheet_elements(inp: dict[str, bytes], out: dict[str, bytes]) -> list[s
         problems.append(f"the worksheet element lost namespace declarations {lost} (mc:Ignorable names them)")
     kids_i = [e for e in ri if isinstance(e.tag, str)]
     kids_o = [e for e in ro if isinstance(e.tag, str)]
+    had_setup = ri.find(q(MAIN, "pageSetup")) is not None or any(
+        pr.get("fitToPage") is not None for pr in ri.iter(q(MAIN, "pageSetUpPr")))
     seen: dict[str, int] = {}
     by_tag_o: dict[str, list] = {}
     for e in kids_o:
@@ -375,6 +389,8 @@ def check_sheet_elements(inp: dict[str, bytes], out: dict[str, bytes]) -> list[s
             continue
         if name == "cols":
             continue  # compared column by column below
+        if name == "sheetPr" and not had_setup:
+            e, other = _without_fit_to_page(e), _without_fit_to_page(other)
         if canon(e) != canon(other):
             problems.append(f"<{name}> changed: {short(e)} -> {short(other)}")
     # the original order of elements is kept (the schema fixes it)
@@ -384,7 +400,7 @@ def check_sheet_elements(inp: dict[str, bytes], out: dict[str, bytes]) -> list[s
         problems.append(f"elements reordered: {[local(t) for t in order_i]} -> {[local(t) for t in order_o]}")
     for e in kids_o:
         name = local(e.tag)
-        if e.tag not in seen and name not in NEW_ELEMENTS_ALLOWED:
+        if e.tag not in seen and name not in NEW_ELEMENTS_ALLOWED and (had_setup or name not in PAGE_SETUP_ELEMENTS):
             problems.append(f"unexpected new element <{name}>: {short(e)}")
     # columns: every original column keeps its width, style, hidden flag...; new ones only to the right
     ci, co = _logical_cols(ri), _logical_cols(ro)

@@ -560,6 +560,7 @@ class _SheetPatch:
         self._cols()
         self._tables()
         self._comments()
+        self._page_setup()
         self.xml = ""  # the pieces hold it now
         self.pkg.write_stream(self.part, self._stream, _size_hint(self.head, self.inner, self.tail, self.e))
 
@@ -836,6 +837,42 @@ class _SheetPatch:
             self.head += f"<{self.p}cols>{new}</{self.p}cols>"
 
     # -- the Lines table -------------------------------------------------------------------
+
+    def _page_setup(self) -> None:
+        """A sheet with no page setup of its own prints landscape, so many pages wide that text keeps
+        about two thirds of its size (all of it on one page when it is narrow enough). A page setup
+        the user chose is kept as it is."""
+        p = self.p
+        if not self.e.values or re.search(rf"<{p}pageSetup\b", self.tail) or re.search(r"\bfitToPage=", self.head):
+            return  # notes only (check --annotate), or the user's own setup
+        widths: dict[int, float] = {}
+        default = re.search(r'<(?:\w+:)?sheetFormatPr\b[^>]*\b(?:defaultColWidth|baseColWidth)="([\d.]+)"',
+                            self.head)
+        default_w = float(default.group(1)) if default and "defaultColWidth" in default.group(0) else 8.43
+        for m in re.finditer(r"<(?:\w+:)?col\b[^>]*>", self.head):
+            a = _attrs(m.group(0))
+            try:
+                lo, hi, w = int(a["min"]), int(a["max"]), float(a.get("width", default_w))
+            except (KeyError, ValueError):
+                continue
+            for c in range(lo - 1, min(hi, self._max_col + 1)):
+                widths[c] = 0.0 if a.get("hidden") in ("1", "true") else w
+        total = sum(widths.get(c, default_w) for c in range(self._max_col + 1))
+        wide = max(1, -(-int(total) // CHARS_PER_PAGE))
+        follow = re.search(rf"<{p}(?:{'|'.join(_AFTER_PAGE_SETUP)})\b", self.tail)
+        at = follow.start() if follow else self.tail.rindex("</")
+        self.tail = self.tail[:at] + _PAGE_SETUP.format(p=p, wide=wide) + self.tail[at:]
+        fit = f'<{p}pageSetUpPr fitToPage="1"/>'
+        if re.search(rf"<{p}pageSetUpPr\b", self.head):  # there, without fitToPage
+            self.head = re.sub(rf"<{p}pageSetUpPr\b", f'<{p}pageSetUpPr fitToPage="1"', self.head, count=1)
+        elif m := re.search(rf"<{p}sheetPr\b[^>]*?/>", self.head):
+            self.head = (self.head[:m.start()] + m.group(0)[:-2].rstrip() + f">{fit}</{p}sheetPr>"
+                         + self.head[m.end():])
+        elif m := re.search(rf"</{p}sheetPr>", self.head):  # pageSetUpPr is the last of its children
+            self.head = self.head[:m.start()] + fit + self.head[m.start():]
+        else:
+            m = re.search(rf"<{p}worksheet\b[^>]*>", self.head)
+            self.head = self.head[:m.end()] + f"<{p}sheetPr>{fit}</{p}sheetPr>" + self.head[m.end():]
 
     def _tables(self) -> None:
         hr = self.e.header_row
@@ -1431,23 +1468,39 @@ def _put_sheet(pkg: _Package, book: XlsxBook, sheet) -> None:
         crid = pkg.add_rel(d_part, REL_CHART, "../charts/" + posixpath.basename(c_part))
         pkg.override(d_part, CT_DRAWING)
         pkg.override(c_part, CT_CHART)
-        pkg.write(d_part, _drawing_xml(crid, len(sheet.rows) + 1))
+        ncols = max(max((len(r) for r in sheet.rows), default=8), 8)
+        # a landscape page as wide as these columns is about 0.2 rows high per character of width
+        width = sum(sheet.widths.get(c, 8.43) for c in range(ncols))
+        pkg.write(d_part, _drawing_xml(crid, len(sheet.rows) + 2, ncols, max(15, min(40, int(width * 0.2)))))
         pkg.write(c_part, _chart_xml(name, sheet))
         drawing = f'<drawing r:id="{drid}"/>'
+    # printed landscape, as wide as the page; the chart (a row below the break) starts a page of its own
+    breaks = (f'<rowBreaks count="1" manualBreakCount="1"><brk id="{len(sheet.rows) + 1}" max="16383" man="1"/>'
+              "</rowBreaks>") if sheet.chart else ""
     xml = (f'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<worksheet xmlns="{NS_MAIN}" '
-           f'xmlns:r="{NS_REL}"><dimension ref="A1:{column_letter(max((len(r) for r in sheet.rows), default=1) - 1)}'
+           f'xmlns:r="{NS_REL}"><sheetPr><pageSetUpPr fitToPage="1"/></sheetPr>'
+           f'<dimension ref="A1:{column_letter(max((len(r) for r in sheet.rows), default=1) - 1)}'
            f'{max(len(sheet.rows), 1)}"/><sheetViews><sheetView workbookViewId="0"/></sheetViews>'
            f'<sheetFormatPr defaultRowHeight="15"/>' + (f"<cols>{cols}</cols>" if cols else "")
-           + f'<sheetData>{"".join(rows_xml)}</sheetData><pageMargins left="0.7" right="0.7" top="0.75" '
-           f'bottom="0.75" header="0.3" footer="0.3"/>{drawing}</worksheet>')
+           + f'<sheetData>{"".join(rows_xml)}</sheetData><pageMargins left="0.5" right="0.5" top="0.75" '
+           f'bottom="0.75" header="0.3" footer="0.3"/>{_PAGE_SETUP.format(p="", wide=1)}{breaks}{drawing}</worksheet>')
     pkg.write(part, xml)
 
 
-def _drawing_xml(chart_rid: str, row: int) -> str:
+_PAGE_SETUP = '<{p}pageSetup orientation="landscape" fitToWidth="{wide}" fitToHeight="0"/>'
+# what may follow pageSetup in a worksheet (CT_Worksheet's sequence): it goes before the first
+_AFTER_PAGE_SETUP = ("headerFooter", "rowBreaks", "colBreaks", "customProperties", "cellWatches", "ignoredErrors",
+                     "smartTags", "drawing", "legacyDrawing", "legacyDrawingHF", "drawingHF", "picture",
+                     "oleObjects", "controls", "webPublishItems", "tableParts", "extLst")
+CHARS_PER_PAGE = 250  # column width (characters) printed across one landscape page: text at about 2/3 size
+
+
+def _drawing_xml(chart_rid: str, row: int, cols: int = 8, rows: int = 20) -> str:
+    """The chart below the table, as wide as the table (so a page as wide as the table holds it)."""
     return (f'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<xdr:wsDr xmlns:xdr="{NS_DRAW}" '
             f'xmlns:a="{NS_A}"><xdr:twoCellAnchor><xdr:from><xdr:col>0</xdr:col><xdr:colOff>0</xdr:colOff>'
-            f"<xdr:row>{row}</xdr:row><xdr:rowOff>0</xdr:rowOff></xdr:from><xdr:to><xdr:col>8</xdr:col>"
-            f"<xdr:colOff>0</xdr:colOff><xdr:row>{row + 20}</xdr:row><xdr:rowOff>0</xdr:rowOff></xdr:to>"
+            f"<xdr:row>{row}</xdr:row><xdr:rowOff>0</xdr:rowOff></xdr:from><xdr:to><xdr:col>{cols}</xdr:col>"
+            f"<xdr:colOff>0</xdr:colOff><xdr:row>{row + rows}</xdr:row><xdr:rowOff>0</xdr:rowOff></xdr:to>"
             '<xdr:graphicFrame macro=""><xdr:nvGraphicFramePr><xdr:cNvPr id="2" name="lagsheet chart"/>'
             '<xdr:cNvGraphicFramePr/></xdr:nvGraphicFramePr><xdr:xfrm><a:off x="0" y="0"/><a:ext cx="0" cy="0"/>'
             f'</xdr:xfrm><a:graphic><a:graphicData uri="{NS_C}"><c:chart xmlns:c="{NS_C}" '
