@@ -262,8 +262,9 @@ class XlsxBook:
 def _check_package(out: zipfile.ZipFile, inp: zipfile.ZipFile, edited: set[str], owned: set[str]) -> None:
     """The written package before it replaces anything: no two part names or sheet names equal
     ignoring case, and no relationship of a person's part added, dropped or changed, but for
-    the notes (comments and their drawing) of the sheets lagsheet writes in, and the
-    workbook's relationships to lagsheet's new sheets. Raises WorkbookError (nothing is written).
+    the notes (comments and their drawing) of the sheets lagsheet writes in, the workbook's
+    relationships to lagsheet's new sheets, and to a styles part when it had none. Raises
+    WorkbookError (nothing is written).
     """
     tail = "; nothing was written. Please report this with the workbook"
     seen: dict[str, str] = {}
@@ -294,8 +295,10 @@ def _check_package(out: zipfile.ZipFile, inp: zipfile.ZipFile, edited: set[str],
                 continue
             rtype, external, target = rel
             fresh = not external and target not in before
+            no_styles = not any(t == REL_STYLES for t, _e, _t in old.values())  # then ours is the first
             if rid in old or not fresh or not (
-                    (part in edited and rtype in allowed) or (part == wb_part and rtype == REL_WORKSHEET)):
+                    (part in edited and rtype in allowed) or (part == wb_part and rtype == REL_WORKSHEET)
+                    or (part == wb_part and rtype == REL_STYLES and no_styles)):
                 raise WorkbookError(f"the written file would give the workbook's part {part} a relationship "
                                     f"it did not have (to {target}){tail}")
         dropped = sorted(set(old) - set(new))
