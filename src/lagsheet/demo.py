@@ -13,7 +13,6 @@ lines with no target, a water line with no pipe schedule) produce warnings, not 
 
 from __future__ import annotations
 
-import io
 import zipfile
 from pathlib import Path
 
@@ -178,12 +177,10 @@ def write_demo(path: Path) -> None:
             cell.font = Font(bold=True)
     from .io.save import atomic_write
 
-    buf = io.BytesIO()
-    wb.save(buf)
-    with zipfile.ZipFile(buf) as src:
-        members = [(i, src.read(i.filename)) for i in src.infolist()]
-
     def write(tmp: str) -> None:
+        wb.save(tmp)
+        with zipfile.ZipFile(tmp) as src:
+            members = [(i, src.read(i.filename)) for i in src.infolist()]
         with zipfile.ZipFile(tmp, "w", zipfile.ZIP_DEFLATED) as dst:
             for info, data in members:  # the fonts as the schema orders them, or validators object
                 dst.writestr(info, fonts_in_schema_order(data) if info.filename == "xl/styles.xml" else data)
