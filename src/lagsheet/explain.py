@@ -88,9 +88,15 @@ def explain(inputs: Inputs, raw: RawSheet, res: Results, i: int) -> list[str]:
         rule = "2k/h" if L.geometry == SPHERE else "k/h"
         out.append(f"  critical radius {show(float(v['critical_radius'][i]), 'radius', us)} "
                    f"({rule} with h = h_conv + h_rad = {h_c + h_r:.3f} W/(m²·K))")
-    out += ["", "Targets (each one's own thinnest sold thickness):"]
+    out += ["", "Targets (each one's own thinnest sold thickness; margin at the chosen system, worst named "
+            "condition):"]
+    margins = res.target_margin[i] if res.target_margin else {}
     for name, th in (res.target_thickness[i] if res.target_thickness else {}).items():
-        out.append(f"  {name}: " + (show(th, "thickness", us) if th is not None else "not met by any sold thickness"))
+        text = show(th, "thickness", us) if th is not None else "not met by any sold thickness"
+        if name in margins:
+            m, kind = margins[name]
+            text += f"; margin {_signed(m, kind, us)}"
+        out.append(f"  {name}: {text}")
     out.append(f"  governing: {v['governing'][i]}" + (f" at '{v['governing_condition'][i]}'"
                                                       if v["governing_condition"][i] else ""))
     out.append(f"  chosen: {v['layers'][i]}")
@@ -104,6 +110,11 @@ def explain(inputs: Inputs, raw: RawSheet, res: Results, i: int) -> list[str]:
     out += ["", "Cautions: surface limits depend on contact time and surface material (ASTM C1055, ISO 13732-1); "
             "follow local codes, the owner's specification and licensed practice."]
     return out
+
+
+def _signed(value: float, kind: str, us: bool) -> str:
+    """'+26.2 K' (room to spare) or '-1.5 K' (short), in the workbook's units."""
+    return ("+" if value >= 0 else "-") + show(abs(value), kind, us)
 
 
 def _process(L, v, i: int, us: bool) -> list[str]:

@@ -28,6 +28,7 @@ from .physics.sizing import evaluate, heat_rate, per_line, whole_factor
 from .physics.surface import CORRELATION_NAMES, linearised_h
 from .resolve import Columns, Line, resolve
 
+THINNEST = "thinnest sold"  # Governing word when the thinnest sold system meets every target
 GOVERNING_ORDER = ("surface temperature", "condensation", "heat loss", "temperature drop",
                    "freeze protection", "hold time", "interface", "minimum")
 PERSONNEL_LIMIT_K = 333.15  # 60 °C, the usual personnel-protection limit (common practice)
@@ -53,6 +54,7 @@ class Results:
     quantities: Quantities | None = None  # of the chosen systems (lines × 1 × slots)
     chosen: np.ndarray | None = None  # chosen thickness per slot (lines × slots) [m]
     target_thickness: list[dict] = field(default_factory=list)  # per line: target -> its own thinnest [m]
+    target_margin: list[dict] = field(default_factory=list)  # per line: target -> (margin at the chosen, kind)
 
     def __post_init__(self):
         for key in RESULT_KEYS:
@@ -204,6 +206,7 @@ def _specify(inputs: Inputs) -> Results:
         meets["surface temperature"] = all_cases(c.t_surface <= tmax[case_line][:, None] + 1e-9)
         worst["surface temperature"] = c.t_surface
     qmax = t.get("max_heat_loss")
+    per_area = None
     if qmax is not None:
         per_area = _per_area(t, n)
         g = np.isfinite(qmax)
@@ -296,12 +299,17 @@ def _specify(inputs: Inputs) -> Results:
         gov_name[up] = "economic"
         gov_name[econ & (gov_name == None)] = "economic"  # noqa: E711 (object array)
     governing[:] = gov_name
+    # the thinnest sold system already meets every target: no target bound (Min thickness too)
+    thinnest = ok & ~econ & ~fixed & active & ~unmet & (chosen == 0)
+    governing[thinnest] = THINNEST
     governing[fixed & ok] = "fixed"
     governing[none_given] = "none"
 
     rows = np.arange(n)
     pick = np.maximum(chosen, 0)
     case_pick = pick[case_line]
+    res.target_margin = _margins(n, given, worst, starts, case_line, case_pick, tmax, qmax, tmin, total, pick,
+                                 per_area, lines)
     gov_cond = np.full(n, None, dtype=object)
     several = np.diff(np.r_[starts, len(case_line)]) > 1
     for name in worst:
@@ -377,6 +385,41 @@ def _specify(inputs: Inputs) -> Results:
         res.status.append("error" if "error" in lv or not lines[i].ok else
                           "warning" if "warning" in lv else "ok")
     return res
+
+
+def _margins(n, given, worst, starts, case_line, case_pick, tmax, qmax, tmin, total, pick, per_area, lines):
+    """Per line: target -> (its margin at the chosen system, worst named condition, display kind).
+
+    Positive = the target is met with room to spare: limit minus value for surface
+    temperature, heat loss and interface; surface minus (dew point + margin) for
+    condensation; chosen minus required for the minimum thickness.
+    """
+    out: list[dict] = [{} for _ in range(n)]
+    at = np.arange(len(case_line))
+
+    def per_line_max(w):
+        return np.maximum.reduceat(np.nan_to_num(w[at, case_pick], nan=np.inf), starts)
+
+    limit_of = {"surface temperature": tmax, "heat loss": qmax}
+    for name, w in worst.items():
+        if name not in ("condensation", "interface", *limit_of):
+            continue  # process targets: their values and requirements are shown with the process results
+        top = per_line_max(w)
+        if name == "condensation":
+            m = -top
+        elif name == "interface":
+            m = np.array([L.materials[1].max_temperature if len(L.materials) == 2 else np.nan for L in lines]) - top
+        else:
+            m = limit_of[name] - top
+        kind = ("per_area" if name == "heat loss" and per_area is not None and per_area[i] else
+                "per_length" if name == "heat loss" else "difference" for i in range(n))
+        for i, k in enumerate(kind):
+            if given[name][i] and np.isfinite(m[i]):
+                out[i][name] = (float(m[i]), k)
+    if tmin is not None and "minimum" in given:
+        for i in np.flatnonzero(given["minimum"]):
+            out[i]["minimum"] = (float(total[i, pick[i]] - tmin[i]), "thickness")
+    return out
 
 
 def _per_area(t, n: int) -> np.ndarray:
@@ -566,7 +609,7 @@ def _notes(i, L, res, t, th, c, k, start, case_cond, given, meets, sol, loss, ba
                           "no target on this line: the thinnest sold thickness is shown; give 'Max surface "
                           "temperature', 'Max heat loss', 'Prevent condensation', 'Min thickness' or "
                           "'Economic'", sheet, t.cell(i, "tag")))
-    if ncase > 1 and gov_cond and governing not in ("fixed", "none"):
+    if ncase > 1 and gov_cond and governing not in ("fixed", "none", THINNEST):
         where = ("at the coldest named condition, " if governing in ("freeze protection", "hold time")
                  else "at every named condition; ")
         notes.append(Note("info", "governing-condition",
