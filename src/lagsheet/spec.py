@@ -312,8 +312,10 @@ def _specify(inputs: Inputs) -> Results:
                                  per_area, lines)
     gov_cond = np.full(n, None, dtype=object)
     several = np.diff(np.r_[starts, len(case_line)]) > 1
+    # a thinnest-sold line is judged where its nearest target (the one the old rule named) is worst
+    basis = np.where(thinnest, gov_name, governing)
     for name in worst:
-        sel = np.array([g == name for g in governing]) & several & ok
+        sel = np.array([g == name for g in basis]) & several & ok
         if not sel.any():
             continue
         w = worst[name][np.arange(len(case_line)), case_pick]
@@ -321,7 +323,7 @@ def _specify(inputs: Inputs) -> Results:
             cs = slice(starts[i], starts[i] + len(lines[i].conditions))
             gov_cond[i] = case_cond[cs.start + int(np.nanargmax(w[cs]))].name
     for name in ("freeze protection", "hold time"):  # judged at the coldest named condition
-        for i in np.flatnonzero(np.array([g == name for g in governing]) & several & ok):
+        for i in np.flatnonzero(np.array([g == name for g in basis]) & several & ok):
             gov_cond[i] = lines[i].conditions[limits.coldest(lines[i])].name
     for i in np.flatnonzero(ok & (gov_cond == None)):  # noqa: E711
         gov_cond[i] = lines[i].conditions[0].name
@@ -454,8 +456,9 @@ class Quantities:
 def quantities(lines: list[Line], thickness: np.ndarray, base: System) -> Quantities:
     """Volumes and areas of systems ``thickness`` (lines × candidates × slots) on ``lines``.
 
-    Cylinders per their length, flats per their area, spheres whole. Layers of one
-    material are equal (``Max layer``); each layer's area is taken at its mid-radius.
+    Cylinders per their length, flats per their area, spheres whole. A slot thicker than
+    its material's ``Max layer`` is built of listed thicknesses (:func:`layer_builds`);
+    each layer's area is taken at its mid-radius.
     """
     n, m, slots = thickness.shape
     geometry = base.geometry[:, None]
@@ -475,18 +478,53 @@ def quantities(lines: list[Line], thickness: np.ndarray, base: System) -> Quanti
     r = np.broadcast_to(base.r_inner[:, None], (n, m)).copy()
     for j in range(slots):
         th = np.nan_to_num(thickness[:, :, j])
-        max_layer = np.array([L.materials[j].max_layer if j < len(L.materials) else np.inf
-                              for L in lines])[:, None]
-        k = np.where(th > 0, np.ceil(th / max_layer - 1e-9), 0)
+        each = layer_builds(lines, th, j)  # (n, m, most) layer thicknesses, inner first, 0 = none
         r2 = r + th
         vol[:, :, j] = volume(r, r2)
-        count[:, :, j] = k
-        # k equal layers: the sum of their mid-radius areas
-        step = np.where(k > 0, th / np.maximum(k, 1), 0)
-        mids = sum(area_at(r + (q + 0.5) * step) * (q < k) for q in range(int(count.max(initial=0))))
-        larea[:, :, j] = mids if np.ndim(mids) else 0.0
+        count[:, :, j] = np.sum(each > 0, axis=2)
+        below = np.cumsum(each, axis=2) - each  # thickness of this slot inside each layer
+        mids = sum(area_at(r + below[:, :, q] + 0.5 * each[:, :, q]) * (each[:, :, q] > 0)
+                   for q in range(each.shape[2]))
+        larea[:, :, j] = mids
         r = r2
     return Quantities(vol, count, larea, area_at(r))
+
+
+def layer_builds(lines: list[Line], th: np.ndarray, j: int, most: int = 4) -> np.ndarray:
+    """The layers of slot ``j`` of thicknesses ``th`` (lines × candidates): (lines × candidates × most).
+
+    Each build is of listed thicknesses of the material (:func:`library.build`); a total no
+    list builds (a ``Fixed thickness``) is split into equal layers no thicker than ``Max layer``.
+    Lines sharing a material's series are done together, once per distinct thickness.
+    """
+    n, m = th.shape
+    out = np.zeros((n, m, most))
+    groups: dict[tuple, list[int]] = {}
+    for i, L in enumerate(lines):
+        if j < len(L.series):
+            groups.setdefault(L.series[j], []).append(i)
+    for (listed, max_layer), members in groups.items():
+        rows = np.array(members)
+        block = th[rows]
+        values, inverse = np.unique(block, return_inverse=True)
+        table = np.zeros((len(values), most))
+        for u, total in enumerate(values):
+            table[u] = _build_of(float(total), listed, max_layer, most)
+        out[rows] = table[inverse.reshape(block.shape)]
+    return out
+
+
+def _build_of(total: float, listed: tuple[float, ...], max_layer: float, most: int) -> np.ndarray:
+    row = np.zeros(most)
+    if total <= 0:
+        return row
+    layers = library.build(total, listed, max_layer)
+    if layers is None:
+        k = max(1, math.ceil(total / max_layer - 1e-9)) if np.isfinite(max_layer) else 1
+        layers = (total / k,) * k
+    layers = layers[:most - 1] + (sum(layers[most - 1:]),) if len(layers) > most else layers
+    row[:len(layers)] = layers
+    return row
 
 
 def _installed_cost(lines, cand, base, st, res, t):
@@ -519,8 +557,9 @@ def _installed_cost(lines, cand, base, st, res, t):
 
 
 def layers_text(th: np.ndarray, materials: list[library.Material], us: bool,
-                t_interface: float = np.nan) -> str:
-    text, count = _layer_words(tuple(float(x) for x in th), tuple(materials), us)
+                t_interface: float = np.nan, series: list | None = None) -> str:
+    series = series or [library.series(mm, us) for mm in materials]
+    text, count = _layer_words(tuple(float(x) for x in th), tuple(materials), us, tuple(series))
     if count == 2 and np.isfinite(t_interface):
         text += f" (interface {show(t_interface, 'temperature', us)})"
     return text
@@ -528,15 +567,23 @@ def layers_text(th: np.ndarray, materials: list[library.Material], us: bool,
 
 @lru_cache(maxsize=4096)
 def _layer_words(th: tuple[float, ...], materials: tuple[library.Material, ...],
-                 us: bool) -> tuple[str, int]:
-    """('2 × 50 mm calcium silicate + 40 mm mineral wool', 2): few distinct systems in a schedule."""
+                 us: bool, series: tuple) -> tuple[str, int]:
+    """('2 × 50 mm calcium silicate + 40 mm mineral wool', 2): few distinct systems in a schedule.
+
+    Layers of one material as built (:func:`layer_builds`): '2 × 60 mm' when equal,
+    '2 layers (65 mm + 50 mm)' when not."""
     parts = []
-    for thick, m in zip(th, materials, strict=False):
+    for thick, m, (listed, max_layer) in zip(th, materials, series, strict=False):
         if thick <= 0:
             continue
-        count = max(1, math.ceil(thick / m.max_layer - 1e-9)) if np.isfinite(m.max_layer) else 1
-        each = show(thick / count, "thickness", us)
-        parts.append(f"{count} × {each} {m.name}" if count > 1 else f"{each} {m.name}")
+        each = [x for x in _build_of(thick, listed, max_layer, 4) if x > 0]
+        shown = [show(x, "thickness", us) for x in each]
+        if len(each) == 1:
+            parts.append(f"{shown[0]} {m.name}")
+        elif len(set(shown)) == 1:
+            parts.append(f"{len(each)} × {shown[0]} {m.name}")
+        else:
+            parts.append(f"{len(each)} layers ({' + '.join(shown)}) {m.name}")
     return (" + ".join(parts) if parts else "bare"), len(parts)
 
 
@@ -548,7 +595,7 @@ def _notes(i, L, res, t, th, c, k, start, case_cond, given, meets, sol, loss, ba
     notes = res.notes[i]
     sheet = t.sheet
     v = res.values
-    v["layers"][i] = layers_text(th, L.materials, us, v["t_interface"][i])
+    v["layers"][i] = layers_text(th, L.materials, us, v["t_interface"][i], L.series)
     names = " + ".join(m.name for m in L.materials)
     hot = L.t_op >= L.conditions[0].t_air
     ncase = len(L.conditions)
