@@ -96,7 +96,8 @@ def _single(thicknesses: tuple[float, ...]) -> tuple[tuple[float, ...], ...]:
 @lru_cache(maxsize=1024)
 def _pairs(inner: tuple[float, ...], outer: tuple[float, ...]) -> tuple[tuple[float, ...], ...]:
     """Inner × outer candidates, thinnest in total first (then the thinner inner layer)."""
-    return tuple(sorted(itertools.product(inner, outer), key=lambda p: (p[0] + p[1], p[0])))
+    # totals compared to 1 µm: 0.05 + 0.10 and 0.03 + 0.12 are one total, then the thinner inner layer first
+    return tuple(sorted(itertools.product(inner, outer), key=lambda p: (round(p[0] + p[1], 6), p[0])))
 
 
 class Columns:
