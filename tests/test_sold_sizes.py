@@ -118,3 +118,17 @@ def test_a_thicknesses_cell_in_inches_is_taken_in_inches(tmp_path):
     _, (line,) = run(tmp_path, [pipe(**{"Max surface temperature [°C]": 45})], sheets=sheets)
     assert line["status"] == "ok"
     assert line["results"]["thickness_m"] * 1000 in [pytest.approx(25.4 * x) for x in (1, 1.5, 2, 3)]
+
+
+def test_explain_shows_a_process_targets_margin(tmp_path, cli):
+    """A freeze-protection line: explain's margin is the reported time to freeze minus the required hours."""
+    row = pipe("FW-1", **{"Operating temperature [°C]": 8, "Condition": "winter", "Insulation": "cellular glass",
+                          "Max surface temperature [°C]": None, "Fluid": "water", "Freeze protection [h]": 6,
+                          "Schedule": "40"})
+    winter = [["Name", "Ambient temperature [°C]", "Wind speed [m/s]", "Relative humidity [%]"],
+              ["winter", -15, 5, 80]]
+    src, (line,) = run(tmp_path, [row], headers=list(row), sheets={"Conditions": winter})
+    out = cli("explain", src, "FW-1").output
+    m = re.search(r"freeze protection: (\d+) mm; margin \+(\d+\.\d) h", out)
+    assert m, out
+    assert float(m.group(2)) == pytest.approx(line["results"]["time_to_freeze_s"] / 3600 - 6, abs=0.051)

@@ -145,7 +145,8 @@ def _convection_lines(L, s1, sol, free_name, forced_name, us) -> list[str]:
 
 def _signed(value: float, kind: str, us: bool) -> str:
     """'+26.2 K' (room to spare) or '-1.5 K' (short), in the workbook's units."""
-    return ("+" if value >= 0 else "-") + show(abs(value), kind, us)
+    text = f"{abs(value) / 3600:.1f} h" if kind == "hours" else show(abs(value), kind, us)
+    return ("+" if value >= 0 else "-") + text
 
 
 def _process(L, v, i: int, us: bool) -> list[str]:

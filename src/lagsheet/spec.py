@@ -310,6 +310,14 @@ def _specify(inputs: Inputs) -> Results:
     case_pick = pick[case_line]
     res.target_margin = _margins(n, given, worst, starts, case_line, case_pick, tmax, qmax, tmin, total, pick,
                                  per_area, lines)
+    for name, need, sign in (("temperature drop", "max_drop", -1), ("freeze protection", "freeze", 1),
+                             ("hold time", "hold", 1)):  # process targets: their measure against the need
+        if name in process_values and name in given:
+            for i in np.flatnonzero(given[name] & ok):
+                value = float(process_values[name][i, pick[i]])
+                margin = sign * (value - float(getattr(lines[i].process, need)))
+                if np.isfinite(margin):
+                    res.target_margin[i][name] = (margin, "difference" if name == "temperature drop" else "hours")
     gov_cond = np.full(n, None, dtype=object)
     several = np.diff(np.r_[starts, len(case_line)]) > 1
     # a thinnest-sold line is judged where its nearest target (the one the old rule named) is worst
