@@ -76,3 +76,19 @@ def test_explain_plot_writes_a_png(book, cli, tmp_path):
     src, _, _ = book
     r = cli("explain", src, "C-1", "--plot", tmp_path / "c.png")
     assert r.exit_code == 0 and (tmp_path / "c.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_the_plot_of_an_inch_sheet_is_in_btu(tmp_path):
+    """On a sheet in °F and inches the heat-flow curve is in Btu/(h·ft): the report's W/m ÷ 0.9615194 (NIST SP 811)."""
+    head = ["Tag", "Shape", "Size", "Length [ft]", "Operating temperature [°F]", "Insulation",
+            "Max surface temperature [°F]"]
+    row = {"Tag": "U-1", "Shape": "pipe", "Size": "NPS 4", "Length [ft]": 30, "Operating temperature [°F]": 392,
+           "Insulation": "mineral wool", "Max surface temperature [°F]": 131}
+    src = write_book(tmp_path / "us.xlsx", [row], head)
+    out = fill(src, tmp_path / "out.xlsx", report_path=tmp_path / "r.json")
+    r = json.loads((tmp_path / "r.json").read_text())["lines"][0]["results"]
+    fig = figure(out.inputs, out.results, 0)
+    (q_line,) = [x for x in fig.axes[0].get_lines() if x.get_marker() == "o"]
+    assert "Btu/(h·ft)" in q_line.get_label() and "[in]" in fig.axes[1].get_xlabel()
+    at = np.interp(r["thickness_m"] / 0.0254, q_line.get_xdata(), q_line.get_ydata())
+    assert at == pytest.approx(r["heat_loss_per_length_W_m"] / 0.9615194, rel=0.01)
