@@ -398,7 +398,7 @@ def _specify(inputs: Inputs) -> Results:
 
 
 def _margins(n, given, worst, starts, case_line, case_pick, tmax, qmax, tmin, total, pick, per_area, lines):
-    """Per line: target -> (its margin at the chosen system, worst named condition, display kind).
+    """Per line: target -> (its margin at the chosen system over the named conditions, display kind).
 
     Positive = the target is met with room to spare: limit minus value for surface
     temperature, heat loss and interface; surface minus (dew point + margin) for
