@@ -172,4 +172,6 @@ def write_demo(path: Path) -> None:
             s.append(list(r))
         for cell in s[1]:
             cell.font = Font(bold=True)
-    wb.save(path)
+    from .io.save import atomic_write
+
+    atomic_write(path, wb.save, what="demo schedule")  # the one safe save: no link, lock or special file

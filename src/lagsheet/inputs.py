@@ -91,7 +91,8 @@ def read_inputs(book: Book, lines_sheet: str = "Lines") -> Inputs:
                 f = next(f for f in schema.LINE_FIELDS if f.key == req)
                 notes.append(Note("error", "missing-column",
                                   f"sheet {lines.sheet!r} needs a column {f.header!r}"
-                                  + (f" [{f.unit}]" if f.unit else ""), lines.sheet,
+                                  + (f" [{f.unit}]" if f.unit else "")
+                                  + f" in its header row (row {lines.header_row + 1})", lines.sheet,
                                   address(lines.header_row, 0)))
     us = _us_units(lines)
     return Inputs(lines, conditions, materials, dict(library.finishes()), settings, notes, columns, us,

@@ -266,3 +266,18 @@ def nominal_sizes() -> dict[float, float]:
     return dict(_pipe_table()[0])
 
 
+
+
+OD_TOLERANCE = 0.0005  # m: published tabulations of B36.10M differ in the last digit at NPS 10, 12, 18, 24
+
+
+@lru_cache(maxsize=4096)
+def nominal_size(od: float) -> tuple[str, int] | None:
+    """(NPS as written in the table, e.g. ``'1 1/2'``, and DN) of the nominal pipe size whose
+    outside diameter is within :data:`OD_TOLERANCE` of ``od`` [m]; None if none is."""
+    best = None
+    for r in _rows("pipe_sizes.csv"):
+        d = abs(float(r["outside_diameter_mm"]) / 1000 - od)
+        if d <= OD_TOLERANCE and (best is None or d < best[0]):
+            best = (d, r["nps"], int(r["dn"]))
+    return None if best is None else (best[1], best[2])

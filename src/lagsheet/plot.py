@@ -100,11 +100,26 @@ def figure(inputs: Inputs, res: Results, i: int):
     return fig
 
 
-def plot_line(inputs: Inputs, res: Results, i: int, out: Path) -> Path:
+def plot_line(inputs: Inputs, res: Results, i: int, out: Path, *, never=()) -> Path:
+    """Draw line ``i``'s curves into ``out`` (a PNG) through the one safe save; never onto a file of ``never``."""
     import matplotlib.pyplot as plt
+
+    from .io.save import atomic_write
 
     fig = figure(inputs, res, i)
     out = Path(out)
-    fig.savefig(out)
-    plt.close(fig)
+    fmt = out.suffix[1:].lower() or "png"  # the temporary file's name says nothing of the format
+    if fmt not in fig.canvas.get_supported_filetypes():
+        plt.close(fig)
+        from .errors import WorkbookError
+
+        raise WorkbookError(f"{out.name}: a plot is drawn as .png, .svg or .pdf; give a name ending in one of them")
+
+    def write(tmp: str) -> None:
+        fig.savefig(tmp, format=fmt)
+
+    try:
+        atomic_write(out, write, inputs=never, what="plot")
+    finally:
+        plt.close(fig)
     return out

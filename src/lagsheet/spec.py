@@ -245,6 +245,8 @@ def _specify(inputs: Inputs) -> Results:
     cost = _installed_cost(lines, cand, base, st, res, t)
     first_rate = c.heat_rate[first_case]
     whole = _whole(geometry, first_rate, np.array([L.length for L in lines]), np.array([L.area for L in lines]))
+    whole = limits.flowing_candidates(lines, np.array([L.economic for L in lines]) & ok, cases, starts, cand, table,
+                                      whole)
     hours = np.array([L.conditions[0].hours if ok[i] else 0.0 for i, L in enumerate(lines)])
     energy_cost = _energy_cost(whole, hours[:, None], st)
     crf = float(economics.capital_recovery_factor(float(st["discount_rate"]), float(st["service_life"])))
@@ -343,7 +345,8 @@ def _specify(inputs: Inputs) -> Results:
     sol = solve(first_sys, table)
     bare_eps = np.where(fixed & (np.nan_to_num(total[:, 0]) == 0), base.emissivity,
                         np.array([L.bare_emissivity for L in lines]))
-    bare = solve(per_line(first_sys, rows, thickness=np.zeros((n, slots)), emissivity=bare_eps), table)
+    bare_sys = per_line(first_sys, rows, thickness=np.zeros((n, slots)), emissivity=bare_eps)
+    bare = solve(bare_sys, table)
     res.system = first_sys
     res.quantities = quantities(lines, chosen_th[:, None, :], base)
     res.chosen = chosen_th
@@ -353,6 +356,9 @@ def _specify(inputs: Inputs) -> Results:
     areas = np.array([L.area for L in lines])
     loss = _whole(geometry, rate, lengths, areas)
     bare_loss = _whole(geometry, bare_rate, lengths, areas)
+    # a line with a flow loses the heat its fluid gives up along the line, not the inlet rate × length
+    loss, bare_loss = limits.flowing_lines(lines, ok & (chosen >= 0), first_sys, bare_sys, cases, starts,
+                                           chosen_th, table, loss, bare_loss, res, t, us)
     eff, cop, price = float(st["heating_efficiency"]), float(st["cooling_cop"]), float(st["energy_price"])
     energy = economics.annual_energy_kwh(loss, hours)
     bought = economics.energy_bought_kwh(energy, eff, cop)
@@ -376,7 +382,8 @@ def _specify(inputs: Inputs) -> Results:
         "heat_loss_per_length": np.where(geometry == CYLINDER, rate, np.nan), "heat_loss": loss,
         "bare_heat_loss": bare_loss, "annual_energy": energy, "annual_cost": bought * price,
         "annual_saving": saving, "co2": bought * float(st["emission_factor"]),
-        "dew_point": dew[first_case], "installed_cost": inst,
+        "dew_point": np.where(_dew_matters(lines, prevent, sol.t_surface, dew[first_case], margin),
+                              dew[first_case], np.nan), "installed_cost": inst,
         "payback": np.where(saving > 0, inst / np.where(saving > 0, saving, 1.0), np.nan),
         "t_interface": np.where(np.sum(chosen_th > 0, axis=1) == 2, sol.faces[:, 1], np.nan),
     }
@@ -430,6 +437,16 @@ def _margins(n, given, worst, starts, case_line, case_pick, tmax, qmax, tmin, to
         for i in np.flatnonzero(given["minimum"]):
             out[i]["minimum"] = (float(total[i, pick[i]] - tmin[i]), "thickness")
     return out
+
+
+def _dew_matters(lines, prevent, t_surface, dew, margin) -> np.ndarray:
+    """Per line: is its dew point worth writing? Where condensation is asked about ('Prevent
+    condensation' yes) or possible at the first condition: the operating or the surface
+    temperature below the dew point plus margin. A steam main's dew point means nothing."""
+    asked = np.array([v is True for v in prevent]) if prevent is not None else np.zeros(len(lines), bool)
+    t_op = np.array([L.t_op for L in lines], dtype=float)
+    with np.errstate(invalid="ignore"):
+        return asked | (np.fmin(t_op, t_surface) < dew + margin)
 
 
 def _per_area(t, n: int) -> np.ndarray:

@@ -13,10 +13,13 @@ in. Text is written as inline strings, never as a formula.
 
 from __future__ import annotations
 
+import bisect
 import copy
+import io
 import posixpath
 import re
 import time
+import weakref
 import zipfile
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass
@@ -83,9 +86,25 @@ def _rels_path(part: str) -> str:
     return posixpath.join(d, "_rels", f + ".rels")
 
 
+_LOWER: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()  # zip -> {lower-case name: name}
+
+
+def _member(zf: zipfile.ZipFile, name: str) -> str | None:
+    """The zip member that is part ``name``: part names compare ignoring case (ECMA-376 Part 2, 9.1.1)."""
+    if name in zf.NameToInfo:
+        return name
+    count, lower = _LOWER.get(zf, (-1, {}))
+    if count != len(zf.NameToInfo):
+        lower = {}
+        for n in zf.NameToInfo:
+            lower.setdefault(n.lower(), n)
+        _LOWER[zf] = (len(zf.NameToInfo), lower)
+    return lower.get(name.lower())
+
+
 def _read_rels(zf: zipfile.ZipFile, part: str) -> list[dict[str, str]]:
-    path = _rels_path(part)
-    if path not in zf.namelist():
+    path = _member(zf, _rels_path(part))
+    if path is None:
         return []
     xml = zf.read(path).decode("utf-8")
     return [_attrs(m.group(0)) for m in re.finditer(r"<(?:\w+:)?Relationship\b[^>]*>", xml)]
@@ -98,17 +117,18 @@ class _Sheet:
 
 
 class XlsxBook:
-    def __init__(self, path: Path, zf: zipfile.ZipFile, sheets: list[_Sheet], values):
+    def __init__(self, path: Path, zf: zipfile.ZipFile, sheets: list[_Sheet], values,
+                 kinds: list[tuple[str, str]] = ()):
         self.path = path
         self._zip = zf
         self._sheets = sheets
         self._values = values
         self._raw: dict[str, RawSheet] = {}
+        self._kinds = list(kinds) or [(s.name, "worksheet") for s in sheets]  # (name, kind) of every sheet
+        self._fixed: set[str] = set()  # sheet parts calamine reads from a mended copy (see _calamine_fixes)
 
     @classmethod
     def open(cls, path: Path) -> XlsxBook:
-        import python_calamine
-
         if not zipfile.is_zipfile(path):
             raise WorkbookError(f"{path.name}: not an Excel workbook (the file is not a zip package)")
         try:
@@ -116,35 +136,66 @@ class XlsxBook:
             wb_part = _workbook_part(zf)
             rels = {r.get("Id"): r for r in _read_rels(zf, wb_part)}
             xml = zf.read(wb_part).decode("utf-8")
-            sheets = []
+            sheets, kinds = [], []
             for m in re.finditer(r"<(?:\w+:)?sheet\b[^>]*>", xml):
                 a = _attrs(m.group(0))
                 rid = next((v for k, v in a.items() if k.endswith(":id")), None)
                 rel = rels.get(rid)
-                if rel is None or not rel.get("Type", "").endswith("/worksheet"):
+                name = _unescape(a.get("name", ""))
+                kind = rel.get("Type", "").rsplit("/", 1)[-1] if rel is not None else ""
+                kinds.append((name, kind))
+                if kind != "worksheet":
                     continue
-                sheets.append(_Sheet(_unescape(a.get("name", "")), _rel_target(wb_part, rel["Target"])))
-            values = python_calamine.CalamineWorkbook.from_path(str(path))
+                target = _rel_target(wb_part, rel["Target"])
+                sheets.append(_Sheet(name, _member(zf, target) or target))
+            values = _calamine(path, zf, _calamine_fixes(zf, ()))
         except WorkbookError:
             raise
         except Exception as exc:  # any library failure means the file cannot be read
             raise WorkbookError(f"{path.name}: cannot be read as a workbook ({exc})") from exc
-        return cls(path, zf, sheets, values)
+        return cls(path, zf, sheets, values, kinds)
 
     def sheet_names(self) -> list[str]:
         return [s.name for s in self._sheets]
+
+    def all_sheet_names(self) -> list[str]:
+        """Every sheet's name: worksheets, chart sheets, dialog and macro sheets (names are shared)."""
+        return [n for n, _ in self._kinds]
 
     def _part(self, name: str) -> str:
         return next(s.part for s in self._sheets if s.name == name)
 
     def sheet(self, name: str) -> RawSheet:
         if name not in self._raw:
+            part = self._part(name)
+            data = self._zip.read(part)
+            at = data.find(b"mergeCell")  # merges follow the cells: no regular expression over the rows
+            if at >= 0 and part not in self._fixed and _LINE_MERGE.search(data, max(at - 64, 0)):
+                self._fixed.add(part)  # calamine cannot read a merge of whole columns or rows: mend its copy
+                self._values = _calamine(self.path, self._zip, _calamine_fixes(self._zip, self._fixed))
             grid = calamine_grid(self._values, name, self.path)
-            data = self._zip.read(self._part(name))
             uncached = _uncached_formulas(data.decode("utf-8")) if b"<f" in data or b":f" in data else set()
             del data
-            self._raw[name] = RawSheet(name, grid, uncached)
+            self._raw[name] = RawSheet(name, grid, uncached, self._totals_rows(part))
         return self._raw[name]
+
+    def _totals_rows(self, part: str) -> set[int]:
+        """0-based rows that are the totals rows of the sheet's tables (not schedule lines)."""
+        rows: set[int] = set()
+        for rel in _read_rels(self._zip, part):
+            if rel.get("Type") != REL_TABLE or rel.get("TargetMode") == "External":
+                continue
+            tpart = _member(self._zip, _rel_target(part, rel.get("Target", "")))
+            if tpart is None:
+                continue
+            m = re.search(r"<(?:\w+:)?table\b[^>]*>", self._zip.read(tpart).decode("utf-8"))
+            a = _attrs(m.group(0)) if m else {}
+            n = int(a["totalsRowCount"]) if a.get("totalsRowCount", "").isdigit() else 0
+            end = re.fullmatch(r"[A-Za-z]+\d+:[A-Za-z]+(\d+)", a.get("ref", ""))
+            if n and end:
+                last = int(end.group(1)) - 1
+                rows.update(range(last - n + 1, last + 1))
+        return rows
 
     def save(self, edits: list[SheetEdits], out: Path, new_sheets=(), allow_loss: bool = False) -> list[str]:
         pkg = _Package(self._zip)
@@ -186,12 +237,79 @@ class XlsxBook:
 
         losses: list[str] = []
 
+        edited = {self._part(e.sheet) for e in edits}
+
         def verify(tmp: Path) -> None:
-            VERIFIERS[out.suffix.lower()](tmp)
-            losses.extend(post_write_check(tmp, before, written, names, pkg.removed, allow_loss=allow_loss))
+            with zipfile.ZipFile(tmp) as z:
+                fixes = _calamine_fixes(z, self._fixed)
+                if fixes:  # calamine reads a mended copy of this workbook (see _calamine_fixes)
+                    if z.testzip() is not None:
+                        raise WorkbookError("the written file failed its check (a part is corrupt)")
+                    reopened = _calamine(tmp, z, fixes)
+            if not fixes:
+                reopened = VERIFIERS[out.suffix.lower()](tmp)
+            with zipfile.ZipFile(tmp) as z:
+                _check_package(z, self._zip, edited, pkg.owned)
+            losses.extend(post_write_check(tmp, before, written, names, pkg.removed, reopened=reopened,
+                                           allow_loss=allow_loss))
 
         atomic_write(out, write, like=self.path, verify=verify)
         return losses
+
+
+def _check_package(out: zipfile.ZipFile, inp: zipfile.ZipFile, edited: set[str], owned: set[str]) -> None:
+    """The written package before it replaces anything: no two part names or sheet names equal
+    ignoring case, and no relationship of a person's part added, dropped or changed, but for
+    the notes (comments and their drawing) of the sheets lagsheet writes in, and the
+    workbook's relationships to lagsheet's new sheets. Raises WorkbookError (nothing is written).
+    """
+    tail = "; nothing was written. Please report this with the workbook"
+    seen: dict[str, str] = {}
+    for n in out.namelist():
+        if n.lower() in seen:
+            raise WorkbookError(f"the written file would hold two parts named {seen[n.lower()]} and {n}, "
+                                f"which spreadsheet programs take for one{tail}")
+        seen[n.lower()] = n
+    wb_part = _workbook_part(out)
+    sheets: dict[str, str] = {}
+    for m in re.finditer(r"<(?:\w+:)?sheet\b[^>]*>", out.read(wb_part).decode("utf-8")):
+        name = _unescape(_attrs(m.group(0)).get("name", ""))
+        if name.casefold() in sheets:
+            raise WorkbookError(f"the written file would hold two sheets named {sheets[name.casefold()]!r} "
+                                f"and {name!r}, which spreadsheet programs take for one{tail}")
+        sheets[name.casefold()] = name
+    before = {n.lower() for n in inp.namelist()}
+    with_rels = {n.lower() for z in (inp, out) for n in z.namelist() if n.lower().endswith(".rels")}
+    allowed = {REL_COMMENTS, REL_VML}
+    for part in inp.namelist():
+        if part in owned or _rels_path(part).lower() not in with_rels:
+            continue
+        old, new = _rels_by_id(inp, part), _rels_by_id(out, part)
+        if old == new:
+            continue
+        for rid, rel in new.items():
+            if old.get(rid) == rel:
+                continue
+            rtype, external, target = rel
+            fresh = not external and target not in before
+            if rid in old or not fresh or not (
+                    (part in edited and rtype in allowed) or (part == wb_part and rtype == REL_WORKSHEET)):
+                raise WorkbookError(f"the written file would give the workbook's part {part} a relationship "
+                                    f"it did not have (to {target}){tail}")
+        dropped = sorted(set(old) - set(new))
+        if dropped:
+            raise WorkbookError(f"the written file would lose the relationship {dropped[0]} of the workbook's "
+                                f"part {part}{tail}")
+
+
+def _rels_by_id(zf: zipfile.ZipFile, part: str) -> dict[str, tuple[str, bool, str]]:
+    """``part``'s relationships: Id -> (type, external, target part in lower case or external address)."""
+    out = {}
+    for r in _read_rels(zf, part):
+        external = r.get("TargetMode") == "External"
+        target = r.get("Target", "")
+        out[r.get("Id", "")] = (r.get("Type", ""), external, target if external else _rel_target(part, target).lower())
+    return out
 
 
 def _unescape(s: str) -> str:
@@ -202,8 +320,64 @@ def _unescape(s: str) -> str:
 def _workbook_part(zf: zipfile.ZipFile) -> str:
     for r in _read_rels(zf, ""):
         if r.get("Type", "").endswith("/officeDocument"):
-            return _rel_target("", r["Target"])
-    return "xl/workbook.xml"
+            target = _rel_target("", r["Target"])
+            return _member(zf, target) or target
+    return _member(zf, "xl/workbook.xml") or "xl/workbook.xml"
+
+
+# Sheets calamine reads; any other kind (an Excel 4 macro sheet) makes it refuse the whole workbook.
+_CALAMINE_KINDS = ("worksheet", "chartsheet", "dialogsheet")
+# A merge of whole columns ('A:A') or rows ('3:5'): calamine refuses the sheet that has one.
+_LINE_MERGE = re.compile(rb'(<(?:\w+:)?mergeCell\b[^>]*?\bref=")([A-Za-z]{1,3}:[A-Za-z]{1,3}|\d{1,7}:\d{1,7})"')
+
+
+def _calamine_fixes(zf: zipfile.ZipFile, sheet_parts: Iterable[str]) -> dict[str, bytes]:
+    """Parts to mend in the copy of the package that calamine reads (never in what is written).
+
+    The workbook part loses its ``<sheet>`` entries that are not a worksheet, a chart sheet
+    or a dialog sheet (Excel 4 macro sheets: lagsheet never reads them, and they stay in
+    the output as they were); each part of ``sheet_parts`` with a merge of whole columns or
+    rows gets it written as the cell range it covers ('A:A' -> 'A1:A1048576').
+    """
+    out: dict[str, bytes] = {}
+    wb_part = _workbook_part(zf)
+    rels = {r.get("Id"): r for r in _read_rels(zf, wb_part)}
+    xml = zf.read(wb_part).decode("utf-8")
+
+    def keep(m: re.Match) -> str:
+        rid = next((v for k, v in _attrs(m.group(0)).items() if k.endswith(":id")), None)
+        kind = rels.get(rid, {}).get("Type", "").rsplit("/", 1)[-1]
+        return m.group(0) if kind in _CALAMINE_KINDS else ""
+
+    mended = re.sub(r"<(?:\w+:)?sheet\b[^>]*?(?:/>|>.*?</(?:\w+:)?sheet>)", keep, xml, flags=re.S)
+    if mended != xml:
+        out[wb_part] = mended.encode("utf-8")
+
+    def whole(m: re.Match) -> bytes:
+        a, b = m.group(2).split(b":")
+        ref = b"A" + a + b":XFD" + b if a.isdigit() else a + b"1:" + b + b"1048576"
+        return m.group(1) + ref + b'"'
+
+    for part in sheet_parts:
+        data = zf.read(part)
+        fixed = _LINE_MERGE.sub(whole, data)
+        if fixed != data:
+            out[part] = fixed
+    return out
+
+
+def _calamine(path: Path, zf: zipfile.ZipFile, fixes: dict[str, bytes]):
+    """calamine's workbook of ``path``; with ``fixes``, of a copy in memory with those parts mended."""
+    import python_calamine
+
+    if not fixes:
+        return python_calamine.CalamineWorkbook.from_path(str(path))
+    buf = io.BytesIO()
+    with zipfile.ZipFile(buf, "w", zipfile.ZIP_STORED) as copy_:
+        for info in zf.infolist():
+            copy_.writestr(info.filename, fixes.get(info.filename) or zf.read(info.filename))
+    buf.seek(0)
+    return python_calamine.CalamineWorkbook.from_filelike(buf)
 
 
 _CELL = re.compile(r"<(\w+:)?c\b([^>]*?)(?:/>|>(.*?)</\1?c>)", re.S)
@@ -235,13 +409,27 @@ class _Package:
     def __init__(self, zf: zipfile.ZipFile):
         self.zf = zf
         self.names = set(zf.namelist())
+        self.lower = {n.lower(): n for n in self.names}
         self.out: dict[str, bytes] = {}
         self.streams: dict[str, tuple[Callable[[], Iterable[str]], int]] = {}  # part -> (pieces, size hint)
         self.removed: set[str] = set()
+        self.owned: set[str] = set()  # parts of lagsheet's own sheets from an earlier run, replaced now
         self.styles = _Styles(self.read("xl/styles.xml"))
         self.content_types = self.read("[Content_Types].xml")
 
+    def actual(self, name: str) -> str:
+        """The name a part already goes by, ignoring case (part names compare so), else ``name``."""
+        if name in self.names or name in self.out or name in self.streams:
+            return name
+        low = name.lower()
+        for pool in (self.out, self.streams):
+            for n in pool:
+                if n.lower() == low:
+                    return n
+        return self.lower.get(low, name)
+
     def read(self, name: str) -> str:
+        name = self.actual(name)
         if name in self.streams:  # read back after it was patched: materialise it
             self.write(name, "".join(self.streams[name][0]()))
         if name in self.out:
@@ -249,17 +437,21 @@ class _Package:
         return self.zf.read(name).decode("utf-8") if name in self.names and name not in self.removed else ""
 
     def write(self, name: str, text: str) -> None:
+        name = self.actual(name)
         self.streams.pop(name, None)
         self.out[name] = text.encode("utf-8")
         self.removed.discard(name)
 
     def write_stream(self, name: str, pieces: Callable[[], Iterable[str]], size_hint: int) -> None:
         """A part written later from ``pieces()`` (strings), straight into the zip."""
+        name = self.actual(name)
         self.out.pop(name, None)
         self.streams[name] = (pieces, size_hint)
         self.removed.discard(name)
 
     def exists(self, name: str) -> bool:
+        """Whether a part of that name, ignoring case, is in the package being written."""
+        name = self.actual(name)
         return (name in self.names and name not in self.removed) or name in self.out or name in self.streams
 
     def free(self, pattern: str) -> str:
@@ -269,22 +461,37 @@ class _Package:
         return pattern.format(n)
 
     def add_rel(self, part: str, rtype: str, target: str) -> str:
+        """The Id of ``part``'s relationship of type ``rtype`` to ``target``: the one it has, or a new one."""
         path = _rels_path(part)
         xml = self.read(path) or (f'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
                                   f'<Relationships xmlns="{NS_PKG_REL}"></Relationships>')
+        want = _rel_target(part, target).lower()
+        for m in re.finditer(r"<(?:\w+:)?Relationship\b[^>]*>", xml):
+            a = _attrs(m.group(0))
+            if (a.get("Type") == rtype and a.get("TargetMode") != "External"
+                    and _rel_target(part, a.get("Target", "")).lower() == want):
+                return a.get("Id", "")
         ids = set(re.findall(r'\bId="([^"]*)"', xml))
         k = 1
         while f"rIdLs{k}" in ids:
             k += 1
         rid = f"rIdLs{k}"
-        close = re.search(r"</(\w+:)?Relationships>", xml)
+        close = re.search(r"</(\w+:)?Relationships\s*>", xml)
+        if close is None:  # an empty <Relationships/>, as some export libraries write for every sheet
+            empty = re.search(r"<((?:\w+:)?)Relationships\b([^>]*?)\s*/>", xml)
+            if empty is None:
+                raise WorkbookError(f"the package part {path} is damaged (no relationships element); "
+                                    "save the workbook again in a spreadsheet program")
+            xml = (xml[:empty.start()] + f"<{empty.group(1)}Relationships{empty.group(2)}>"
+                   f"</{empty.group(1)}Relationships>" + xml[empty.end():])
+            close = re.search(r"</(\w+:)?Relationships\s*>", xml)
         p = close.group(1) or ""
         xml = xml[:close.start()] + f'<{p}Relationship Id="{rid}" Type="{rtype}" Target="{target}"/>' + xml[close.start():]
         self.write(path, xml)
         return rid
 
     def override(self, part: str, ctype: str) -> None:
-        if f'PartName="/{part}"' in self.content_types:
+        if f'partname="/{part.lower()}"' in self.content_types.lower():
             return
         close = self.content_types.rfind("</")
         self.content_types = (self.content_types[:close] + f'<Override PartName="/{part}" ContentType="{ctype}"/>'
@@ -298,11 +505,12 @@ class _Package:
                               + self.content_types[m.end():])
 
     def remove(self, part: str) -> None:
+        part = self.actual(part)
         self.out.pop(part, None)
         self.streams.pop(part, None)
         self.removed.add(part)
         self.content_types = re.sub(rf'<(\w+:)?Override\b[^>]*PartName="/{re.escape(part)}"[^>]*/>', "",
-                                    self.content_types)
+                                    self.content_types, flags=re.I)
 
     def finish(self) -> dict[str, bytes]:
         if self.styles.changed:
@@ -335,6 +543,7 @@ class _SheetPatch:
     def run(self) -> None:
         by_row = self._by_row = self._rows_of_edits()
         self._split()
+        self._merges_over(by_row)
         self._dimension(by_row)
         self._cols()
         self._tables()
@@ -543,6 +752,27 @@ class _SheetPatch:
             pos = body.find(f"</{p}c>", close) + len(f"</{p}c>")
         return pos if not res[1].search(body, pos) else None
 
+    def _merges_over(self, by_row: dict[int, list]) -> None:
+        """Refuse when a merged range of the sheet would hide a cell lagsheet writes (any cell of
+        a merge but its first is hidden by spreadsheet programs)."""
+        refs = re.findall(rf'<{re.escape(self.p)}mergeCell\b[^>]*?\bref="([^"]*)"', self.tail)
+        if not refs or not by_row:
+            return
+        rows = sorted(by_row)
+        for ref in refs:
+            box = _ref_box(ref)
+            if box is None:
+                continue
+            r0, c0, r1, c1 = box
+            lo = bisect.bisect_left(rows, r0)
+            for r in rows[lo:bisect.bisect_right(rows, r1)]:
+                hit = next((c for c in by_row[r][0::3] if c0 <= c <= c1 and (r, c) != (r0, c0)), None)
+                if hit is not None:
+                    raise WorkbookError(
+                        f"sheet {self.e.sheet!r} has the cells {ref} merged, and lagsheet writes in "
+                        f"{address(r, hit)} among them, where its result would be hidden; unmerge those "
+                        "cells (or clear that merge), then run lagsheet again")
+
     def _dimension(self, cells) -> None:
         pat = re.compile(rf'<{re.escape(self.p)}dimension\b[^>]*\bref="([^"]*)"')
         where = "head"
@@ -618,8 +848,11 @@ class _SheetPatch:
                 continue
             last = max([c1] + new_cols)
             ref = f"{m.group(2)}{r0 + 1}:{column_letter(last)}{r1 + 1}"
+            totals = _attrs(re.search(r"<(?:\w+:)?table\b[^>]*>", txml).group(0)).get("totalsRowCount", "0")
+            below = int(totals) if totals.isdigit() else 0  # the totals row: in the table, not in its filter
+            filter_ref = f"{m.group(2)}{r0 + 1}:{column_letter(last)}{max(r1 - below, r0) + 1}"
             txml = re.sub(r'(<(?:\w+:)?table\b[^>]*\bref=")[^"]*"', rf'\g<1>{ref}"', txml, count=1)
-            txml = re.sub(r'(<(?:\w+:)?autoFilter\b[^>]*\bref=")[^"]*"', rf'\g<1>{ref}"', txml, count=1)
+            txml = re.sub(r'(<(?:\w+:)?autoFilter\b[^>]*\bref=")[^"]*"', rf'\g<1>{filter_ref}"', txml, count=1)
             ids = [int(x) for x in re.findall(r'<(?:\w+:)?tableColumn\b[^>]*\bid="(\d+)"', txml)]
             next_id = max(ids, default=0) + 1
             added = ""
@@ -699,6 +932,22 @@ class _SheetPatch:
         decl = "" if rp else f' xmlns:r="{NS_REL}"'
         tag = f'<{self.p}legacyDrawing{decl} {rp or "r"}:id="{rid}"/>'
         self.tail = tail[:pos] + tag + tail[pos:]
+
+
+def _ref_box(ref: str) -> tuple[int, int, int, int] | None:
+    """'B2:D5' -> 0-based (first row, first col, last row, last col); whole columns ('A:C') and
+    rows ('3:4') cover the sheet's full height or width; None for what is not a range."""
+    m = re.fullmatch(r"\$?([A-Za-z]{0,3})\$?(\d*)(?::\$?([A-Za-z]{0,3})\$?(\d*))?", ref.strip())
+    if not m:
+        return None
+    a_col, a_row, b_col, b_row = m.group(1), m.group(2), m.group(3), m.group(4)
+    if b_col is None and b_row is None:
+        b_col, b_row = a_col, a_row
+    if bool(a_col) != bool(b_col) or bool(a_row) != bool(b_row) or not (a_col or a_row):
+        return None
+    r0, r1 = (int(a_row) - 1, int(b_row) - 1) if a_row else (0, 1048575)
+    c0, c1 = (_col_index(a_col), _col_index(b_col)) if a_col else (0, 16383)
+    return min(r0, r1), min(c0, c1), max(r0, r1), max(c0, c1)
 
 
 def _rel_prefix(xml: str) -> str | None:
@@ -912,16 +1161,19 @@ NS_C = "http://schemas.openxmlformats.org/drawingml/2006/chart"
 
 def _put_sheet(pkg: _Package, book: XlsxBook, sheet) -> None:
     """Write a whole sheet of lagsheet's (Summary, Quantities), replacing our earlier one."""
-    name, ours = sheet_name_for(book, sheet.name)
+    name, ours = sheet_name_for(book, sheet.name, book.all_sheet_names())
     if ours:
         part = book._part(name)
+        pkg.owned.add(part)
         for rel in _read_rels(pkg.zf, part):  # our old drawing and chart go with the old sheet
             target = _rel_target(part, rel.get("Target", ""))
             if rel.get("Type") == REL_DRAWING:
                 for r2 in _read_rels(pkg.zf, target):
                     pkg.remove(_rel_target(target, r2.get("Target", "")))
+                    pkg.owned.add(pkg.actual(_rel_target(target, r2.get("Target", ""))))
                 pkg.remove(_rels_path(target))
                 pkg.remove(target)
+                pkg.owned.add(pkg.actual(target))
         pkg.remove(_rels_path(part))
     else:
         part = pkg.free("xl/worksheets/sheet{}.xml")
