@@ -126,8 +126,13 @@ def test_explain_shows_a_process_targets_margin(tmp_path, cli):
                           "Max surface temperature [°C]": None, "Fluid": "water", "Freeze protection [h]": 6,
                           "Schedule": "40"})
     winter = [["Name", "Ambient temperature [°C]", "Wind speed [m/s]", "Relative humidity [%]"],
-              ["winter", -15, 5, 80]]
-    src, (line,) = run(tmp_path, [row], headers=list(row), sheets={"Conditions": winter})
+              ["winter", -15, 5, 80], ["room", 25, 0, 50]]
+    cool = {**row, "Tag": "CH-1", "Operating temperature [°C]": 18, "Condition": "room", "Fluid": None,
+            "Freeze protection [h]": None, "Insulation": "elastomeric foam", "Min thickness [mm]": 9}
+    src, (line, other) = run(tmp_path, [row, cool], headers=[*row, "Min thickness [mm]"],
+                             sheets={"Conditions": winter})
+    # a cool line well above its dew point (25 °C, 50 % RH: about 13.9 °C) has no condensation warning
+    assert "condensation" not in [n["code"] for n in other["notes"]], other["notes"]
     out = cli("explain", src, "FW-1").output
     m = re.search(r"freeze protection: (\d+) mm; margin \+(\d+\.\d) h", out)
     assert m, out

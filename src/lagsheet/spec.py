@@ -317,9 +317,9 @@ def _specify(inputs: Inputs) -> Results:
         if name in process_values and name in given:
             for i in np.flatnonzero(given[name] & ok):
                 value = float(process_values[name][i, pick[i]])
-                margin = sign * (value - float(getattr(lines[i].process, need)))
-                if np.isfinite(margin):
-                    res.target_margin[i][name] = (margin, "difference" if name == "temperature drop" else "hours")
+                room = sign * (value - float(getattr(lines[i].process, need)))  # not 'margin': that is the dew one
+                if np.isfinite(room):
+                    res.target_margin[i][name] = (room, "difference" if name == "temperature drop" else "hours")
     gov_cond = np.full(n, None, dtype=object)
     several = np.diff(np.r_[starts, len(case_line)]) > 1
     # a thinnest-sold line is judged where its nearest target (the one the old rule named) is worst
