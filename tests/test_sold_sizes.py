@@ -58,8 +58,9 @@ MATERIALS = list(materials().values())
 
 
 def _layers_in_text(text: str) -> list[tuple[float, str]]:
-    """Every '<number> mm' / '<number> in' of a Layers text."""
-    return [(float(v), u) for v, u in re.findall(r"(\d+(?:\.\d+)?) (mm|in)\b", text)]
+    """Every layer thickness of a Layers text: '50 mm', '2 × 25 mm', '2 layers (65 and 50 mm)'."""
+    groups = re.findall(r"((?:\d+(?:\.\d+)? and )*\d+(?:\.\d+)?) (mm|in)\b", text)
+    return [(float(v), u) for vs, u in groups for v in vs.split(" and ")]
 
 
 def _listed(m, us: bool) -> tuple[float, ...]:
@@ -107,6 +108,7 @@ def test_fill_chooses_sold_sizes_in_the_sheets_unit_system(tmp_path, us, row):
     total = line["results"]["thickness_m"] / (0.0254 if us else 0.001)
     assert any(abs(total - t) < 1e-6 for t in listed), (total, listed)
     parts = _layers_in_text(line["results"]["layers"])
+    assert len(parts) >= (2 if row.get("Insulation") == "calcium silicate" else 1)
     assert parts and all(u == ("in" if us else "mm") for _, u in parts)
     for v, _ in parts:  # as displayed: whole mm, or inches to 2 decimals
         assert any(abs(v - t) <= (0.0051 if us else 0.5) for t in listed), (line["results"]["layers"], listed)

@@ -596,7 +596,7 @@ def _layer_words(th: tuple[float, ...], materials: tuple[library.Material, ...],
     """('2 × 50 mm calcium silicate + 40 mm mineral wool', 2): few distinct systems in a schedule.
 
     Layers of one material as built (:func:`layer_builds`): '2 × 60 mm' when equal,
-    '2 layers (65 mm + 50 mm)' when not."""
+    '2 layers (65 and 50 mm)' when not."""
     parts = []
     for thick, m, (listed, max_layer) in zip(th, materials, series, strict=False):
         if thick <= 0:
@@ -608,7 +608,9 @@ def _layer_words(th: tuple[float, ...], materials: tuple[library.Material, ...],
         elif len(set(shown)) == 1:
             parts.append(f"{len(each)} × {shown[0]} {m.name}")
         else:
-            parts.append(f"{len(each)} layers ({' + '.join(shown)}) {m.name}")
+            unit = shown[0].rsplit(" ", 1)[1]
+            values = " and ".join(x.rsplit(" ", 1)[0] for x in shown)  # no ' + ': that joins materials
+            parts.append(f"{len(each)} layers ({values} {unit}) {m.name}")
     return (" + ".join(parts) if parts else "bare"), len(parts)
 
 
