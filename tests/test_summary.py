@@ -86,12 +86,12 @@ def test_quantities_equal_the_sums_over_the_lines(tmp_path):
 def test_the_same_schedule_in_us_units_gives_the_same_totals(tmp_path):
     """Summary in MBtu/h and MMBtu equals the SI summary converted (NIST SP 811: 1 Btu/h = 0.29307107 W)."""
     si_rows = [{"Tag": "P1", "Area": "X", "Shape": "pipe", "Outside diameter [mm]": 168.3, "Length [m]": 30.48,
-                "Operating temperature [°C]": 180, "Insulation": "mineral wool", "Min thickness [mm]": 76.2}]
+                "Operating temperature [°C]": 180, "Insulation": "mineral wool", "Fixed thickness [mm]": 76.2}]
     us_head = ["Tag", "Area", "Shape", "Outside diameter [in]", "Length [ft]", "Operating temperature [°F]",
-               "Insulation", "Min thickness [in]"]
+               "Insulation", "Fixed thickness [in]"]
     us_rows = [{"Tag": "P1", "Area": "X", "Shape": "pipe", "Outside diameter [in]": 168.3 / 25.4, "Length [ft]": 100,
-                "Operating temperature [°F]": 356, "Insulation": "mineral wool", "Min thickness [in]": 3}]
-    a_in, a_res = run(tmp_path, si_rows, name="si.xlsx")
+                "Operating temperature [°F]": 356, "Insulation": "mineral wool", "Fixed thickness [in]": 3}]
+    a_in, a_res = run(tmp_path, si_rows, HEAD + ["Fixed thickness [mm]"], name="si.xlsx")
     b_in, b_res = run(tmp_path, us_rows, us_head, name="us.xlsx")
     sa, sb = summary(a_in, a_res), summary(b_in, b_res)
     ra = next(r for r in sa.rows if r and r[0] == "Total")

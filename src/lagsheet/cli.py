@@ -184,6 +184,9 @@ def materials():
                    f"{show(m.max_temperature, 'temperature')}]  k W/(m·K) at mean temperature: {pts}")
         typer.echo(f"    sold: {', '.join(f'{t * 1000:g}' for t in m.thicknesses)} mm; "
                    f"max layer {m.max_layer * 1000:g} mm; source: {m.source}")
+        if m.thicknesses_us:
+            typer.echo(f"    sold on sheets in inches: {', '.join(f'{t / 0.0254:g}' for t in m.thicknesses_us)} in; "
+                       f"max layer {m.max_layer_us / 0.0254:g} in")
     typer.echo("")
     for f in finishes().values():
         typer.echo(f"finish {f.name}: emissivity {f.emissivity:.2f}; source: {f.source}")

@@ -298,14 +298,17 @@ def _materials(book: Book, notes: list[Note], columns: list[dict]) -> dict[str, 
             vals = [v for v in vals if np.isfinite(v)]
             if vals:
                 fields[attr] = vals[0]
+                if attr == "max_layer":
+                    fields["max_layer_us"] = vals[0]
         th = t.get("thicknesses")
         if th is not None:
             texts = [th[i] for i in idx if th[i] not in (None, "")]
             if texts:
                 col = t.columns["thicknesses"]
                 try:
-                    nums = library.parse_thickness_list(str(texts[0]))
-                    fields["thicknesses"] = tuple(to_si(nums, col.unit, "m"))
+                    nums, unit = library.parse_thickness_cell(str(texts[0]))  # '1, 1½, 2 in': inches
+                    th_si = tuple(float(x) for x in to_si(nums, parse_unit(unit) if unit else col.unit, "m"))
+                    fields["thicknesses"] = fields["thicknesses_us"] = th_si  # the user's list, either system
                 except ValueError as exc:
                     notes.append(Note("error", "bad-thicknesses", f"{exc}; write e.g. '25, 40, 50'",
                                       name, t.cell(idx[0], "thicknesses")))

@@ -145,7 +145,8 @@ def test_the_condition_surroundings_temperature_is_used(tmp_path):
 # --- installed cost: volume, jacket at the outer radius, labour at each layer's mid-radius ---
 
 def test_installed_cost_of_a_two_layer_pipe(tmp_path):
-    """150 mm in two 75 mm layers (Max layer 80 mm): cost from volume, outer jacket and mid-radius labour."""
+    """150 mm as 80 + 70 mm layers (listed thicknesses, Max layer 80 mm; 75 mm is not sold): cost from volume,
+    outer jacket and mid-radius labour."""
     row = {"Tag": "C-1", "Shape": "pipe", "Outside diameter [mm]": 219.1, "Length [m]": 40,
            "Operating temperature [°C]": 400, "Condition": "calm", "Insulation": "testwool",
            "Finish": "aluminium", "Fixed thickness [mm]": 150}
@@ -153,7 +154,7 @@ def test_installed_cost_of_a_two_layer_pipe(tmp_path):
     r0, th, L = 0.2191 / 2, 0.150, 40.0
     r2 = r0 + th
     volume = math.pi * (r2**2 - r0**2) * L
-    labour_area = sum(2 * math.pi * (r0 + (q + 0.5) * th / 2) * L for q in range(2))
+    labour_area = 2 * math.pi * (r0 + 0.080 / 2) * L + 2 * math.pi * (r0 + 0.080 + 0.070 / 2) * L
     expected = 400 * volume + 30 * 2 * math.pi * r2 * L + 40 * labour_area
     assert got["installed_cost"] == pytest.approx(expected, rel=1e-9)
 
