@@ -40,6 +40,7 @@ from xml.sax.saxutils import escape, quoteattr
 
 from lagsheet import library, schema
 from lagsheet.inputs import BUILTIN_CONDITIONS
+from lagsheet.io.xlsx import fonts_in_schema_order
 from lagsheet.units import from_si
 
 HERE = Path(__file__).resolve().parent
@@ -424,7 +425,8 @@ def write_xlsx(path: Path) -> None:
     p.title = "lagsheet workbook"
     buf = io.BytesIO()
     wb.save(buf)
-    _rezip(buf.getvalue(), path, {"docProps/core.xml": _fix_core, "docProps/app.xml": _fix_app})
+    _rezip(buf.getvalue(), path, {"docProps/core.xml": _fix_core, "docProps/app.xml": _fix_app,
+                                  "xl/styles.xml": fonts_in_schema_order})
 
 
 def _fix_app(_xml: bytes) -> bytes:

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import replace
+from pathlib import Path
 
 import numpy as np
 import openpyxl
@@ -33,7 +34,9 @@ ROWS = [
 def planted(res, cause):
     """The engine's results at lagsheet's own thicknesses, with one usual slip switched in."""
     s, table = res.system, res.table
-    if cause == "no radiation":
+    if cause is None:
+        pass
+    elif cause == "no radiation":
         s = replace(s, emissivity=np.zeros_like(s.emissivity))
     elif cause == "fixed h = 10":
         s = replace(s, h_fixed=np.full(len(s.emissivity), 10.0))
@@ -77,7 +80,7 @@ def test_each_planted_cause_is_named(tmp_path, cause):
     book = open_book(path)
     inputs = read_inputs(book)
     res = specify(inputs)
-    found = audit(inputs, book.sheet("Lines"), res, {"Insulation thk": "Thickness"})
+    found = audit(inputs, book.sheet("Lines"), res, {"Insulation thk": "Thickness"}).findings
     assert found, "the planted differences were not found"
     assert {f.cause for f in found} == {cause}
     assert all(f.quantity in ("Surface temperature", "Heat loss") for f in found)
@@ -89,4 +92,117 @@ def test_a_sheet_filled_by_lagsheet_itself_passes(tmp_path, cli):
     cli("fill", src, "-o", tmp_path / "out.xlsx")
     book = open_book(tmp_path / "out.xlsx")
     inputs = read_inputs(book)
-    assert audit(inputs, book.sheet("Lines"), specify(inputs)) == []
+    done = audit(inputs, book.sheet("Lines"), specify(inputs))
+    assert done.findings == [] and done.lines_compared == 3 and len(done.columns) == 4
+
+
+# --- an audit never gives a false all-clear; values in their own units; the unit slip named ---
+
+def _filled(tmp_path, cli):
+    src = write_book(tmp_path / "in.xlsx", ROWS, HEAD)
+    cli("fill", src, "-o", tmp_path / "out.xlsx")
+    return tmp_path / "out.xlsx"
+
+
+def _their_sheet(tmp_path, header: str, values) -> Path:
+    """The three lines with one result column of the colleague's, named ``header``."""
+    src = write_book(tmp_path / "in.xlsx", ROWS, HEAD)
+    wb = openpyxl.load_workbook(src)
+    ws = wb["Lines"]
+    ws.cell(1, 10, header)
+    for i, v in enumerate(values):
+        ws.cell(2 + i, 10, v)
+    wb.save(tmp_path / "theirs.xlsx")
+    return tmp_path / "theirs.xlsx"
+
+
+def test_an_audit_of_a_sheet_with_none_of_the_columns_exits_2_naming_them_and_map(tmp_path, cli):
+    """A colleague's sheet with its own column names is not 'all agrees': exit 2, the columns looked for, --map."""
+    r = cli("audit", _their_sheet(tmp_path, "Insul. thk", [50, 25, 80]))
+    assert r.exit_code == 2
+    assert "none of the columns audit compares" in r.output and "'Thickness'" in r.output
+    assert "--map" in r.output and "agrees" not in r.output
+
+
+def test_an_audit_of_an_unfilled_sheet_exits_2(tmp_path, cli):
+    """Result columns that hold nothing compare nothing: exit 2, not an all-clear."""
+    r = cli("audit", _their_sheet(tmp_path, "Thickness [mm]", [None, None, None]))
+    assert r.exit_code == 2 and "hold no value" in r.output and "agrees" not in r.output
+
+
+def test_an_audit_says_how_many_lines_and_columns_it_compared(tmp_path, cli):
+    """The closing line counts the lines and names the columns compared."""
+    r = cli("audit", _filled(tmp_path, cli))
+    assert r.exit_code == 0
+    assert "compared 3 lines on 4 columns" in r.output and "every audited result agrees" in r.output
+    assert "'Thickness [mm]' as Thickness" in r.output
+
+
+def test_their_values_are_shown_in_their_own_unit(tmp_path, cli):
+    """A thickness written in inches is shown in inches ('theirs 4 in'), not converted into a false 'mm'."""
+    r = cli("audit", _their_sheet(tmp_path, "Thickness [in]", [4, 4, 4]))
+    assert r.exit_code == 1
+    assert "theirs 4 in, lagsheet" in r.output
+
+
+def test_an_inch_size_and_its_metric_twin_agree(tmp_path, cli):
+    """2 in against 50 mm is the same sold size in the other unit system, not a difference."""
+    out = _filled(tmp_path, cli)
+    book = open_book(out)
+    inputs = read_inputs(book)
+    ours_mm = specify(inputs).values["thickness"] * 1000
+    r = cli("audit", _their_sheet(tmp_path, "Thickness [in]", [float(t) / 25.4 * 1.015 for t in ours_mm]))
+    assert r.exit_code == 0, r.output
+
+
+def test_a_thickness_typed_in_the_other_unit_is_named_as_the_slip(tmp_path, cli):
+    """Inch numbers in a millimetre column are found, and the cause named is the other unit system."""
+    out = _filled(tmp_path, cli)
+    book = open_book(out)
+    ours_mm = specify(read_inputs(book)).values["thickness"] * 1000
+    theirs = [round(float(t) / 25.4, 1) for t in ours_mm]  # 50 mm typed as 2.0 (inches) in a [mm] column
+    r = cli("audit", _their_sheet(tmp_path, "Thickness [mm]", theirs))
+    assert r.exit_code == 1
+    assert r.output.count("likely cause: the thickness typed in the other unit system") == 3, r.output
+    assert f"theirs {theirs[0]:g} mm" in r.output
+
+
+def test_surface_and_loss_from_a_thickness_in_the_other_unit_name_that_slip(tmp_path):
+    """Their results at their own inch thickness, the thickness typed as inches under [mm]: that slip is named."""
+    src = write_book(tmp_path / "in.xlsx", [{**r, "Finish": "painted"} for r in ROWS], HEAD)
+    book = open_book(src)
+    res = specify(read_inputs(book))
+    inches = np.array([3.0, 2.5, 5.0])  # their own choice, not lagsheet's
+    thick = np.zeros_like(res.system.thickness)
+    thick[:, 0] = inches * 0.0254
+    s = replace(res.system, thickness=thick)
+    sol = solve(s, res.table)
+    loss = heat_rate(s.geometry, sol.q, sol.r_outer) * np.array([20.0, 15.0, 40.0])
+    wb = openpyxl.load_workbook(src)
+    ws = wb["Lines"]
+    for k, h in enumerate(["Thickness [mm]", "Surface temperature [°C]", "Heat loss [W]"]):
+        ws.cell(1, 10 + k, h)
+    for i in range(3):
+        ws.cell(2 + i, 10, float(inches[i]))
+        ws.cell(2 + i, 11, float(sol.t_surface[i] - 273.15))
+        ws.cell(2 + i, 12, float(loss[i]))
+    wb.save(tmp_path / "theirs.xlsx")
+    book = open_book(tmp_path / "theirs.xlsx")
+    inputs = read_inputs(book)
+    done = audit(inputs, book.sheet("Lines"), specify(inputs))
+    assert {f.quantity for f in done.findings} >= {"Surface temperature", "Heat loss"}
+    assert {f.cause for f in done.findings if f.quantity != "Thickness"} == {"thickness in the other unit"}
+
+
+@pytest.mark.parametrize("args, words", [
+    (["--map", "Thickness [mm]=Heat loss"], "cannot be a Heat loss"),
+    (["--map", "Nowhere=Thickness"], "there is no column 'Nowhere'"),
+    (["--surface-tolerance", "nan"], "--surface-tolerance must be"),
+    (["--surface-tolerance", "-1"], "--surface-tolerance must be"),
+    (["--loss-tolerance", "nan"], "--loss-tolerance must be"),
+])
+def test_options_that_cannot_apply_are_one_plain_sentence(tmp_path, cli, args, words):
+    """A --map of the wrong dimension or to a missing column, or a NaN tolerance: exit 2, no traceback."""
+    r = cli("audit", _filled(tmp_path, cli), *args)
+    assert r.exit_code == 2 and words in r.output
+    assert "Traceback" not in r.output and "Error" not in r.output

@@ -5,6 +5,8 @@ from __future__ import annotations
 import json
 
 import openpyxl
+import pytest
+from typer.testing import CliRunner
 
 from conftest import pipe, sha256, write_book
 
@@ -79,3 +81,25 @@ def test_audit_map_must_name_a_result(tmp_path, cli):
     assert cli("audit", src, "--map", "Thk").exit_code == 2
     r = cli("audit", src, "--map", "Thk=Colour")
     assert r.exit_code == 2 and "is not a result lagsheet audits" in r.output
+
+
+def test_fill_quiet_still_prints_line_errors(tmp_path, cli):
+    """--quiet means errors only, not nothing: a line in error is named on stderr."""
+    src = write_book(tmp_path / "in.xlsx", [pipe(), pipe("P-2", Insulation="unobtainium")])
+    r = cli("fill", src, "-o", tmp_path / "out.xlsx", "-q")
+    assert r.exit_code == 1
+    assert "error: P-2:" in r.output and "unobtainium" in r.output
+
+
+@pytest.mark.parametrize("command", ["fill", "check", "audit", "explain", "new", "demo", "materials"])
+def test_help_shows_words_not_python_types(command):
+    """--help names what to type (OUT, NAME, 'THEIRS=OURS'), never '<bool>' or 'list[str]'."""
+    from lagsheet.cli import _name_metavars, app
+
+    _name_metavars()
+    out = CliRunner().invoke(app, [command, "--help"], terminal_width=100).output
+    assert "Usage:" in out and "Show this message and exit" in out
+    for python in ("<bool>", "list["):
+        assert python not in out, (python, out)
+    options = [ln for ln in out.splitlines() if ln.lstrip().startswith("-")]
+    assert options and not [ln for ln in options if "<" in ln], out

@@ -266,30 +266,51 @@ def dead_pid() -> int:
     return p.pid
 
 
+HOLD = ("import fcntl, os, sys, time\n"
+        "fd = os.open(sys.argv[1], os.O_RDWR)\n"
+        "fcntl.flock(fd, fcntl.LOCK_EX)\n"
+        "print('locked', flush=True)\n"
+        "time.sleep(60)\n")
+
+
+def holder(path: Path) -> subprocess.Popen:
+    """A live process holding the advisory lock on ``path``, as a running save holds its temporary file."""
+    p = subprocess.Popen([sys.executable, "-c", HOLD, str(path)], stdout=subprocess.PIPE, text=True)
+    assert p.stdout.readline().strip() == "locked"
+    return p
+
+
 def test_the_next_run_removes_only_its_own_stale_temporary_files(tmp_path, cli):
-    """Dead-pid temporaries of this output go; live ones, other outputs', other names and folders stay."""
+    """Unlocked temporaries of this output go, whatever pid they name; locked ones, other outputs', other names stay."""
     src = write_book(tmp_path / "in.xlsx", [pipe()])
     dead = dead_pid()
-    live = subprocess.Popen([sys.executable, "-c", "import time; time.sleep(60)"])
+    stale = [tmp_path / f".out.xlsx.{dead}-abc123_x{TMP_SUFFIX}",
+             tmp_path / f".out.xlsx.{os.getpid()}-abc124{TMP_SUFFIX}"]  # a live pid, but no lock held
+    # a live run in another PID namespace (a container, a host sharing the folder): its pid
+    # means nothing here, its lock does
+    live = tmp_path / f".out.xlsx.{dead}-abc125{TMP_SUFFIX}"
+    keep = [live,
+            tmp_path / f".other.xlsx.{dead}-abc123{TMP_SUFFIX}",  # another output's
+            tmp_path / f"out.xlsx.{dead}-abc123{TMP_SUFFIX}",  # not our pattern (no dot)
+            tmp_path / f".out.xlsx.abc123{TMP_SUFFIX}",  # no pid in it
+            tmp_path / f".out.xlsx.{dead}-abc123{TMP_SUFFIX}.bak"]
+    for p in [*stale, *keep]:
+        p.write_bytes(b"partial")
+    (tmp_path / f".out.xlsx.{dead}-dir{TMP_SUFFIX}").mkdir()
+    running = holder(live)
     try:
-        stale = tmp_path / f".out.xlsx.{dead}-abc123_x{TMP_SUFFIX}"
-        keep = [tmp_path / f".out.xlsx.{live.pid}-abc123{TMP_SUFFIX}",  # its writer is still running
-                tmp_path / f".out.xlsx.{os.getpid()}-abc123{TMP_SUFFIX}",  # this very process
-                tmp_path / f".other.xlsx.{dead}-abc123{TMP_SUFFIX}",  # another output's
-                tmp_path / f"out.xlsx.{dead}-abc123{TMP_SUFFIX}",  # not our pattern (no dot)
-                tmp_path / f".out.xlsx.abc123{TMP_SUFFIX}",  # no pid in it
-                tmp_path / f".out.xlsx.{dead}-abc123{TMP_SUFFIX}.bak"]
-        for p in [stale, *keep]:
-            p.write_bytes(b"partial")
-        (tmp_path / f".out.xlsx.{dead}-dir{TMP_SUFFIX}").mkdir()
         r = cli("fill", src, "-o", tmp_path / "out.xlsx")
         assert r.exit_code == 0, r.output
-        assert not stale.exists()
+        assert not any(p.exists() for p in stale)
         assert all(p.exists() for p in keep) and (tmp_path / f".out.xlsx.{dead}-dir{TMP_SUFFIX}").is_dir()
-        assert f"removed 1 temporary file(s) an interrupted run left: {stale.name}" in r.output
+        assert live.read_bytes() == b"partial"
+        assert "removed 2 temporary file(s) an interrupted run left: " in r.output
+        assert all(p.name in r.output for p in stale)
     finally:
-        live.kill()
-        live.wait()
+        running.kill()
+        running.wait()
+        running.stdout.close()
+    assert remove_stale_temps(tmp_path / "out.xlsx") == [live.name]  # its holder has gone
 
 
 def test_remove_stale_temps_reports_what_it_removed(tmp_path):

@@ -71,7 +71,7 @@ def test_quantities_equal_the_sums_over_the_lines(tmp_path):
     mw = totals["mineral wool"]
     assert mw[col(q, "Lines")] == 4  # A1, A2, A3 and the inner layer of B2
     assert mw[col(q, "Pipe length")] == pytest.approx(30 + 12 + 20)
-    assert mw[col(q, "Flat area")] == pytest.approx(10)
+    assert mw[col(q, "Surface area")] == pytest.approx(10)
     vol = sum(res.quantities.volume[i, 0, 0] for i in (0, 1, 2, 4))
     assert mw[col(q, "Insulation volume")] == pytest.approx(vol, rel=1e-12)
     # the jacket goes on the outer material only
@@ -86,12 +86,12 @@ def test_quantities_equal_the_sums_over_the_lines(tmp_path):
 def test_the_same_schedule_in_us_units_gives_the_same_totals(tmp_path):
     """Summary in MBtu/h and MMBtu equals the SI summary converted (NIST SP 811: 1 Btu/h = 0.29307107 W)."""
     si_rows = [{"Tag": "P1", "Area": "X", "Shape": "pipe", "Outside diameter [mm]": 168.3, "Length [m]": 30.48,
-                "Operating temperature [°C]": 180, "Insulation": "mineral wool", "Min thickness [mm]": 76.2}]
+                "Operating temperature [°C]": 180, "Insulation": "mineral wool", "Fixed thickness [mm]": 76.2}]
     us_head = ["Tag", "Area", "Shape", "Outside diameter [in]", "Length [ft]", "Operating temperature [°F]",
-               "Insulation", "Min thickness [in]"]
+               "Insulation", "Fixed thickness [in]"]
     us_rows = [{"Tag": "P1", "Area": "X", "Shape": "pipe", "Outside diameter [in]": 168.3 / 25.4, "Length [ft]": 100,
-                "Operating temperature [°F]": 356, "Insulation": "mineral wool", "Min thickness [in]": 3}]
-    a_in, a_res = run(tmp_path, si_rows, name="si.xlsx")
+                "Operating temperature [°F]": 356, "Insulation": "mineral wool", "Fixed thickness [in]": 3}]
+    a_in, a_res = run(tmp_path, si_rows, HEAD + ["Fixed thickness [mm]"], name="si.xlsx")
     b_in, b_res = run(tmp_path, us_rows, us_head, name="us.xlsx")
     sa, sb = summary(a_in, a_res), summary(b_in, b_res)
     ra = next(r for r in sa.rows if r and r[0] == "Total")
@@ -139,3 +139,137 @@ def test_the_filled_demo_opens_in_libreoffice_and_its_summary_has_the_same_total
         sum(x["results"]["heat_loss_W"] for x in rep["lines"] if (x["results"]["heat_loss_W"] or 0) > 0) / 1000, rel=1e-6)
     assert float(value["Annual cost [EUR]"]) == pytest.approx(rep["summary"]["annual_cost"], rel=1e-6)
     assert float(value["Annual saving [EUR]"]) == pytest.approx(rep["summary"]["annual_saving"], rel=1e-6)
+
+
+# --------------------------------------------------------------------------- one size, however typed
+
+SIZES = [  # (Size, Outside diameter [mm]) of four lines that are all NPS 2 (ASME B36.10M: 60.3 mm)
+    ("NPS 2", None), ('2"', None), ("DN 50", None), (None, 60.3)]
+
+
+def _two_inch_rows(sizes, extra=()):
+    rows = [{"Tag": f"S{k}", "Area": "Yard", "Shape": "pipe", "Size": size, "Outside diameter [mm]": od,
+             "Length [m]": 10 + k, "Operating temperature [°C]": 180, "Insulation": "mineral wool",
+             "Max surface temperature [°C]": 50} for k, (size, od) in enumerate(sizes)]
+    return rows + list(extra)
+
+
+@pytest.mark.parametrize(
+    ("sizes", "label"),
+    [
+        (SIZES, "DN 50"),  # one each of NPS, inch and DN: a tie, which goes to DN on a millimetre sheet
+        ([("NPS 2", None), ("NPS 2", None), ("DN 50", None), (None, 60.3)], "NPS 2"),
+        ([('2"', None), ('2"', None), ("NPS 2", None), (None, 60.3)], '2"'),
+        ([("DN 50", None), ("DN 50", None), ("NPS 2", None), (None, 60.3)], "DN 50"),
+        ([(None, 60.3), (None, 60.3), (None, 60.3), (None, 60.3)], "OD 60.3 mm"),
+    ],
+)
+def test_quantities_give_one_row_per_outside_diameter_labelled_as_the_sheet_does(tmp_path, sizes, label):
+    """NPS 2, 2", DN 50 and OD 60.3 mm are one Quantities row, labelled in the style most lines use
+    (a tie goes to DN on a millimetre sheet), with the four lines' total length."""
+    inputs, res = run(tmp_path, _two_inch_rows(sizes))
+    assert all(st != "error" for st in res.status)
+    assert len(set(res.chosen.sum(axis=1))) == 1  # one build: the rows differ only by how the size was typed
+    q = quantities_table(inputs, res)
+    rows = [r for r in q.rows if r and r[0] == "mineral wool"]
+    assert len(rows) == 1, rows
+    assert rows[0][1] == label
+    assert rows[0][col(q, "Lines")] == 4
+    assert rows[0][col(q, "Pipe length")] == pytest.approx(10 + 11 + 12 + 13)
+
+
+def test_an_inch_sheet_with_a_tie_labels_nps(tmp_path):
+    """On a sheet in inches, one NPS 2 and one DN 50 make one row labelled NPS 2."""
+    head = ["Tag", "Shape", "Size", "Length [ft]", "Operating temperature [°F]", "Insulation",
+            "Max surface temperature [°F]"]
+    rows = [{"Tag": f"U{k}", "Shape": "pipe", "Size": size, "Length [ft]": 30, "Operating temperature [°F]": 350,
+             "Insulation": "mineral wool", "Max surface temperature [°F]": 122} for k, size in enumerate(("DN 50", "NPS 2"))]
+    inputs, res = run(tmp_path, rows, head)
+    q = quantities_table(inputs, res)
+    rows = [r for r in q.rows if r and r[0] == "mineral wool"]
+    assert [r[1] for r in rows] == ["NPS 2"] and rows[0][col(q, "Pipe length")] == pytest.approx(60.0)
+
+
+def test_a_sphere_carries_its_surface_area(tmp_path):
+    """A sphere of 2 m outside diameter adds π D² = 12.566 m² to Surface area, not to Pipe length."""
+    sphere = {"Tag": "SP", "Area": "Yard", "Shape": "sphere", "Outside diameter [mm]": 2000,
+              "Operating temperature [°C]": 150, "Insulation": "mineral wool", "Max surface temperature [°C]": 50}
+    inputs, res = run(tmp_path, [sphere])
+    assert res.status[0] != "error", res.notes[0]
+    q = quantities_table(inputs, res)
+    row = next(r for r in q.rows if r and r[0] == "mineral wool")
+    assert row[col(q, "Surface area")] == pytest.approx(np.pi * 2.0**2, rel=1e-12)
+    assert row[col(q, "Pipe length")] == 0
+    assert row[col(q, "Insulation volume")] == pytest.approx(res.quantities.volume[0, 0, 0], rel=1e-12)
+
+
+# --------------------------------------------------------------------------- totals that leave lines out
+
+COSTED = {"Materials": [["Name", "Cost per volume [EUR/m³]"], ["mineral wool", 400]],
+          "Settings": [["Setting", "Value", "Unit"], ["Jacket cost per area", 20, "EUR/m²"],
+                       ["Labour per layer", 15, "EUR/m²"]]}
+
+
+def test_installed_cost_totals_say_how_many_lines_they_cover(tmp_path):
+    """Six costed mineral-wool lines and four elastomeric ones without a cost in one area: Installed cost
+    is the sum of the six exactly, and 'Totals cover' says '6 of 10 lines' for it and for payback; an
+    area whose lines all have costs says nothing."""
+    rows = [{"Tag": f"M{k}", "Area": "East", "Shape": "pipe", "Size": "NPS 4", "Length [m]": 5 + k,
+             "Operating temperature [°C]": 150, "Insulation": "mineral wool", "Max surface temperature [°C]": 50}
+            for k in range(6)]
+    rows += [{"Tag": f"E{k}", "Area": "East", "Shape": "pipe", "Size": "NPS 2", "Length [m]": 8,
+              "Operating temperature [°C]": 8, "Insulation": "elastomeric foam", "Prevent condensation": "yes"}
+             for k in range(4)]
+    rows += [{"Tag": f"W{k}", "Area": "West", "Shape": "pipe", "Size": "NPS 3", "Length [m]": 12,
+              "Operating temperature [°C]": 150, "Insulation": "mineral wool", "Max surface temperature [°C]": 50}
+             for k in range(2)]
+    src = write_book(tmp_path / "c.xlsx", rows, HEAD, sheets=COSTED)
+    out = fill(src, tmp_path / "c-out.xlsx")
+    inputs, res = out.inputs, out.results
+    v = res.values
+    assert np.isfinite(v["installed_cost"][:6]).all() and np.isnan(v["installed_cost"][6:10]).all()
+    s = summary(inputs, res)
+    for name, costed, n in (("East", list(range(6)), 10), ("Total", list(range(6)) + [10, 11], 12)):
+        row = next(r for r in s.rows if r and r[0] == name)
+        assert row[col(s, "Installed cost")] == pytest.approx(v["installed_cost"][costed].sum(), rel=1e-12)
+        assert row[col(s, "Payback")] == pytest.approx(
+            v["installed_cost"][costed].sum() / v["annual_saving"][costed].sum(), rel=1e-12)
+        assert row[col(s, "Totals cover")] == f"Installed cost, Payback: {len(costed)} of {n} lines"
+    west = next(r for r in s.rows if r and r[0] == "West")
+    assert west[col(s, "Totals cover")] is None
+    assert west[col(s, "Installed cost")] == pytest.approx(v["installed_cost"][10:].sum(), rel=1e-12)
+    # the written Summary sheet carries the same words
+    import openpyxl
+
+    ws = openpyxl.load_workbook(tmp_path / "c-out.xlsx")["Summary"]
+    values = [[c.value for c in r] for r in ws.iter_rows()]
+    head = next(r for r in values if r and r[0] == "Area")
+    total = next(r for r in values if r and r[0] == "Total")
+    assert total[head.index("Totals cover")] == "Installed cost, Payback: 8 of 12 lines"
+
+
+def test_an_error_line_is_counted_out_of_the_totals_and_said_so(tmp_path):
+    """A line with an error (no results) is left out of the heat flows, energy, cost and CO2 of its area,
+    and 'Totals cover' says 2 of 3; lines without a material cost are out of Installed cost and Payback."""
+    inputs, res = run(tmp_path)
+    s = summary(inputs, res)
+    north = next(r for r in s.rows if r and r[0] == "North")
+    south = next(r for r in s.rows if r and r[0] == "South")  # B3 is an error: unknown material
+    assert res.status[5] == "error"
+    assert "Heat loss, Heat gain, Bare heat loss, Annual energy, Annual cost, Annual saving, CO2: 2 of 3 lines" \
+        in south[col(s, "Totals cover")]
+    assert "Installed cost, Payback: 0 of 3 lines" in north[col(s, "Totals cover")]
+
+
+def test_fill_closing_table_and_report_say_how_many_lines_the_totals_cover(tmp_path, cli):
+    """With one line of six in error, the report gives 5 lines in each total and fill's closing table
+    prints '(5 of 6 lines)' beside the heat loss, cost and saving."""
+    import json
+
+    src = write_book(tmp_path / "in.xlsx", ROWS, HEAD)
+    r = cli("fill", src, "-o", tmp_path / "out.xlsx", "--report", tmp_path / "r.json")
+    rep = json.loads((tmp_path / "r.json").read_text())
+    assert rep["summary"]["errors"] == 1
+    assert rep["summary"]["lines_in_totals"] == {"heat_loss_W": 5, "bare_heat_loss_W": 5, "annual_cost": 5,
+                                                 "annual_saving": 5}
+    assert r.output.count("(5 of 6 lines)") >= 4, r.output

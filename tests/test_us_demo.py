@@ -35,7 +35,8 @@ def _row(row):
     return list(row) + [None] * (len(demo.HEADERS) - len(row)) + [extra.get(h) for h in demo.PROCESS_HEADERS]
 
 
-def write_us_demo(path):
+def write_us_demo(path, metric_series=False):
+    """The demo in US units; ``metric_series`` lists every material's metric thicknesses (in mm) on Materials."""
     wb = openpyxl.Workbook()
     ws = wb.active
     ws.title = "Lines"
@@ -58,7 +59,15 @@ def write_us_demo(path):
               "Relative humidity [%]", "Operating hours [h]"])
     for r in demo.CONDITIONS[1:]:
         c.append([r[0], r[1] * 9 / 5 + 32, r[2] * 9 / 5 + 32, r[3] / 0.44704, r[4], r[5]])
-    for name, rows in (("Materials", demo.MATERIALS), ("Fluids", demo.FLUIDS), ("Settings", demo.SETTINGS)):
+    materials = demo.MATERIALS
+    if metric_series:  # every built-in material sold in its metric series, the unit written in the cell
+        named = {r[0] for r in demo.MATERIALS[1:]}
+        materials = [(*demo.MATERIALS[0], "Thicknesses")] + [
+            (*r, ", ".join(f"{t * 1000:g}" for t in m.thicknesses) + " mm") for r in demo.MATERIALS[1:]
+            for m in [library.materials()[library.key(r[0])]]] + [
+            (m.name, None, ", ".join(f"{t * 1000:g}" for t in m.thicknesses) + " mm")
+            for m in library.materials().values() if m.name not in named]
+    for name, rows in (("Materials", materials), ("Fluids", demo.FLUIDS), ("Settings", demo.SETTINGS)):
         s = wb.create_sheet(name)
         for r in rows:
             s.append(list(r))
@@ -67,10 +76,11 @@ def write_us_demo(path):
 
 
 def test_the_us_copy_of_the_demo_gives_the_same_physics_in_us_units(tmp_path, cli):
-    """Every line's heat loss and surface temperature equal the SI demo's within 0.1 %; outputs are in °F, in, Btu/h."""
+    """Sold in the same (metric) series, every line's heat loss and surface temperature equal the SI demo's
+    within 0.1 %; outputs are in °F, in, Btu/h."""
     assert cli("demo", tmp_path / "si").exit_code == 0
     si = json.loads((tmp_path / "si" / "demo-plant-report.json").read_text())["lines"]
-    src = write_us_demo(tmp_path / "us.xlsx")
+    src = write_us_demo(tmp_path / "us.xlsx", metric_series=True)
     r = cli("fill", src, "-o", tmp_path / "us-out.xlsx", "--report", tmp_path / "us.json")
     assert r.exit_code == 0, r.output
     us = json.loads((tmp_path / "us.json").read_text())["lines"]

@@ -2,27 +2,34 @@
 
 The colleague's result columns are found by their headers (ours by default, or mapped
 with ``Their header=Thickness``) and read in the units their headers give. A result
-differs when the thickness is not the same sold size, the surface temperature is more
+differs when the thickness is not the same sold size (0.5 mm, or 2 % so that 2 in and 50 mm
+agree), the surface temperature is more
 than ``surface_k`` off, or the heat loss more than ``loss_rel`` off. For each line that
 differs, the line is recomputed at the colleague's own thickness under each of the
 usual slips (:data:`CAUSES`); the one that reproduces their numbers is named.
+
+An audit that compares nothing (none of the columns found, or none holding a value) is an
+:class:`AuditError`, never an all-clear; the result says how many lines and columns it
+compared. Their values are shown as they wrote them, in their column's unit.
 """
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, replace
 
 import numpy as np
 
 from .check import split_header
 from .display import show
+from .errors import LagsheetError
 from .inputs import Inputs
 from .io.table import RawSheet, address, fold
 from .physics.balance import System, solve
 from .physics.layers import CYLINDER, MaterialTable
 from .physics.sizing import heat_rate, per_line
 from .spec import Results, _whole
-from .units import UnitTextError, parse_unit, to_si
+from .units import UnitTextError, is_unit, parse_unit, to_si, unit_label
 
 # our result headers, and the SI unit each is compared in
 RESULTS = {
@@ -38,6 +45,8 @@ CAUSES = {
     "fixed h = 10": "a fixed surface coefficient h = 10 W/(m²·K) for convection and radiation together",
     "k at ambient": "the conductivity taken at the ambient temperature instead of the layer's mean",
     "inches read as mm": "the diameter in inches read as millimetres",
+    "thickness in the other unit": "the thickness typed in the other unit system (inches in a millimetre "
+                                   "column, or millimetres in an inch column)",
 }
 
 
@@ -50,77 +59,177 @@ class Finding:
     ours: float
     cause: str | None
     message: str
+    theirs_as_written: str = ""
 
 
-def their_columns(raw: RawSheet, header_row: int, mapping: dict[str, str]) -> dict[str, tuple[int, object]]:
-    """Result key -> (column, pint unit) of the colleague's columns."""
+@dataclass(frozen=True)
+class TheirColumn:
+    """One of the colleague's result columns: where it is, its header and the unit it is read in."""
+
+    key: str
+    col: int
+    header: str
+    unit: object
+    unit_text: str
+    unit_from_header: bool
+
+
+@dataclass(frozen=True)
+class Audit:
+    """What was compared (lines and columns) and what differs."""
+
+    findings: list[Finding]
+    columns: list[TheirColumn]
+    lines_compared: int
+
+    def summary(self) -> str:
+        cols = ", ".join(f"{c.header!r} as {RESULTS[c.key][0]}" for c in self.columns)
+        what = f"compared {self.lines_compared} line{'s' * (self.lines_compared != 1)} on " \
+               f"{len(self.columns)} column{'s' * (len(self.columns) != 1)} ({cols})"
+        if self.findings:
+            return f"{what}: {len(self.findings)} result{'s' * (len(self.findings) != 1)} differ beyond tolerance"
+        return f"{what}: every audited result agrees"
+
+
+class AuditError(LagsheetError, ValueError):
+    """Nothing to audit, or a --map that cannot be applied: one plain sentence, exit 2."""
+
+
+_MAP_HINT = "name your columns with --map 'Their header=Thickness' (or Surface temperature, Heat loss, " \
+            "Heat loss per length)"
+
+
+def their_columns(raw: RawSheet, header_row: int, mapping: dict[str, str]) -> list[TheirColumn]:
+    """The colleague's result columns, with the unit each is read in; a --map that cannot apply is an AuditError."""
     wanted = {fold(RESULTS[k][0]): k for k in RESULTS}
+    mapped: dict[str, str] = {}
     for theirs, ours in mapping.items():
         key = wanted.get(fold(split_header(ours)[0]))
         if key is None:
-            raise ValueError(f"--map: {ours!r} is not a result lagsheet audits "
+            raise AuditError(f"--map: {ours!r} is not a result lagsheet audits "
                              f"({', '.join(v[0] for v in RESULTS.values())})")
-        wanted[fold(split_header(theirs)[0])] = key
-    found = {}
-    for c, text in enumerate(raw.grid[header_row] if header_row < len(raw.grid) else []):
+        mapped[fold(split_header(theirs)[0])] = key
+    wanted.update(mapped)
+    headers = raw.grid[header_row] if header_row < len(raw.grid) else []
+    present = {fold(split_header(str(h))[0]) for h in headers if isinstance(h, str)}
+    for theirs in mapping:
+        if fold(split_header(theirs)[0]) not in present:
+            raise AuditError(f"--map: there is no column {split_header(theirs)[0]!r} in the header row of "
+                             f"{raw.name} (row {header_row + 1}); give their header as written there")
+    found: dict[str, TheirColumn] = {}
+    for c, text in enumerate(headers):
         if not isinstance(text, str):
             continue
-        name, unit = split_header(text)
+        name, unit_text = split_header(text)
         key = wanted.get(fold(name))
         if key is None or key in found:
             continue
+        si = RESULTS[key][1]
+        written = unit_text if unit_text else _default_unit(key)
         try:
-            found[key] = (c, parse_unit(unit) if unit else parse_unit(_default_unit(key)))
+            unit = parse_unit(written)
         except UnitTextError:
-            continue
-    return found
+            raise AuditError(f"{raw.name}!{address(header_row, c)}: the unit {unit_text!r} of {text.strip()!r} "
+                             f"is not one lagsheet knows; write it as e.g. [{_default_unit(key)}]") from None
+        if not is_unit(unit, si):
+            raise AuditError(f"{raw.name}!{address(header_row, c)}: {text.strip()!r} is in {unit_label(unit)}, "
+                             f"which cannot be a {RESULTS[key][0]} ({_default_unit(key)}); "
+                             "map it to a result of the same kind")
+        found[key] = TheirColumn(key, c, text.strip(), unit, unit_label(unit) if unit_text else written,
+                                 bool(unit_text))
+    return [found[k] for k in RESULTS if k in found]
 
 
 def _default_unit(key: str) -> str:
     return {"thickness": "mm", "t_surface": "°C", "heat_loss_per_length": "W/m", "heat_loss": "W"}[key]
 
 
+def _as_written(x: float, unit_text: str) -> str:
+    return f"{x:g} {unit_text}"
+
+
 def audit(inputs: Inputs, raw: RawSheet, res: Results, mapping: dict[str, str] | None = None,
-          surface_k: float = 2.0, loss_rel: float = 0.05) -> list[Finding]:
+          surface_k: float = 2.0, loss_rel: float = 0.05) -> Audit:
+    """Compare the colleague's result columns with lagsheet's; an AuditError when nothing can be compared."""
+    if not (math.isfinite(surface_k) and surface_k >= 0):
+        raise AuditError(f"--surface-tolerance must be a number of kelvin, 0 or more (got {surface_k})")
+    if not (math.isfinite(loss_rel) and loss_rel >= 0):
+        raise AuditError(f"--loss-tolerance must be a percentage, 0 or more (got {loss_rel * 100:g})")
     t = inputs.lines
     cols = their_columns(raw, t.header_row, mapping or {})
+    if not cols:
+        raise AuditError(f"none of the columns audit compares is in the header row of {raw.name} (row "
+                         f"{t.header_row + 1}): it looked for {', '.join(repr(v[0]) for v in RESULTS.values())}, "
+                         f"each with its unit; {_MAP_HINT}")
     theirs: dict[str, np.ndarray] = {}
-    for key, (c, unit) in cols.items():
-        vals = np.array([_num(raw.value(r, c)) for r in t.rows])
+    written: dict[str, np.ndarray] = {}
+    for tc in cols:
+        vals = np.array([_num(raw.value(r, tc.col)) for r in t.rows])
         ok = np.isfinite(vals)
         si = np.full(len(vals), np.nan)
         if ok.any():
-            si[ok] = to_si(vals[ok], unit, RESULTS[key][1])
-        theirs[key] = si
+            si[ok] = to_si(vals[ok], tc.unit, RESULTS[tc.key][1])
+        theirs[tc.key] = si
+        written[tc.key] = vals
     v = res.values
+    compared = np.zeros(res.n, dtype=bool)
+    for key, their in theirs.items():
+        compared |= np.isfinite(their) & np.isfinite(v[key])
+    if not compared.any():
+        raise AuditError(f"the columns {', '.join(repr(c.header) for c in cols)} hold no value that lagsheet "
+                         f"can compare on any line of {raw.name} (blank, text, or lines in error): fill them "
+                         f"first, or {_MAP_HINT}")
     findings: list[Finding] = []
     differ = np.zeros(res.n, dtype=bool)
     checks = []
     for key, their in theirs.items():
         ours = v[key]
         both = np.isfinite(their) & np.isfinite(ours)
-        if key == "thickness":
-            bad = both & (np.abs(their - ours) > 0.0005)
+        if key == "thickness":  # the same sold size: within 0.5 mm, or an inch size and its metric twin (2 %)
+            bad = both & (np.abs(their - ours) > np.maximum(0.0005, 0.02 * np.abs(ours)))
         elif key == "t_surface":
             bad = both & (np.abs(their - ours) > surface_k)
         else:
             bad = both & (np.abs(their - ours) > loss_rel * np.maximum(np.abs(ours), 1e-9))
         differ |= bad
         checks.append((key, bad))
-    causes = _causes(inputs, res, theirs, np.flatnonzero(differ), surface_k, loss_rel) if differ.any() else {}
+    by_key = {tc.key: tc for tc in cols}
+    other = _other_unit_factor(by_key["thickness"].unit) if "thickness" in by_key else None
+    causes = _causes(inputs, res, theirs, np.flatnonzero(differ), surface_k, loss_rel, other) \
+        if differ.any() else {}
     us = inputs.us_units
     for key, bad in checks:
         kind = {"thickness": "thickness", "t_surface": "temperature", "heat_loss_per_length": "per_length",
                 "heat_loss": "power"}[key]
+        tc = by_key[key]
         for i in np.flatnonzero(bad):
             cause = causes.get(int(i))
-            cell = address(t.rows[i], cols[key][0])
-            msg = (f"{RESULTS[key][0]} ({t.sheet}!{cell}): theirs {show(theirs[key][i], kind, us)}, lagsheet "
+            if key == "thickness" and other is not None and _same_size(theirs[key][i] * other, v[key][i]):
+                cause = "thickness in the other unit"
+            cell = address(t.rows[i], tc.col)
+            as_written = _as_written(written[key][i], tc.unit_text)
+            msg = (f"{RESULTS[key][0]} ({t.sheet}!{cell}): theirs {as_written}, lagsheet "
                    f"{show(v[key][i], kind, us)}" + (f"; likely cause: {CAUSES[cause]}" if cause else
                                                     "; no single usual slip reproduces their value"))
             findings.append(Finding(t.rows[i] + 1, res.tags[i], RESULTS[key][0], float(theirs[key][i]),
-                                    float(v[key][i]), cause, msg))
-    return findings
+                                    float(v[key][i]), cause, msg, as_written))
+    return Audit(findings, cols, int(compared.sum()))
+
+
+def _other_unit_factor(unit) -> float:
+    """Their thickness number read in the other unit system, as a factor on their SI value (mm <-> in)."""
+    one = float(to_si(1.0, unit, "m"))
+    inch_like = abs(one / 0.0254 - 1) < 1e-9 or abs(one / 0.3048 - 1) < 1e-9
+    return (0.001 if inch_like else 0.0254) / one
+
+
+def _same_size(a: float, b: float) -> bool:
+    """Two thicknesses that name the same sold size across unit systems (2 in and 50 mm): within 7 %.
+
+    Neighbouring sold sizes differ by 10 % or more in both systems' usual series, so 7 % does not
+    mistake one size for the next (our own tolerance, stated in the README).
+    """
+    return bool(np.isfinite(a) and np.isfinite(b) and b > 0 and abs(a - b) <= 0.07 * b)
 
 
 def _num(x) -> float:
@@ -133,7 +242,7 @@ def _num(x) -> float:
 
 
 def _causes(inputs: Inputs, res: Results, theirs, rows: np.ndarray, surface_k: float,
-            loss_rel: float) -> dict[int, str]:
+            loss_rel: float, other: float | None = None) -> dict[int, str]:
     """For each differing line, the usual slip that reproduces the colleague's numbers best."""
     base = per_line(res.system, rows)
     th_theirs = theirs.get("thickness")
@@ -161,6 +270,11 @@ def _causes(inputs: Inputs, res: Results, theirs, rows: np.ndarray, surface_k: f
     variants["no radiation"] = (replace(base, emissivity=np.zeros(len(rows))), res.table)
     variants["fixed h = 10"] = (replace(base, h_fixed=np.full(len(rows), 10.0)), res.table)
     variants["inches read as mm"] = (replace(base, r_inner=r_inch_mm), res.table)
+    if other is not None and th_theirs is not None:
+        # their surface and loss come from their thickness in the other unit; their column's number is not it
+        thick_other = thick.copy()
+        thick_other[use, 0] = tt[use] * other
+        variants["thickness in the other unit"] = (replace(base, thickness=thick_other), res.table)
     # k at ambient: one constant curve per line, at that line's ambient
     curves = {}
     mats = np.zeros_like(base.material)

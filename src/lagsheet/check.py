@@ -6,6 +6,7 @@ Knows fields and units (``schema``, ``units``), nothing of heat. Every problem i
 
 from __future__ import annotations
 
+import datetime as dt
 import difflib
 import re
 from dataclasses import dataclass, field
@@ -91,15 +92,42 @@ def _suggest(word: str, choices) -> str:
     return f"; did you mean {', '.join(repr(n) for n in near)}?" if near else ""
 
 
-def read_table(sheet: RawSheet, fields, marker: str) -> Table | None:
-    """Find the header row (first row with ``marker``), map headers to fields, convert."""
+def _known(fields, row: list) -> int:
+    """How many of ``fields`` the cells of ``row`` name (as headers, with or without a unit)."""
+    found = set()
+    for v in row:
+        if isinstance(v, str) and v.strip():
+            f = schema.match(fields, fold(split_header(v)[0]))
+            if f is not None:
+                found.add(f.key)
+    return len(found)
+
+
+def find_header_row(sheet: RawSheet, fields, marker: str) -> tuple[int | None, list[int]]:
+    """The header row: of the rows with a cell equal to ``marker`` or one of its aliases ('Tag',
+    'ID', 'Line'...), the one naming the most known fields (the first of equals); with the
+    other such rows."""
     key = next((f for f in fields if fold(f.header) == fold(marker)), None)
-    hr = sheet.find_header((marker, *key.aliases) if key is not None else marker)  # 'Tag' or an alias
+    rows = sheet.header_rows((marker, *key.aliases) if key is not None else marker)
+    if len(rows) <= 1:
+        return (rows[0] if rows else None), []
+    score = {r: _known(fields, sheet.grid[r]) for r in rows}
+    best = max(rows, key=lambda r: (score[r], -r))
+    return best, [r for r in rows if r != best]
+
+
+def read_table(sheet: RawSheet, fields, marker: str) -> Table | None:
+    """Find the header row (:func:`find_header_row`), map headers to fields, convert."""
+    hr, others = find_header_row(sheet, fields, marker)
     if hr is None:
         return None
     header_cells = sheet.grid[hr]
     cols: dict[str, Column] = {}
     t = Table(sheet.name, hr, [], last_col=sheet.used_width())
+    if others and others[0] < hr:
+        t.notes.append(Note("info", "header-row",
+                            f"row {hr + 1} is taken as the header row of sheet {sheet.name!r}: it names more "
+                            f"known columns than row {others[0] + 1} above it", sheet.name, address(hr, 0)))
     for c, text in enumerate(header_cells):
         if text in ("", None):
             continue
@@ -189,7 +217,10 @@ def _data_rows(sheet: RawSheet, first: int, cols: list[int]) -> list[int]:
     uncached = {r for r, c in sheet.uncached if c in wanted}
     rows = []
     grid = sheet.grid
+    totals = sheet.totals_rows
     for r in range(first, len(grid)):
+        if totals and r in totals:  # a table's totals row (SUBTOTAL formulas), not a line
+            continue
         row = grid[r]
         n = len(row)
         for col in cols:
@@ -212,6 +243,26 @@ def _column(sheet: RawSheet, rows: list[int], col: int) -> list:
     else:
         cells = [row[col] if col < len(row) else None for row in lines]
     return [None if v == "" else v for v in cells]
+
+
+def shown(v) -> str:
+    """A cell's value as a spreadsheet shows it, for a message: text in quotes, a date as
+    2024-03-04, a number without a trailing '.0', TRUE/FALSE (never a Python repr)."""
+    if isinstance(v, str):
+        return repr(v)
+    if isinstance(v, bool):
+        return "TRUE" if v else "FALSE"
+    if isinstance(v, dt.datetime):
+        return v.isoformat(sep=" ", timespec="minutes") if (v.hour, v.minute, v.second) != (0, 0, 0) \
+            else v.date().isoformat()
+    if isinstance(v, (dt.date, dt.time)):
+        return v.isoformat()
+    if isinstance(v, dt.timedelta):
+        secs = int(v.total_seconds())
+        return f"{secs // 3600}:{secs % 3600 // 60:02d}:{secs % 60:02d}"
+    if isinstance(v, float) and not v.is_integer():
+        return repr(v)
+    return _text(v) if isinstance(v, (int, float)) else str(v)
 
 
 def _text(v) -> str:
@@ -261,7 +312,7 @@ def _convert(sheet: RawSheet, t: Table, c: Column) -> None:
                 elif w in schema.NO:
                     texts[i] = False
                 else:
-                    t.add(i, Note("error", "not-yes-no", f"{f.header!r} must be yes or no: {raw[i]!r}",
+                    t.add(i, Note("error", "not-yes-no", f"{f.header!r} must be yes or no: {shown(raw[i])}",
                                   sheet.name, address(t.rows[i], c.col)))
                     texts[i] = None
         vals = np.empty(len(raw), dtype=object)
@@ -289,8 +340,15 @@ def _convert(sheet: RawSheet, t: Table, c: Column) -> None:
     others = [i for i, v in enumerate(raw) if v is not None and type(v) is not float and type(v) is not int]
     for i in others:
         v = raw[i]
+        if isinstance(v, (dt.date, dt.time, dt.timedelta)):
+            kind = "time" if isinstance(v, (dt.time, dt.timedelta)) else "date"
+            t.add(i, Note("error", "not-a-number",
+                          f"{f.header!r} holds a {kind} ({shown(v)}) where a {_dimension_word(f)} belongs: the "
+                          f"cell is formatted as a {kind}. Format it as a number (Format Cells, Number) and check "
+                          "the value", sheet.name, address(t.rows[i], c.col)))
+            continue
         if isinstance(v, bool) or not isinstance(v, (int, float, str)):
-            t.add(i, Note("error", "not-a-number", f"{f.header!r} must be a number: {v!r}",
+            t.add(i, Note("error", "not-a-number", f"{f.header!r} must be a number: {shown(v)}",
                           sheet.name, address(t.rows[i], c.col)))
             continue
         if isinstance(v, str):

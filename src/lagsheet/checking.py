@@ -52,6 +52,9 @@ def check(path: Path, sheet: str = "Lines", annotate: Path | None = None) -> Che
                 pos = _parse_address(n.cell)
                 if pos is not None:
                     e.comments[pos] = (e.comments[pos] + "\n" if pos in e.comments else "") + n.message
+        from .writeback import fit_comments
+
+        fit_comments(e.comments, "check's printed list and its --report")
         book.save([e], Path(annotate))
     out.exit_code = 1 if any(n.level == "error" for n in out.notes) else 0
     return out

@@ -8,7 +8,7 @@ import typer
 
 from . import __version__
 
-app = typer.Typer(add_completion=False, no_args_is_help=True,
+app = typer.Typer(add_completion=False, no_args_is_help=True, rich_markup_mode=None,
                   help="Size and check thermal insulation for every line of an equipment schedule.")
 
 CAUTION = ("Cautions: surface limits for personnel protection depend on contact time and surface "
@@ -36,13 +36,13 @@ def _print_summary(outcome, out: Path, quiet: bool) -> None:
         if n.level in ("error", "warning") or not quiet:
             where = f" ({n.sheet}!{n.cell})" if n.sheet and n.cell else ""
             typer.echo(f"{n.level}: {n.message}{where}", err=True)
-    if quiet:
-        return
-    for line in outcome.report["lines"]:
+    for line in outcome.report["lines"]:  # line errors are printed with --quiet too: it means errors only
         for n in line["notes"]:
             if n["level"] == "error":
                 typer.echo(f"error: {line['tag'] or 'row ' + str(line['row'])}: {n['message']} "
                            f"({n['sheet']}!{n['cell']})", err=True)
+    if quiet:
+        return
     from rich.console import Console
     from rich.table import Table
 
@@ -54,13 +54,19 @@ def _print_summary(outcome, out: Path, quiet: bool) -> None:
     # as in the Summary sheet: losses and gains apart, bare as the sum of magnitudes
     flows = [line["results"]["heat_loss_W"] or 0.0 for line in outcome.report["lines"]]
     bare = sum(abs(line["results"]["bare_heat_loss_W"] or 0.0) for line in outcome.report["lines"])
-    table.add_row("heat loss, insulated", f"{sum(q for q in flows if q > 0) / 1000:,.1f} kW")
+    covered = s.get("lines_in_totals", {})
+
+    def of(key):  # a total that leaves lines out says how many it adds up
+        k = covered.get(key, s["lines"])
+        return f" ({k} of {s['lines']} lines)" if k < s["lines"] else ""
+
+    table.add_row("heat loss, insulated", f"{sum(q for q in flows if q > 0) / 1000:,.1f} kW{of('heat_loss_W')}")
     gain = -sum(q for q in flows if q < 0)
     if gain:
-        table.add_row("heat gain, insulated", f"{gain / 1000:,.1f} kW")
-    table.add_row("heat loss, bare", f"{bare / 1000:,.1f} kW")
-    table.add_row("annual cost", f"{s['annual_cost']:,.0f} {cur}")
-    table.add_row("annual saving", f"{s['annual_saving']:,.0f} {cur}")
+        table.add_row("heat gain, insulated", f"{gain / 1000:,.1f} kW{of('heat_loss_W')}")
+    table.add_row("heat loss, bare", f"{bare / 1000:,.1f} kW{of('bare_heat_loss_W')}")
+    table.add_row("annual cost", f"{s['annual_cost']:,.0f} {cur}{of('annual_cost')}")
+    table.add_row("annual saving", f"{s['annual_saving']:,.0f} {cur}{of('annual_saving')}")
     if s.get("condensate_kg_per_s"):
         table.add_row("steam condensate", f"{s['condensate_kg_per_s'] * 3600:,.1f} kg/h")
     table.add_row("written", str(out))
@@ -140,18 +146,25 @@ def demo(
     quiet: bool = typer.Option(False, "--quiet", "-q", help="Print errors only."),
 ):
     from .demo import write_demo
-    from .errors import LagsheetError
+    from .errors import WorkbookError
     from .pipeline import fill as run
 
-    directory.mkdir(parents=True, exist_ok=True)
     src = directory / "demo-plant.xlsx"
     out = directory / "demo-plant-filled.xlsx"
-    write_demo(src)
-    try:
-        outcome = run(src, out, report_path=directory / "demo-plant-report.json")
-    except LagsheetError as exc:
-        typer.echo(f"lagsheet: {exc}", err=True)
-        raise typer.Exit(2) from None
+
+    def job():
+        try:
+            directory.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            raise WorkbookError(f"{directory}: cannot create the folder ({exc.strerror or exc}); "
+                                "nothing was written") from None
+        write_demo(src)
+        try:
+            return run(src, out, report_path=directory / "demo-plant-report.json")
+        except WorkbookError as exc:  # say what the demo did write
+            raise WorkbookError(f"{exc} (the demo schedule {src} was written)") from None
+
+    outcome = _guarded(job)
     if not quiet:
         typer.echo(f"demo schedule: {src}")
     _print_summary(outcome, out, quiet)
@@ -171,6 +184,9 @@ def materials():
                    f"{show(m.max_temperature, 'temperature')}]  k W/(m·K) at mean temperature: {pts}")
         typer.echo(f"    sold: {', '.join(f'{t * 1000:g}' for t in m.thicknesses)} mm; "
                    f"max layer {m.max_layer * 1000:g} mm; source: {m.source}")
+        if m.thicknesses_us:
+            typer.echo(f"    sold on sheets in inches: {', '.join(f'{t / 0.0254:g}' for t in m.thicknesses_us)} in; "
+                       f"max layer {m.max_layer_us / 0.0254:g} in")
     typer.echo("")
     for f in finishes().values():
         typer.echo(f"finish {f.name}: emissivity {f.emissivity:.2f}; source: {f.source}")
@@ -183,15 +199,28 @@ def new(
     file: Path = typer.Argument(..., help="The workbook to write: a name ending in .xlsx or .ods."),
     force: bool = typer.Option(False, "--force", help="Replace FILE if it already exists."),
 ):
-    from .errors import LagsheetError
     from .templates import write_new
 
-    try:
-        write_new(file, force=force)
-    except LagsheetError as exc:
-        typer.echo(f"lagsheet: {exc}", err=True)
-        raise typer.Exit(2) from None
+    _guarded(lambda: write_new(file, force=force))
     typer.echo(f"written: {file}")
+
+
+def _refuse_unsafe(file: Path, *targets: tuple[Path | None, str]) -> None:
+    """Before any work: each file a command will write must be safe to write (exit 2 with a sentence if not)."""
+    from .errors import WorkbookError
+    from .io.save import refuse_unsafe, same_file
+
+    given = [(Path(t), what) for t, what in targets if t is not None]
+
+    def job():
+        for k, (target, what) in enumerate(given):
+            refuse_unsafe(target, inputs=[file], what=what)
+            for other, other_what in given[k + 1:]:
+                if same_file(target, other):
+                    raise WorkbookError(f"{target}: the {what} and the {other_what} would be the same file; "
+                                        "choose two names")
+
+    _guarded(job)
 
 
 def _open_and_specify(file: Path, sheet: str):
@@ -216,11 +245,25 @@ def check(
     from rich.table import Table
 
     from .checking import check as run
+    from .io.save import writing
 
-    if annotate is not None and Path(annotate).resolve() == Path(file).resolve():
-        typer.echo("lagsheet: --annotate would overwrite the input; choose another file", err=True)
-        raise typer.Exit(2)
-    outcome = _guarded(lambda: run(file, sheet, annotate))
+    _refuse_unsafe(file, (annotate, "annotated copy"), (report, "report"))
+
+    def job():
+        # the annotated copy and the report are both written and verified before either is renamed
+        with writing(inputs=[file], deferred=True):
+            outcome = run(file, sheet, annotate)
+            if report is not None:
+                from .report import write_json
+
+                errors = sum(n.level == "error" for n in outcome.notes)
+                warnings = sum(n.level == "warning" for n in outcome.notes)
+                write_json({"input": str(file), "notes": [n.as_dict() for n in outcome.notes],
+                            "columns": outcome.inputs.columns, "errors": errors, "warnings": warnings},
+                           report, inputs=[p for p in (annotate,) if p is not None])
+        return outcome
+
+    outcome = _guarded(job)
     shown = [n for n in outcome.notes if n.level == "error" or (not quiet and n.level == "warning")]
     console = Console(width=160)
     if shown:
@@ -233,12 +276,8 @@ def check(
         console.print(table)
     errors = sum(n.level == "error" for n in outcome.notes)
     warnings = sum(n.level == "warning" for n in outcome.notes)
-    typer.echo(f"{errors} errors, {warnings} warnings" + (f"; annotated copy: {annotate}" if annotate else ""))
-    if report is not None:
-        from .report import write_json
-
-        write_json({"input": str(file), "notes": [n.as_dict() for n in outcome.notes],
-                    "columns": outcome.inputs.columns, "errors": errors, "warnings": warnings}, report)
+    typer.echo(f"{errors} errors, {warnings} warnings" + (f"; annotated copy: {annotate}" if annotate else "")
+               + (f"; report: {report}" if report else ""))
     raise typer.Exit(outcome.exit_code)
 
 
@@ -253,6 +292,7 @@ def explain(
     from .explain import explain as words
     from .explain import find_line
 
+    _refuse_unsafe(file, (plot, "plot"))
     book, inputs, res = _guarded(lambda: _open_and_specify(file, sheet))
     i = find_line(res, tag)
     if i is None:
@@ -265,7 +305,7 @@ def explain(
             raise typer.Exit(1)
         from .plot import plot_line
 
-        _guarded(lambda: plot_line(inputs, res, i, plot))
+        _guarded(lambda: plot_line(inputs, res, i, plot, never=[file]))
         typer.echo(f"plot: {plot}")
     raise typer.Exit(1 if res.status[i] == "error" else 0)
 
@@ -292,23 +332,48 @@ def audit(
             typer.echo(f"lagsheet: --map {m!r}: write it as 'Their header=Thickness'", err=True)
             raise typer.Exit(2)
         mapping[theirs.strip()] = ours.strip()
+    _refuse_unsafe(file, (report, "report"))
     book, inputs, res = _guarded(lambda: _open_and_specify(file, sheet))
-    try:
-        found = run(inputs, book.sheet(inputs.lines.sheet), res, mapping, surface_k, loss_pct / 100)
-    except ValueError as exc:
-        typer.echo(f"lagsheet: {exc}", err=True)
-        raise typer.Exit(2) from None
-    for f in found:
+    result = _guarded(lambda: run(inputs, book.sheet(inputs.lines.sheet), res, mapping, surface_k,
+                                  loss_pct / 100))
+    for f in result.findings:
         typer.echo(f"{f.tag or 'row ' + str(f.row)}: {f.message}")
-    typer.echo(f"{len(found)} results differ beyond tolerance" if found else "every audited result agrees")
+    for c in result.columns:
+        if not c.unit_from_header:
+            typer.echo(f"warning: {c.header!r} has no unit in its header; read as {c.unit_text}", err=True)
+    typer.echo(result.summary())
     if report is not None:
         from .report import write_json
 
-        write_json({"input": str(file), "differences": [asdict(f) for f in found]}, report)
-    raise typer.Exit(1 if found else 0)
+        _guarded(lambda: write_json({"input": str(file), "lines_compared": result.lines_compared,
+                                     "columns": [{"header": c.header, "result": c.key, "unit": c.unit_text}
+                                                 for c in result.columns],
+                                     "differences": [asdict(f) for f in result.findings]}, report,
+                                    inputs=[file]))
+    raise typer.Exit(1 if result.findings else 0)
+
+
+# what --help shows after an option or argument: words a user types, not Python types ('<list[str]>')
+_METAVARS = {"output": "OUT", "report": "REPORT.json", "annotate": "OUT", "plot": "PNG", "sheet": "NAME",
+             "map_": "'THEIRS=OURS'", "surface_k": "KELVIN", "loss_pct": "PERCENT"}
+
+
+def _name_metavars() -> None:
+    import inspect
+
+    from typer.models import ArgumentInfo, OptionInfo
+
+    for command in app.registered_commands:
+        for name, param in inspect.signature(command.callback).parameters.items():
+            info = param.default
+            if isinstance(info, ArgumentInfo) and info.metavar is None:
+                info.metavar = name.upper()
+            elif isinstance(info, OptionInfo) and info.metavar is None and param.annotation not in (bool, "bool"):
+                info.metavar = _METAVARS.get(name, name.upper())
 
 
 def main() -> None:
+    _name_metavars()
     app()
 
 

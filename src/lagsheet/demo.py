@@ -13,7 +13,10 @@ line with no pipe schedule) produce warnings, not errors; nothing else is warned
 
 from __future__ import annotations
 
+import zipfile
 from pathlib import Path
+
+from .io.xlsx import fonts_in_schema_order
 
 HEADERS = ["Tag", "Area", "Service", "Shape", "Size", "Outside diameter [mm]", "Length [m]",
            "Operating temperature [°C]", "Condition", "Insulation", "Finish",
@@ -172,4 +175,14 @@ def write_demo(path: Path) -> None:
             s.append(list(r))
         for cell in s[1]:
             cell.font = Font(bold=True)
-    wb.save(path)
+    from .io.save import atomic_write
+
+    def write(tmp: str) -> None:
+        wb.save(tmp)
+        with zipfile.ZipFile(tmp) as src:
+            members = [(i, src.read(i.filename)) for i in src.infolist()]
+        with zipfile.ZipFile(tmp, "w", zipfile.ZIP_DEFLATED) as dst:
+            for info, data in members:  # the fonts as the schema orders them, or validators object
+                dst.writestr(info, fonts_in_schema_order(data) if info.filename == "xl/styles.xml" else data)
+
+    atomic_write(path, write, what="demo schedule")  # the one safe save: no link, lock or special file

@@ -18,10 +18,11 @@ _KINDS = {
     "per_area": ("W/m²", "Btu/(h·ft²)", 1, 1),
     "power": ("W", "Btu/h", 0, 0),
     "pressure": ("bar", "psi", 2, 1),
+    "length": ("m", "ft", 0, 0),
 }
 _SI_BASE = {"temperature": "K", "difference": "K", "thickness": "m", "radius": "m",
             "per_length": "W/m", "per_area": "W/m**2", "power": "W",
-            "pressure": "Pa"}
+            "pressure": "Pa", "length": "m"}
 
 
 def show(value: float, kind: str, us: bool = False) -> str:
@@ -47,4 +48,4 @@ def _linear(kind: str, unit: str) -> tuple[float, float]:
 def _text(unit: str) -> str:
     return {"°C": "degC", "°F": "degF", "K": "K", "W/m²": "W/m**2",
             "Btu/(h·ft)": "Btu/hour/foot", "Btu/(h·ft²)": "Btu/(hour*foot**2)",
-            "Btu/h": "Btu/hour"}.get(unit, unit)
+            "Btu/h": "Btu/hour", "ft": "foot"}.get(unit, unit)

@@ -72,10 +72,8 @@ def explain(inputs: Inputs, raw: RawSheet, res: Results, i: int) -> list[str]:
     h_c, h_r = float(conv.h[0]), float(sol.h_radiation[0])
     out += ["", "Outer surface:",
             f"  surface temperature {show(ts, 'temperature', us)}, film {show(0.5 * (ts + cond.t_air), 'temperature', us)}",
-            f"  free convection: {free_name}, Ra = {conv.ra[0]:.4g}, Nu = {conv.nu_free[0]:.4g}",
-            f"  forced convection: {forced_name}, Re = {conv.re[0]:.4g}, Nu = {conv.nu_forced[0]:.4g}",
-            f"  combined (Churchill-Usagi, n = 3): Nu = {conv.nu[0]:.4g}, Pr = {conv.pr[0]:.4f}, "
-            f"h_conv = {h_c:.3f} W/(m²·K)",
+            *_convection_lines(L, s1, sol, free_name, forced_name, us),
+            f"  h_conv = Nu k_air / L = {h_c:.3f} W/(m²·K)",
             f"  radiation: emissivity {float(s1.emissivity[0]):.2f}, sigma = {SIGMA:.6e} W/(m²·K⁴), "
             f"q_rad = {float(sol.q_radiation[0]):.2f} W/m², h_rad (linearised) = {h_r:.3f} W/(m²·K)",
             f"  heat flux {q:.3f} W/m² = convection {h_c * (ts - cond.t_air):.3f} + radiation "
@@ -88,9 +86,15 @@ def explain(inputs: Inputs, raw: RawSheet, res: Results, i: int) -> list[str]:
         rule = "2k/h" if L.geometry == SPHERE else "k/h"
         out.append(f"  critical radius {show(float(v['critical_radius'][i]), 'radius', us)} "
                    f"({rule} with h = h_conv + h_rad = {h_c + h_r:.3f} W/(m²·K))")
-    out += ["", "Targets (each one's own thinnest sold thickness):"]
+    out += ["", "Targets (each one's own thinnest sold thickness; margin at the chosen system, worst named "
+            "condition):"]
+    margins = res.target_margin[i] if res.target_margin else {}
     for name, th in (res.target_thickness[i] if res.target_thickness else {}).items():
-        out.append(f"  {name}: " + (show(th, "thickness", us) if th is not None else "not met by any sold thickness"))
+        text = show(th, "thickness", us) if th is not None else "not met by any sold thickness"
+        if name in margins:
+            m, kind = margins[name]
+            text += f"; margin {_signed(m, kind, us)}"
+        out.append(f"  {name}: {text}")
     out.append(f"  governing: {v['governing'][i]}" + (f" at '{v['governing_condition'][i]}'"
                                                       if v["governing_condition"][i] else ""))
     out.append(f"  chosen: {v['layers'][i]}")
@@ -104,6 +108,45 @@ def explain(inputs: Inputs, raw: RawSheet, res: Results, i: int) -> list[str]:
     out += ["", "Cautions: surface limits depend on contact time and surface material (ASTM C1055, ISO 13732-1); "
             "follow local codes, the owner's specification and licensed practice."]
     return out
+
+
+def convection_lengths(L, s1, sol) -> tuple[tuple[str, float], tuple[str, float], tuple[str, float]]:
+    """(name, length [m]) on which the free-convection Ra and Nu, the forced Re and Nu, and the
+    combined Nu and h are based, for the line's shape (as the engine's correlations use them)."""
+    d = 2 * float(sol.r_outer[0])
+    free, flow = float(s1.height[0]), float(s1.flow_length[0]) if s1.flow_length is not None else 1.0
+    if L.word in ("pipe", "sphere"):
+        return ("outer diameter", d), ("outer diameter", d), ("outer diameter", d)
+    if L.word in ("riser", "vessel"):
+        return ("height", free), ("outer diameter", d), ("outer diameter", d)
+    if L.word == "wall":
+        return ("height", free), ("width along the wind", flow), ("width along the wind", flow)
+    return ("A/P", free), ("length along the wind", flow), ("length along the wind", flow)
+
+
+def _convection_lines(L, s1, sol, free_name, forced_name, us) -> list[str]:
+    """Ra and Nu of free convection on its own length, Re and Nu of forced convection on theirs,
+    and the combination on the length h is taken on: each group printed beside its length."""
+    conv = sol.convection
+    (fw, lf), (gw, lg), (hw, lh) = convection_lengths(L, s1, sol)
+    nu_free = float(conv.nu_free[0]) * lf / lh  # the engine carries it on the combining length
+    nu_forced = float(conv.nu_forced[0]) * lg / lh
+    k_air = float(conv.h[0]) * lh / float(conv.nu[0]) if conv.nu[0] > 0 else float("nan")
+
+    def length(name, x):
+        return f"{name} L = {x / 0.3048:.4g} ft" if us else f"{name} L = {x:.4g} m"  # 1 ft = 0.3048 m exactly
+
+    return [f"  free convection: {free_name}, on the {length(fw, lf)}: Ra = {conv.ra[0]:.4g}, Nu = {nu_free:.4g}",
+            f"  forced convection: {forced_name}, on the {length(gw, lg)}: Re = {conv.re[0]:.4g}, Nu = {nu_forced:.4g}",
+            f"  combined (Churchill-Usagi, n = 3), on the {length(hw, lh)}: Nu_free = {conv.nu_free[0]:.4g}, "
+            f"Nu_forced = {conv.nu_forced[0]:.4g}, Nu = {conv.nu[0]:.4g}; Pr = {conv.pr[0]:.4f}, "
+            f"k_air = {k_air:.5f} W/(m·K) at the film"]
+
+
+def _signed(value: float, kind: str, us: bool) -> str:
+    """'+26.2 K' (room to spare) or '-1.5 K' (short), in the workbook's units."""
+    text = f"{abs(value) / 3600:.1f} h" if kind == "hours" else show(abs(value), kind, us)
+    return ("+" if value >= 0 else "-") + text
 
 
 def _process(L, v, i: int, us: bool) -> list[str]:

@@ -94,7 +94,8 @@ def read_inputs(book: Book, lines_sheet: str = "Lines") -> Inputs:
                 f = next(f for f in schema.LINE_FIELDS if f.key == req)
                 notes.append(Note("error", "missing-column",
                                   f"sheet {lines.sheet!r} needs a column {f.header!r}"
-                                  + (f" [{f.unit}]" if f.unit else ""), lines.sheet,
+                                  + (f" [{f.unit}]" if f.unit else "")
+                                  + f" in its header row (row {lines.header_row + 1})", lines.sheet,
                                   address(lines.header_row, 0)))
     us = _us_units(lines)
     return Inputs(lines, conditions, materials, dict(library.finishes()), settings, notes, columns, us,
@@ -341,18 +342,20 @@ def _materials(book: Book, notes: list[Note], columns: list[dict],
             vals = [v for v in vals if np.isfinite(v)]
             if vals:
                 fields[attr] = vals[0]
+                if attr == "max_layer":
+                    fields["max_layer_us"] = vals[0]
         th = t.get("thicknesses")
         if th is not None:
             texts = [th[i] for i in idx if th[i] not in (None, "")]
             if texts:
                 col = t.columns["thicknesses"]
                 try:
-                    nums = library.parse_thickness_list(str(texts[0]))
-                    si = tuple(float(x) for x in to_si(nums, col.unit, "m"))
-                    if not all(_THICKNESS[0] <= x <= _THICKNESS[1] for x in si):
+                    nums, unit = library.parse_thickness_cell(str(texts[0]))  # '1, 1½, 2 in': inches
+                    th_si = tuple(float(x) for x in to_si(nums, parse_unit(unit) if unit else col.unit, "m"))
+                    if not all(_THICKNESS[0] <= x <= _THICKNESS[1] for x in th_si):
                         raise ValueError(f"thickness list {texts[0]!r} must hold thicknesses from "
                                          f"{_THICKNESS[0] * 1000:g} mm to {_THICKNESS[1] * 1000:g} mm")
-                    fields["thicknesses"] = si
+                    fields["thicknesses"] = fields["thicknesses_us"] = th_si  # the user's list, either system
                 except (ValueError, OverflowError) as exc:
                     notes.append(Note("error", "bad-thicknesses", f"{exc}; write e.g. '25, 40, 50'; material "
                                       f"{names[idx[0]]!r} is not used until then", name, t.cell(idx[0], "thicknesses")))

@@ -8,6 +8,7 @@ converted here.
 from __future__ import annotations
 
 import csv
+import itertools
 import re
 from dataclasses import dataclass
 from functools import lru_cache
@@ -25,8 +26,10 @@ class Material:
     conductivities: tuple[float, ...]  # W/(m·K)
     min_temperature: float = -np.inf  # K, service limit
     max_temperature: float = np.inf  # K
-    thicknesses: tuple[float, ...] = ()  # m, as sold
+    thicknesses: tuple[float, ...] = ()  # m, as sold (metric series)
     max_layer: float = np.inf  # m
+    thicknesses_us: tuple[float, ...] = ()  # m, as sold in inch series; () = the metric list
+    max_layer_us: float = np.nan  # m, the thickest single layer of the inch series; NaN = max_layer
     cost_per_volume: float = np.nan  # currency per m³ installed
     aliases: tuple[str, ...] = ()
     source: str = ""
@@ -53,11 +56,76 @@ def key(name: str) -> str:
 
 def parse_thickness_list(text: str) -> tuple[float, ...]:
     """'25, 40, 50' (numbers in the caller's unit) -> sorted unique floats."""
-    parts = [p for p in re.split(r"[;,\s]+", str(text).strip()) if p]
-    values = sorted({float(p) for p in parts})
-    if not values or values[0] <= 0:
+    values, unit = parse_thickness_cell(text)
+    if unit is not None:
+        raise ValueError(f"thickness list {text!r} must hold plain numbers")
+    return values
+
+
+_LIST_UNITS = {"mm": "mm", "cm": "cm", "m": "m", "in": "in", "inch": "in", "inches": "in", '"': "in", "''": "in"}
+_ITEM = re.compile(r'^(\d+(?:\.\d*)?(?:[\s-]+\d+/\d+|\s*[½¼¾⅛⅜])?|\d+/\d+|[½¼¾⅛⅜])\s*(mm|cm|m|inches|inch|in|"|\'\')?$',
+                   re.I)
+
+
+def parse_thickness_cell(text: str) -> tuple[tuple[float, ...], str | None]:
+    """A 'Thicknesses' cell -> (sorted unique numbers, the unit written in it or None).
+
+    '25, 40, 50' -> ((25, 40, 50), None); '1, 1½, 2 in' and '1", 1-1/2", 2"' ->
+    ((1, 1.5, 2), 'in'). Items are separated by commas, semicolons or spaces.
+    """
+    raw = str(text).strip()
+    chunks = [c.strip() for c in re.split(r"[;,]", raw) if c.strip()]
+    items: list[str] = []
+    for c in chunks:  # '1 1/2' is one item; '25 40 50' three
+        items += [c] if _ITEM.match(c) else [p for p in re.split(r"\s+", c) if p]
+    values, units = set(), set()
+    for k, it in enumerate(items):
+        if k + 1 < len(items) and it.lower() in _LIST_UNITS:
+            raise ValueError(f"thickness list {text!r}: put the unit after the numbers")
+        if it.lower() in _LIST_UNITS and k > 0:  # '25 40 50 mm': the unit as the last item
+            units.add(_LIST_UNITS[it.lower()])
+            continue
+        m = _ITEM.match(it)
+        if not m:
+            raise ValueError(f"thickness list {text!r} must hold positive numbers")
+        values.add(_fraction(m.group(1)))
+        if m.group(2):
+            units.add(_LIST_UNITS[m.group(2).lower()])
+    if len(units) > 1:
+        raise ValueError(f"thickness list {text!r} mixes units ({', '.join(sorted(units))}); use one")
+    out = tuple(sorted(values))
+    if not out or out[0] <= 0:
         raise ValueError(f"thickness list {text!r} must hold positive numbers")
-    return tuple(values)
+    return out, (units.pop() if units else None)
+
+
+def series(material: Material, us: bool) -> tuple[tuple[float, ...], float]:
+    """(thicknesses sold [m], thickest single layer [m]) in the sheet's unit system."""
+    if us and material.thicknesses_us:
+        lim = material.max_layer_us
+        return material.thicknesses_us, (lim if np.isfinite(lim) else material.max_layer)
+    return material.thicknesses, material.max_layer
+
+
+@lru_cache(maxsize=65536)
+def build(total: float, listed: tuple[float, ...], max_layer: float, most: int = 3) -> tuple[float, ...] | None:
+    """Layers [m], inner first, each a listed thickness no thicker than ``max_layer``, that add up
+    to ``total``: the fewest layers, then the most even, thicker inside. None when no such build
+    of up to ``most`` layers exists."""
+    tol = 1e-7
+    usable = sorted((t for t in listed if t <= max_layer + tol), reverse=True)
+    if total <= max_layer + tol and any(abs(t - total) < tol for t in listed):
+        return (total,)
+    best = None
+    for k in range(2, most + 1):
+        for combo in itertools.combinations_with_replacement(usable, k):
+            if abs(sum(combo) - total) < tol:
+                spread = combo[0] - combo[-1]
+                if best is None or spread < best[0] - tol:
+                    best = (spread, combo)
+        if best is not None:
+            return best[1]
+    return None
 
 
 @lru_cache(maxsize=1)
@@ -73,14 +141,18 @@ def materials() -> dict[str, Material]:
     for r in _rows("materials.csv"):
         name = r["material"]
         pts = sorted(points[name])
+        lo, hi = to_si([float(r["min_temperature"]), float(r["max_temperature"])],
+                       parse_unit(r["temperature_unit"]), "K")
         out[key(name)] = Material(
             name=name,
             mean_temperatures=tuple(p[0] for p in pts),
             conductivities=tuple(p[1] for p in pts),
-            min_temperature=float(r["min_temperature_C"]) + 273.15,
-            max_temperature=float(r["max_temperature_C"]) + 273.15,
+            min_temperature=float(lo),
+            max_temperature=float(hi),
             thicknesses=tuple(t / 1000 for t in parse_thickness_list(r["thicknesses_mm"])),
             max_layer=float(r["max_layer_mm"]) / 1000,
+            thicknesses_us=tuple(t * 0.0254 for t in parse_thickness_list(r["thicknesses_in"])),
+            max_layer_us=float(r["max_layer_in"]) * 0.0254,
             aliases=tuple(a.strip() for a in r["aliases"].split(";") if a.strip()),
             source="; ".join(sorted(sources[name] | {r["source"]})),
         )
@@ -196,3 +268,18 @@ def nominal_sizes() -> dict[float, float]:
     return dict(_pipe_table()[0])
 
 
+
+
+OD_TOLERANCE = 0.0005  # m: published tabulations of B36.10M differ in the last digit at NPS 10, 12, 18, 24
+
+
+@lru_cache(maxsize=4096)
+def nominal_size(od: float) -> tuple[str, int] | None:
+    """(NPS as written in the table, e.g. ``'1 1/2'``, and DN) of the nominal pipe size whose
+    outside diameter is within :data:`OD_TOLERANCE` of ``od`` [m]; None if none is."""
+    best = None
+    for r in _rows("pipe_sizes.csv"):
+        d = abs(float(r["outside_diameter_mm"]) / 1000 - od)
+        if d <= OD_TOLERANCE and (best is None or d < best[0]):
+            best = (d, r["nps"], int(r["dn"]))
+    return None if best is None else (best[1], best[2])

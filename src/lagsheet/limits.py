@@ -17,10 +17,16 @@ How each is computed (and where it is judged)
         Judged at every named condition with the closed form θ_out = θ_a + (θ_in − θ_a)
         exp(−UA/(ṁ c_p)), UA = the line's heat loss at the operating temperature / (θ_in
         − θ_a), c_p at the inlet; the reported ``Outlet temperature`` is marched along
-        the line with UA re-evaluated at the local fluid temperature (20 Runge–Kutta
-        steps, :func:`lagsheet.physics.process.outlet_temperature_marching`). For hot
-        lines UA falls as the fluid cools, so the closed form overstates the drop; a
-        line whose marched drop still exceeds the limit gets a warning.
+        the line with UA and c_p re-evaluated at the local fluid temperature (20
+        Runge–Kutta steps, :func:`lagsheet.physics.process.outlet_temperature_marching`).
+        For hot lines UA falls as the fluid cools, so the closed form overstates the
+        drop; a line whose marched drop still exceeds the limit gets a warning.
+    Heat given up by a flowing fluid
+        :func:`flowing_lines`: a line with a flow loses ṁ ∫ c_p dT between inlet and
+        outlet (insulated and bare), which replaces the inlet rate × length in its heat
+        loss, energy and cost. Water that reaches 0 °C before the outlet at any named
+        condition is an error naming the distance; a fluid that comes within 1 K of the
+        air is a warning.
     Condensate
         Saturated steam: heat loss / h_fg at the operating pressure (or at saturation at
         the operating temperature), CoolProp.
@@ -415,6 +421,168 @@ def _capacity(procs, t_mean) -> np.ndarray:
     return cap
 
 
+# --------------------------------------------------------------------------- flowing lines
+
+CP_KNOTS = 65  # knots of a flowing line's c_p(T) table (linear: water's c_p within 1e-5 of CoolProp)
+APPROACH_K = 1.0  # a fluid within 1 K of the air has reached the air temperature (our choice)
+
+
+def _specific_heat(lines, idx, cases: System, starts) -> pp.SpecificHeat:
+    """c_p(T) of the fluid of each line ``idx`` over its inlet and all its air temperatures:
+    CoolProp at :data:`CP_KNOTS` temperatures (water not below its triple point), or the
+    Fluids sheet's constant."""
+    procs = [lines[i].process for i in idx]
+    t_in = np.array([lines[i].t_op for i in idx])
+    airs = [cases.t_air[starts[i]:starts[i] + len(lines[i].conditions)] for i in idx]
+    lo = np.minimum(t_in, [a.min() for a in airs]) - 1.0
+    hi = np.maximum(t_in, [a.max() for a in airs]) + 1.0
+    water = np.array([P.coolprop == "Water" for P in procs])
+    lo = np.where(water, np.maximum(lo, pp.T_TRIPLE_WATER), lo)
+    hi = np.maximum(hi, lo + 1.0)
+    knots = lo + (hi - lo) * np.linspace(0.0, 1.0, CP_KNOTS)[:, None]
+    values = np.broadcast_to(np.array([P.cp for P in procs]), knots.shape).copy()
+    cool = np.array([P.coolprop is not None for P in procs])
+    if cool.any():
+        names = np.broadcast_to(np.array([P.coolprop or "" for P in procs])[cool], (CP_KNOTS, int(cool.sum())))
+        pressure = np.array([P.pressure if np.isfinite(P.pressure) else P_ATM for P in procs])[cool]
+        cp = fluid_properties(names, knots[:, cool], pressure[None, :]).cp
+        for j, col in enumerate(np.flatnonzero(cool)):
+            good = np.isfinite(cp[:, j])
+            if good.any():  # states CoolProp rejects (a liquid past its boiling point): the nearest known c_p
+                values[:, col] = np.interp(knots[:, col], knots[good, col], cp[good, j])
+    return pp.SpecificHeat(lo, hi, values)
+
+
+def flowing_lines(lines, put, first_sys: System, bare_sys: System, cases: System, starts, chosen_th,
+                  table, loss, bare_loss, res, t, us: bool) -> tuple[np.ndarray, np.ndarray]:
+    """Heat loss and bare heat loss [W] of every line with a flow: the heat its fluid gives up
+    between inlet and outlet, ṁ ∫ c_p dT over the marched profile (insulated and bare, at the
+    first named condition), in place of the inlet heat rate × length. Writes ``Outlet
+    temperature``; a water line that reaches 0 °C before its outlet at any named condition is
+    an error naming the distance, a fluid that comes within :data:`APPROACH_K` of the air is a
+    warning. Returns the new (loss, bare_loss)."""
+    v = res.values
+    procs = [L.process for L in lines]
+    flowing = np.array([bool(put[i]) and P.flowing and np.isfinite(P.cp) for i, P in enumerate(procs)])
+    if not flowing.any():
+        return loss, bare_loss
+    loss, bare_loss = np.array(loss, dtype=float), np.array(bare_loss, dtype=float)
+    idx = np.flatnonzero(flowing)
+    m_dot = np.array([procs[i].m_dot for i in idx])
+    cp = _specific_heat(lines, idx, cases, starts)
+    factor = _factor(lines, idx)
+    sysf, bare = per_line(first_sys, idx), per_line(bare_sys, idx)
+    t_in, t_air = sysf.t_operating, sysf.t_air
+    out = pp.outlet_temperature_marching(t_in, t_air, pp.loss_coefficient(sysf, table, scale=factor), 1.0,
+                                         m_dot, cp)
+    # the bare line for the saving (a bare water line in frost would freeze: its liquid c_p is held)
+    bare_out = pp.outlet_temperature_marching(t_in, t_air, pp.loss_coefficient(bare, table, scale=factor), 1.0,
+                                              m_dot, cp)
+    given_up = m_dot * (cp.enthalpy(t_in) - cp.enthalpy(out))
+    inlet_rate = loss[idx].copy()
+    loss[idx] = given_up
+    bare_loss[idx] = m_dot * (cp.enthalpy(t_in) - cp.enthalpy(bare_out))
+    v["outlet_temperature"][idx] = out
+
+    def note(i, level, code, message, key="tag"):
+        res.notes[i].append(Note(level, code, message, t.sheet, t.cell(i, key)))
+
+    reach = _reach(lines, idx, cases, starts, chosen_th, table, m_dot, cp)
+    for j, i in enumerate(idx):
+        P, L = procs[i], lines[i]
+        freeze, approach = reach[j]
+        if freeze is not None:
+            x, name = freeze
+            note(i, "error", "fluid-freezes",
+                 f"the water reaches {show(pp.T_ICE, 'temperature', us)} {show(x, 'length', us)} from the inlet of this "
+                 f"{show(L.length, 'length', us)} line at condition '{name}' and would freeze before the "
+                 "outlet: give more flow, more insulation, or heat tracing", "flow_rate")
+            if out[j] < pp.T_ICE:  # at the first condition: no liquid outlet, no heat to report
+                v["outlet_temperature"][i] = np.nan
+                loss[i] = bare_loss[i] = np.nan
+                continue
+        elif approach is not None:
+            x, name = approach
+            note(i, "warning", "fluid-at-air",
+                 f"the {P.label} comes within {show(APPROACH_K, 'difference', us)} of the air temperature "
+                 f"{show(x, 'length', us)} from the inlet of this {show(L.length, 'length', us)} line at "
+                 f"condition '{name}': beyond that the line delivers air temperature; give more flow or "
+                 "more insulation if the outlet temperature matters", "flow_rate")
+        gives = "gives up" if given_up[j] >= 0 else "takes up"
+        note(i, "info", "flow-heat",
+             f"heat loss = the heat the {P.label} {gives} between inlet and outlet, ṁ ∫c_p dT along the "
+             f"marched profile: {show(abs(given_up[j]), 'power', us)} (the inlet rate × length would give "
+             f"{show(abs(inlet_rate[j]), 'power', us)}); heat loss per length, heat flux and surface "
+             "temperature are at the inlet", "flow_rate")
+        limit = P.max_drop
+        change = abs(L.t_op - out[j])
+        if np.isfinite(limit) and change > limit + 1e-9:
+            note(i, "warning", "temperature-drop",
+                 f"marched along the line with the heat-loss coefficient re-evaluated, the temperature "
+                 f"changes by {show(change, 'difference', us)}, more than 'Max temperature drop' "
+                 f"{show(limit, 'difference', us)} (the thickness was judged with the coefficient at "
+                 "the inlet); choose the next thickness up", "max_temperature_drop")
+    return loss, bare_loss
+
+
+def flowing_candidates(lines, use, cases: System, starts, cand, table, whole) -> np.ndarray:
+    """``whole`` (lines × candidates, the heat flow [W] of every candidate at the first named
+    condition) with the lines ``use`` that have a flow given the heat their fluid gives up
+    along the line with each candidate (marched, as :func:`flowing_lines`): what the
+    economic choice prices."""
+    procs = [L.process for L in lines]
+    sel = np.flatnonzero([bool(use[i]) and P.flowing and np.isfinite(P.cp) for i, P in enumerate(procs)])
+    if not sel.size:
+        return whole
+    k, m = len(sel), cand.shape[1]
+    sysp, good = _pairs(cases, np.asarray(starts)[sel], cand[sel])
+    rep = np.repeat(sel, m)
+    u = pp.loss_coefficient(sysp, table, scale=_factor(lines, rep))
+    cp = _specific_heat(lines, sel, cases, starts).take(np.repeat(np.arange(k), m))
+    m_dot = np.repeat([procs[i].m_dot for i in sel], m)
+    out = pp.outlet_temperature_marching(sysp.t_operating, sysp.t_air, u, 1.0, m_dot, cp)
+    whole = np.array(whole, dtype=float)
+    given_up = m_dot * (cp.enthalpy(sysp.t_operating) - cp.enthalpy(out))
+    whole[sel] = np.where(good, given_up, np.nan).reshape(k, m)
+    return whole
+
+
+def _reach(lines, idx, cases: System, starts, chosen_th, table, m_dot, cp) -> list[tuple]:
+    """Per flowing line ``idx``: (freeze, approach), each None or (distance from the inlet [m],
+    condition name), the nearest over the line's named conditions: where water reaches 0 °C,
+    where the fluid comes within :data:`APPROACH_K` of the air."""
+    rows, owner = [], []
+    for j, i in enumerate(idx):
+        for k in range(len(lines[i].conditions)):
+            rows.append(starts[i] + k)
+            owner.append(j)
+    rows, owner = np.array(rows), np.array(owner)
+    sysc = per_line(cases, rows, thickness=np.nan_to_num(chosen_th[np.asarray(idx)[owner]]))
+    u = pp.loss_coefficient(sysc, table, scale=_factor(lines, np.asarray(idx)[owner]))
+    t_in, t_air = sysc.t_operating, sysc.t_air
+    water = np.array([lines[idx[j]].process.coolprop == "Water" for j in owner])
+    cp_rows = cp.take(owner)
+    freezes = water & (t_air < pp.T_ICE) & (t_in > pp.T_ICE)
+    x_freeze = np.where(freezes, pp.distance_to(np.where(freezes, t_in, pp.T_ICE + 1.0), pp.T_ICE, t_air, u,
+                                                m_dot[owner], cp_rows), np.inf)
+    d = t_in - t_air
+    far = np.abs(d) > APPROACH_K
+    x_air = np.where(far, pp.distance_to(t_in, t_air + np.sign(d) * APPROACH_K, t_air, u, m_dot[owner], cp_rows),
+                     np.inf)
+    out = []
+    for j, i in enumerate(idx):
+        mine = np.flatnonzero(owner == j)
+        pair = []
+        for x in (x_freeze, x_air):
+            k = mine[int(np.argmin(x[mine]))]
+            if x[k] < 1.0:  # a fraction of the line (U′ is the whole line's UA)
+                pair.append((float(x[k]) * lines[i].length, lines[i].conditions[k - mine[0]].name))
+            else:
+                pair.append(None)
+        out.append(tuple(pair))
+    return out
+
+
 # --------------------------------------------------------------------------- results
 
 
@@ -427,25 +595,6 @@ def results(lines, put, first_sys: System, cases: System, starts, chosen_th, tab
     def note(i, level, code, message, key="tag"):
         res.notes[i].append(Note(level, code, message, t.sheet, t.cell(i, key)))
 
-    flowing = np.array([bool(put[i]) and P.flowing and np.isfinite(P.cp) for i, P in enumerate(procs)])
-    if flowing.any():
-        idx = np.flatnonzero(flowing)
-        sysf = per_line(first_sys, idx)
-        factor = _factor(lines, idx)
-        u = pp.loss_coefficient(sysf, table, scale=factor)
-        out = pp.outlet_temperature_marching(sysf.t_operating, sysf.t_air, u, 1.0,
-                                             np.array([procs[i].m_dot for i in idx]),
-                                             np.array([procs[i].cp for i in idx]))
-        v["outlet_temperature"][idx] = out
-        for j, i in enumerate(idx):
-            limit = procs[i].max_drop
-            change = abs(lines[i].t_op - out[j])
-            if np.isfinite(limit) and change > limit + 1e-9:
-                note(i, "warning", "temperature-drop",
-                     f"marched along the line with the heat-loss coefficient re-evaluated, the temperature "
-                     f"changes by {show(change, 'difference', us)}, more than 'Max temperature drop' "
-                     f"{show(limit, 'difference', us)} (the thickness was judged with the coefficient at "
-                     "the inlet); choose the next thickness up", "max_temperature_drop")
     for i in np.flatnonzero(put):
         P = procs[i]
         if P.steam and np.isfinite(P.h_fg):

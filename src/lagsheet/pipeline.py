@@ -1,14 +1,18 @@
 """The one-way flow of a run: read -> check -> solve/specify -> write. No printing here.
 
 Before anything is read, :func:`fill` settles where it will write and refuses (exit 2)
-what could damage a file: an output that is the input (unless ``in_place``), a report
-that is the input or the output, a missing folder, and an output (or, in place, the
-input) that a spreadsheet program holds open. Everything that can fail on the
-workbook's content happens before the first byte is written.
+what could damage a file (:func:`lagsheet.io.save.refuse_unsafe`): an output that is
+the input (unless ``in_place``), a report that is the input or the output, a missing
+folder, a link or special file, and an output (or, in place, the input) that a
+spreadsheet program holds open. Everything that can fail on the workbook's content
+happens before the first byte is written, and the renames come last: the backup, the
+workbook and the report are each written and verified first, then renamed in that
+order (see :func:`lagsheet.io.save.writing`).
 """
 
 from __future__ import annotations
 
+import os
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -17,7 +21,7 @@ from .errors import Note, WorkbookError
 from .inputs import Inputs, read_inputs
 from .io import open_book
 from .io.locks import find_lock
-from .io.save import LOCK_PREFIXES, atomic_copy, remove_stale_temps
+from .io.save import atomic_copy, refuse_unsafe, remove_stale_temps, same_file, writing
 from .spec import Results, specify
 from .summary import quantities_table, summary
 from .writeback import lines_edits
@@ -31,32 +35,15 @@ class Outcome:
     exit_code: int
 
 
-def _same_file(a: Path, b: Path) -> bool:
-    try:
-        return a.resolve() == b.resolve() or (b.exists() and a.samefile(b))
-    except OSError:
-        return False
-
-
 def backup_path(path: Path) -> Path:
-    """Where ``--in-place`` keeps the input's previous bytes."""
-    return path.with_name(f"{path.stem}.backup{path.suffix}")
-
-
-def _writable_target(p: Path, what: str) -> None:
-    folder = p.parent if str(p.parent) else Path(".")
-    if not folder.is_dir():
-        raise WorkbookError(f"{p}: the folder {folder} does not exist; create it or choose another {what}")
-    if p.is_dir():
-        raise WorkbookError(f"{p}: is a folder; give a file name for the {what}")
-    if p.name.startswith(LOCK_PREFIXES):
-        raise WorkbookError(f"{p.name}: names starting with '~$' or '.~lock.' are spreadsheet programs' "
-                            f"lock files; choose another {what} name")
-
-
-def _locked(lock, name: str) -> WorkbookError:
-    return WorkbookError(f"{name} is open in a spreadsheet program ({lock.by()}): close it, "
-                         "or pass --ignore-lock if the lock is stale")
+    """Where ``--in-place`` keeps the input's previous bytes: the first free name of
+    ``NAME.backup.xlsx``, ``NAME.backup-2.xlsx``, ``NAME.backup-3.xlsx``, ... (an earlier
+    backup is never replaced)."""
+    for k in range(1, 10_000):
+        candidate = path.with_name(f"{path.stem}.backup{'' if k == 1 else f'-{k}'}{path.suffix}")
+        if not os.path.lexists(candidate):
+            return candidate
+    raise WorkbookError(f"{path.name}: 9,999 backups of it exist beside it; move some away")
 
 
 def load(path: Path, sheet: str = "Lines"):
@@ -87,23 +74,22 @@ def fill(path: Path, out: Path | None, *, sheet: str = "Lines", report_path: Pat
     out = Path(out)
     if not path.is_file():
         raise WorkbookError(f"{path}: no such file")
-    if _same_file(path, out) and not in_place:
+    if same_file(path, out) and not in_place:
         raise WorkbookError(f"{out}: the output would overwrite the input; choose another -o, "
                             "or give --in-place (a backup copy is kept)")
     if out.suffix.lower() != path.suffix.lower():
         raise WorkbookError(f"{out.name}: the output must have the input's type ({path.suffix})")
-    _writable_target(out, "output")
+    rules = {"inputs": [path], "in_place": path if in_place else None, "lock_option": "--ignore-lock"}
     if report_path is not None:
         report_path = Path(report_path)
-        if _same_file(report_path, path) or _same_file(report_path, out):
+        if same_file(report_path, path) or same_file(report_path, out):
             raise WorkbookError(f"{report_path}: the report would overwrite the workbook; "
                                 "choose another --report file")
-        _writable_target(report_path, "report")
+        refuse_unsafe(report_path, what="report", ignore_lock=ignore_lock,
+                      **{**rules, "inputs": [path, out]})
     notes: list[Note] = []
-    lock = find_lock(out)
+    lock = refuse_unsafe(out, ignore_lock=ignore_lock, **rules)
     if lock is not None:
-        if not ignore_lock:
-            raise _locked(lock, out.name)
         notes.append(Note("warning", "lock-ignored",
                           f"{out.name} looked open in a spreadsheet program ({lock.by()}, lock file "
                           f"{lock.path.name}); written anyway because --ignore-lock was given"))
@@ -126,18 +112,22 @@ def fill(path: Path, out: Path | None, *, sheet: str = "Lines", report_path: Pat
         inputs.notes.append(Note("info", "stale-temporary",
                                  f"removed {len(stale)} temporary file(s) an interrupted run left: "
                                  + ", ".join(stale)))
-    if in_place:
-        backup = backup_path(path)
-        atomic_copy(path, backup)
-        inputs.notes.append(Note("info", "backup", f"the input was kept as {backup.name}"))
-    rep = report.build(inputs, res, path, out)
-    losses = book.save(edits, out, [summary(inputs, res), quantities_table(inputs, res)], allow_loss=allow_loss)
-    for loss in losses:  # only with --allow-loss: otherwise the save refused
-        note = Note("warning", "content-lost", f"{loss}; written anyway because --allow-loss was given")
-        inputs.notes.append(note)
-        rep["notes"].append(note.as_dict())
-    if report_path is not None:
-        report.write(rep, report_path)
+    # every file of the run is written and verified first; the renames come last, in this
+    # order: backup, workbook, report (a failure of a rename names what was written)
+    with writing(ignore_lock=ignore_lock, **rules, deferred=True):
+        if in_place:
+            backup = backup_path(path)
+            atomic_copy(path, backup, exclusive=True)
+            inputs.notes.append(Note("info", "backup", f"the input was kept as {backup.name}"))
+        rep = report.build(inputs, res, path, out)
+        losses = book.save(edits, out, [summary(inputs, res), quantities_table(inputs, res)],
+                           allow_loss=allow_loss)
+        for loss in losses:  # only with --allow-loss: otherwise the save refused
+            note = Note("warning", "content-lost", f"{loss}; written anyway because --allow-loss was given")
+            inputs.notes.append(note)
+            rep["notes"].append(note.as_dict())
+        if report_path is not None:
+            report.write(rep, report_path, inputs=[out])
     errors = any(s == "error" for s in res.status) or any(
         n.level == "error" for n in inputs.notes) or any(c["status"] == "error" for c in inputs.columns)
     return Outcome(inputs, res, rep, 1 if errors else 0)

@@ -14,9 +14,10 @@ import numpy as np
 from .display import show
 from .inputs import Inputs
 from .physics.balance import solve
-from .physics.layers import CYLINDER
+from .physics.layers import CYLINDER, FLAT
 from .physics.sizing import heat_rate, per_line
 from .spec import Results
+from .units import from_si
 
 
 def curve(res: Results, i: int, condition=None, top: float | None = None, points: int = 120):
@@ -36,7 +37,9 @@ def curve(res: Results, i: int, condition=None, top: float | None = None, points
     return th, sol.t_surface, heat_rate(s.geometry, sol.q, sol.r_outer)
 
 
-def plot_line(inputs: Inputs, res: Results, i: int, out: Path) -> Path:
+def figure(inputs: Inputs, res: Results, i: int):
+    """The matplotlib figure of line ``i``: signed heat flow (top panel, solid red, circles) and
+    surface temperature (bottom panel, dashed blue, open squares) against thickness."""
     import matplotlib
 
     matplotlib.use("Agg")
@@ -47,37 +50,76 @@ def plot_line(inputs: Inputs, res: Results, i: int, out: Path) -> Path:
     gov = res.values["governing_condition"][i]
     cond = next((c for c in L.conditions if c.name == gov), L.conditions[0])
     th, ts, rate = curve(res, i, cond)
-    per_length = L.geometry == CYLINDER
+    hot = L.t_op >= cond.t_air
     t_unit = "°F" if us else "°C"
     tsd = (ts - 273.15) * 9 / 5 + 32 if us else ts - 273.15
     x = th / 0.0254 if us else th * 1000
-    q_label = "heat loss per length [W/m]" if per_length else "heat flux [W/m²]" if L.geometry == 1 else "heat loss [W]"
-    fig, ax1 = plt.subplots(figsize=(8, 4.8), dpi=110)
-    ax1.plot(x, np.abs(rate), color="tab:red", label=q_label)
-    ax1.set_xlabel("insulation thickness [in]" if us else "insulation thickness [mm]")
-    ax1.set_ylabel(q_label)
-    ax2 = ax1.twinx()
-    ax2.plot(x, tsd, color="tab:blue", label=f"surface temperature [{t_unit}]")
-    ax2.set_ylabel(f"surface temperature [{t_unit}]")
+    si, unit, label = (("W/m", "Btu/hour/foot", "Btu/(h·ft)") if L.geometry == CYLINDER else
+                       ("W/m**2", "Btu/(hour*foot**2)", "Btu/(h·ft²)") if L.geometry == FLAT else
+                       ("W", "Btu/hour", "Btu/h"))
+    if not us:
+        label = si.replace("**2", "²")
+    scale = float(from_si([1.0], si, unit)[0]) if us else 1.0
+    rate = rate * scale
+    what = ("heat loss per length" if L.geometry == CYLINDER else "heat flux" if L.geometry == FLAT
+            else "heat loss") + f" [{label}]"
+    q_label = what if hot else what + ", negative: heat gained"
+    # two panels on one thickness axis: the curves often have nearly the same shape, and on twin
+    # axes one would hide the other
+    fig, (ax1, ax2) = plt.subplots(2, 1, sharex=True, figsize=(8, 6.4), dpi=110)
+    marks = max(1, len(x) // 12)
+    ax1.plot(x, rate, color="tab:red", linestyle="-", linewidth=2, marker="o", markevery=marks,
+             markersize=5, label=q_label)
+    ax1.set_ylabel(what if hot else what + "\nnegative: heat gained", color="tab:red")
+    if not hot:
+        ax1.axhline(0.0, color="grey", linewidth=0.8)
+    ax2.plot(x, tsd, color="tab:blue", linestyle="--", linewidth=2, marker="s", markevery=marks,
+             markersize=5, markerfacecolor="none", label=f"surface temperature [{t_unit}]")
+    ax2.set_ylabel(f"surface temperature [{t_unit}]", color="tab:blue")
+    ax2.set_xlabel("insulation thickness [in]" if us else "insulation thickness [mm]")
     tmax = inputs.lines.get("max_surface_temperature")
     if tmax is not None and np.isfinite(tmax[i]):
         lim = (tmax[i] - 273.15) * 9 / 5 + 32 if us else tmax[i] - 273.15
         ax2.axhline(lim, color="tab:blue", linestyle=":", label="max surface temperature")
     qmax = inputs.lines.get("max_heat_loss")
-    if qmax is not None and np.isfinite(qmax[i]):
-        ax1.axhline(qmax[i], color="tab:red", linestyle=":", label="max heat loss")
+    per_area = qmax is not None and inputs.lines.columns["max_heat_loss"].si_of(i) == "W/m**2"
+    same_kind = per_area == (L.geometry == FLAT)  # a W/m² limit on a pipe is not on this curve's axis
+    if qmax is not None and np.isfinite(qmax[i]) and same_kind:  # a limit on the size of the flow, either way
+        ax1.axhline(scale * (qmax[i] if hot else -qmax[i]), color="tab:red", linestyle=":",
+                    label="max heat loss" if hot else "max heat gain")
     chosen = float(np.nansum(res.chosen[i]))
-    ax1.axvline(chosen / 0.0254 if us else chosen * 1000, color="black", linestyle="--",
-                label=f"chosen: {res.values['layers'][i]}")
-    lines = ax1.get_legend_handles_labels()
-    more = ax2.get_legend_handles_labels()
-    ax1.legend(lines[0] + more[0], lines[1] + more[1], loc="upper right", fontsize=8)
+    for ax in (ax1, ax2):
+        ax.axvline(chosen / 0.0254 if us else chosen * 1000, color="black", linestyle="-.",
+                   label=f"chosen: {res.values['layers'][i]}")
+        ax.legend(loc="best", fontsize=8, framealpha=0.9)
+        ax.grid(alpha=0.3)
     ax1.set_title(f"{res.tags[i]}: {L.word}, {show(L.t_op, 'temperature', us)}, "
                   f"{', '.join(m.name for m in L.materials)}, at condition '{cond.name}' — governing: "
                   f"{res.values['governing'][i]}", fontsize=9)
-    ax1.grid(alpha=0.3)
     fig.tight_layout()
+    return fig
+
+
+def plot_line(inputs: Inputs, res: Results, i: int, out: Path, *, never=()) -> Path:
+    """Draw line ``i``'s curves into ``out`` (a PNG) through the one safe save; never onto a file of ``never``."""
+    import matplotlib.pyplot as plt
+
+    from .io.save import atomic_write
+
+    fig = figure(inputs, res, i)
     out = Path(out)
-    fig.savefig(out)
-    plt.close(fig)
+    fmt = out.suffix[1:].lower() or "png"  # the temporary file's name says nothing of the format
+    if fmt not in fig.canvas.get_supported_filetypes():
+        plt.close(fig)
+        from .errors import WorkbookError
+
+        raise WorkbookError(f"{out.name}: a plot is drawn as .png, .svg or .pdf; give a name ending in one of them")
+
+    def write(tmp: str) -> None:
+        fig.savefig(tmp, format=fmt)
+
+    try:
+        atomic_write(out, write, inputs=never, what="plot")
+    finally:
+        plt.close(fig)
     return out

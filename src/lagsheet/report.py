@@ -6,6 +6,8 @@ import json
 import math
 from pathlib import Path
 
+import numpy as np
+
 from . import __version__
 from .inputs import Inputs
 from .spec import Results
@@ -78,20 +80,24 @@ def build(inputs: Inputs, res: Results, input_path: Path, output_path: Path | No
             "annual_cost": total("annual_cost"),
             "annual_saving": total("annual_saving"),
             "condensate_kg_per_s": total("condensate"),
+            # how many lines each total adds up (fewer than "lines" where some have no value)
+            "lines_in_totals": {name: int(np.isfinite(res.values[key]).sum()) for key, name in (
+                ("heat_loss", "heat_loss_W"), ("bare_heat_loss", "bare_heat_loss_W"),
+                ("annual_cost", "annual_cost"), ("annual_saving", "annual_saving"))},
         },
         "cautions": list(CAUTIONS),
     }
 
 
-def write_json(data: dict, path: Path) -> None:
-    """Any JSON document lagsheet writes, saved atomically."""
-    write(data, path)
+def write_json(data: dict, path: Path, *, inputs=()) -> None:
+    """Any JSON document lagsheet writes, through the one safe save (never onto one of ``inputs``)."""
+    write(data, path, inputs=inputs)
 
 
-def write(report: dict, path: Path) -> None:
+def write(report: dict, path: Path, *, inputs=()) -> None:
     from .io.save import atomic_write
 
     def w(tmp):
         Path(tmp).write_text(json.dumps(report, indent=1, ensure_ascii=False), encoding="utf-8")
 
-    atomic_write(path, w)
+    atomic_write(path, w, inputs=inputs, what="report")

@@ -55,6 +55,7 @@ class Line:
     emissivity: float = np.nan
     bare_emissivity: float = np.nan
     candidates: Sequence[tuple[float, ...]] = ()  # thickness per slot [m]; may be shared, never mutate
+    series: list[tuple[tuple[float, ...], float]] = field(default_factory=list)  # per slot: (listed, max layer)
     fixed: bool = False
     economic: bool = False
     process: Process = field(default_factory=Process)
@@ -64,14 +65,26 @@ class Line:
         return self.geometry == CYLINDER
 
 
-def sold(material: library.Material, settings: dict) -> tuple[float, ...]:
-    """Total thicknesses on sale for a material: its list, or every step to the maximum."""
-    if material.thicknesses:
-        base = material.thicknesses
-    else:
+def sold(material: library.Material, settings: dict, us: bool = False) -> tuple[float, ...]:
+    """Total thicknesses on sale for a material in the sheet's unit system: its list (inch
+    series on a sheet in inches), or every step to the maximum; a total thicker than one
+    layer only when it can be built of listed thicknesses (:func:`library.build`)."""
+    listed, max_layer = layer_series(material, settings, us)
+    return _buildable(listed, max_layer)
+
+
+def layer_series(material: library.Material, settings: dict, us: bool = False) -> tuple[tuple[float, ...], float]:
+    """(listed thicknesses [m], thickest single layer [m]) a build of ``material`` draws on."""
+    listed, max_layer = library.series(material, us)
+    if not listed:
         step, top = float(settings["thickness_step"]), float(settings["max_thickness"])
-        base = tuple(step * k for k in range(1, int(math.floor(top / step + 1e-9)) + 1))
-    return base
+        listed = tuple(step * k for k in range(1, int(math.floor(top / step + 1e-9)) + 1))
+    return listed, max_layer
+
+
+@lru_cache(maxsize=1024)
+def _buildable(listed: tuple[float, ...], max_layer: float) -> tuple[float, ...]:
+    return tuple(t for t in listed if library.build(t, listed, max_layer) is not None)
 
 
 @lru_cache(maxsize=1024)
@@ -83,7 +96,8 @@ def _single(thicknesses: tuple[float, ...]) -> tuple[tuple[float, ...], ...]:
 @lru_cache(maxsize=1024)
 def _pairs(inner: tuple[float, ...], outer: tuple[float, ...]) -> tuple[tuple[float, ...], ...]:
     """Inner × outer candidates, thinnest in total first (then the thinner inner layer)."""
-    return tuple(sorted(itertools.product(inner, outer), key=lambda p: (p[0] + p[1], p[0])))
+    # totals compared to 1 µm: 0.05 + 0.10 and 0.03 + 0.12 are one total, then the thinner inner layer first
+    return tuple(sorted(itertools.product(inner, outer), key=lambda p: (round(p[0] + p[1], 6), p[0])))
 
 
 class Columns:
@@ -166,11 +180,12 @@ def resolve(t: Table, inputs: Inputs, i: int, notes: list[Note], cols: Columns |
         else:
             L.candidates = [(fixed,)]
     elif len(L.materials) == 1:
-        L.candidates = _single(sold(L.materials[0], st))
+        L.candidates = _single(sold(L.materials[0], st, us))
     elif len(L.materials) == 2:
-        inner = sold(L.materials[0], st)[:MAX_PAIR_CANDIDATES]
-        outer = sold(L.materials[1], st)
+        inner = sold(L.materials[0], st, us)[:MAX_PAIR_CANDIDATES]
+        outer = sold(L.materials[1], st, us)
         L.candidates = _pairs(inner, outer)
+    L.series = [layer_series(m, st, us) for m in L.materials]
 
     def warn(code: str, key: str, message: str):
         notes.append(Note("warning", code, message, sheet, t.cell(i, key)))

@@ -27,6 +27,7 @@ from .physics.sizing import evaluate, heat_rate, per_line, whole_factor
 from .physics.surface import CORRELATION_NAMES, linearised_h
 from .resolve import Line, resolve_lines
 
+THINNEST = "thinnest sold"  # Governing word when the thinnest sold system meets every target
 GOVERNING_ORDER = ("surface temperature", "condensation", "heat loss", "temperature drop",
                    "freeze protection", "hold time", "interface", "minimum")
 PERSONNEL_LIMIT_K = 333.15  # 60 °C, the usual personnel-protection limit (common practice)
@@ -52,6 +53,7 @@ class Results:
     quantities: Quantities | None = None  # of the chosen systems (lines × 1 × slots)
     chosen: np.ndarray | None = None  # chosen thickness per slot (lines × slots) [m]
     target_thickness: list[dict] = field(default_factory=list)  # per line: target -> its own thinnest [m]
+    target_margin: list[dict] = field(default_factory=list)  # per line: target -> (margin at the chosen, kind)
 
     def __post_init__(self):
         for key in RESULT_KEYS:
@@ -180,6 +182,7 @@ def _specify(inputs: Inputs) -> Results:
         meets["surface temperature"] = all_cases(c.t_surface <= tmax[case_line][:, None] + 1e-9)
         worst["surface temperature"] = c.t_surface
     qmax = t.get("max_heat_loss")
+    per_area = None
     if qmax is not None:
         per_area = _per_area(t, n)
         g = np.isfinite(qmax)  # a per-length limit on a flat line is an input error (resolve)
@@ -212,6 +215,8 @@ def _specify(inputs: Inputs) -> Results:
     cost = _installed_cost(lines, cand, base, st, res, t)
     first_rate = c.heat_rate[first_case]
     whole = _whole(geometry, first_rate, np.array([L.length for L in lines]), np.array([L.area for L in lines]))
+    whole = limits.flowing_candidates(lines, np.array([L.economic for L in lines]) & ok, cases, starts, cand, table,
+                                      whole)
     hours = np.array([L.conditions[0].hours if ok[i] else 0.0 for i, L in enumerate(lines)])
     energy_cost = _energy_cost(whole, hours[:, None], st)
     crf = float(economics.capital_recovery_factor(float(st["discount_rate"]), float(st["service_life"])))
@@ -266,16 +271,31 @@ def _specify(inputs: Inputs) -> Results:
         gov_name[up] = "economic"
         gov_name[econ & (gov_name == None)] = "economic"  # noqa: E711 (object array)
     governing[:] = gov_name
+    # the thinnest sold system already meets every target: no target bound (Min thickness too)
+    thinnest = ok & ~econ & ~fixed & active & ~unmet & (chosen == 0)
+    governing[thinnest] = THINNEST
     governing[fixed & ok] = "fixed"
     governing[none_given] = "none"
 
     rows = np.arange(n)
     pick = np.maximum(chosen, 0)
     case_pick = pick[case_line]
+    res.target_margin = _margins(n, given, worst, starts, case_line, case_pick, tmax, qmax, tmin, total, pick,
+                                 per_area, lines)
+    for name, need, sign in (("temperature drop", "max_drop", -1), ("freeze protection", "freeze", 1),
+                             ("hold time", "hold", 1)):  # process targets: their measure against the need
+        if name in process_values and name in given:
+            for i in np.flatnonzero(given[name] & ok):
+                value = float(process_values[name][i, pick[i]])
+                room = sign * (value - float(getattr(lines[i].process, need)))  # not 'margin': that is the dew one
+                if np.isfinite(room):
+                    res.target_margin[i][name] = (room, "difference" if name == "temperature drop" else "hours")
     gov_cond = np.full(n, None, dtype=object)
     several = np.diff(np.r_[starts, len(case_line)]) > 1
+    # a thinnest-sold line is judged where its nearest target (the one the old rule named) is worst
+    basis = np.where(thinnest, gov_name, governing)
     for name in worst:
-        sel = np.array([g == name for g in governing]) & several & ok
+        sel = np.array([g == name for g in basis]) & several & ok
         if not sel.any():
             continue
         w = worst[name][np.arange(len(case_line)), case_pick]
@@ -283,7 +303,7 @@ def _specify(inputs: Inputs) -> Results:
             cs = slice(starts[i], starts[i] + len(lines[i].conditions))
             gov_cond[i] = case_cond[cs.start + int(np.nanargmax(w[cs]))].name
     for name in ("freeze protection", "hold time"):  # judged at the coldest named condition
-        for i in np.flatnonzero(np.array([g == name for g in governing]) & several & ok):
+        for i in np.flatnonzero(np.array([g == name for g in basis]) & several & ok):
             gov_cond[i] = lines[i].conditions[limits.coldest(lines[i])].name
     for i in np.flatnonzero(ok & (gov_cond == None)):  # noqa: E711
         gov_cond[i] = lines[i].conditions[0].name
@@ -295,7 +315,8 @@ def _specify(inputs: Inputs) -> Results:
     sol = solve(first_sys, table)
     bare_eps = np.where(fixed & (np.nan_to_num(total[:, 0]) == 0), base.emissivity,
                         np.array([L.bare_emissivity for L in lines]))
-    bare = solve(per_line(first_sys, rows, thickness=np.zeros((n, slots)), emissivity=bare_eps), table)
+    bare_sys = per_line(first_sys, rows, thickness=np.zeros((n, slots)), emissivity=bare_eps)
+    bare = solve(bare_sys, table)
     res.system = first_sys
     res.quantities = quantities(lines, chosen_th[:, None, :], base)
     res.chosen = chosen_th
@@ -305,6 +326,9 @@ def _specify(inputs: Inputs) -> Results:
     areas = np.array([L.area for L in lines])
     loss = _whole(geometry, rate, lengths, areas)
     bare_loss = _whole(geometry, bare_rate, lengths, areas)
+    # a line with a flow loses the heat its fluid gives up along the line, not the inlet rate × length
+    loss, bare_loss = limits.flowing_lines(lines, ok & (chosen >= 0), first_sys, bare_sys, cases, starts,
+                                           chosen_th, table, loss, bare_loss, res, t, us)
     eff, cop, price = float(st["heating_efficiency"]), float(st["cooling_cop"]), float(st["energy_price"])
     energy = economics.annual_energy_kwh(loss, hours)
     bought = economics.energy_bought_kwh(energy, eff, cop)
@@ -328,7 +352,8 @@ def _specify(inputs: Inputs) -> Results:
         "heat_loss_per_length": np.where(geometry == CYLINDER, rate, np.nan), "heat_loss": loss,
         "bare_heat_loss": bare_loss, "annual_energy": energy, "annual_cost": bought * price,
         "annual_saving": saving, "co2": bought * float(st["emission_factor"]),
-        "dew_point": np.where(np.isfinite(dew), dew, np.nan)[first_case], "installed_cost": inst,
+        "dew_point": np.where(_dew_matters(lines, prevent, sol.t_surface, dew[first_case], margin)
+                              & np.isfinite(dew[first_case]), dew[first_case], np.nan), "installed_cost": inst,
         "payback": np.where(saving > 0, inst / np.where(saving > 0, saving, 1.0), np.nan),
         "t_interface": np.where(np.sum(chosen_th > 0, axis=1) == 2, sol.faces[:, 1], np.nan),
     }
@@ -347,6 +372,51 @@ def _specify(inputs: Inputs) -> Results:
         res.status.append("error" if "error" in lv or not lines[i].ok else
                           "warning" if "warning" in lv else "ok")
     return res
+
+
+def _margins(n, given, worst, starts, case_line, case_pick, tmax, qmax, tmin, total, pick, per_area, lines):
+    """Per line: target -> (its margin at the chosen system over the named conditions, display kind).
+
+    Positive = the target is met with room to spare: limit minus value for surface
+    temperature, heat loss and interface; surface minus (dew point + margin) for
+    condensation; chosen minus required for the minimum thickness.
+    """
+    out: list[dict] = [{} for _ in range(n)]
+    at = np.arange(len(case_line))
+
+    def per_line_max(w):
+        return np.maximum.reduceat(np.nan_to_num(w[at, case_pick], nan=np.inf), starts)
+
+    limit_of = {"surface temperature": tmax, "heat loss": qmax}
+    for name, w in worst.items():
+        if name not in ("condensation", "interface", *limit_of):
+            continue  # process targets: their values and requirements are shown with the process results
+        top = per_line_max(w)
+        if name == "condensation":
+            m = -top
+        elif name == "interface":
+            m = np.array([L.materials[1].max_temperature if len(L.materials) == 2 else np.nan for L in lines]) - top
+        else:
+            m = limit_of[name] - top
+        kind = ("per_area" if name == "heat loss" and per_area is not None and per_area[i] else
+                "per_length" if name == "heat loss" else "difference" for i in range(n))
+        for i, k in enumerate(kind):
+            if given[name][i] and np.isfinite(m[i]):
+                out[i][name] = (float(m[i]), k)
+    if tmin is not None and "minimum" in given:
+        for i in np.flatnonzero(given["minimum"]):
+            out[i]["minimum"] = (float(total[i, pick[i]] - tmin[i]), "thickness")
+    return out
+
+
+def _dew_matters(lines, prevent, t_surface, dew, margin) -> np.ndarray:
+    """Per line: is its dew point worth writing? Where condensation is asked about ('Prevent
+    condensation' yes) or possible at the first condition: the operating or the surface
+    temperature below the dew point plus margin. A steam main's dew point means nothing."""
+    asked = np.array([v is True for v in prevent]) if prevent is not None else np.zeros(len(lines), bool)
+    t_op = np.array([L.t_op for L in lines], dtype=float)
+    with np.errstate(invalid="ignore"):
+        return asked | (np.fmin(t_op, t_surface) < dew + margin)
 
 
 def _per_area(t, n: int) -> np.ndarray:
@@ -381,8 +451,9 @@ class Quantities:
 def quantities(lines: list[Line], thickness: np.ndarray, base: System) -> Quantities:
     """Volumes and areas of systems ``thickness`` (lines × candidates × slots) on ``lines``.
 
-    Cylinders per their length, flats per their area, spheres whole. Layers of one
-    material are equal (``Max layer``); each layer's area is taken at its mid-radius.
+    Cylinders per their length, flats per their area, spheres whole. A slot thicker than
+    its material's ``Max layer`` is built of listed thicknesses (:func:`layer_builds`);
+    each layer's area is taken at its mid-radius.
     """
     n, m, slots = thickness.shape
     geometry = base.geometry[:, None]
@@ -402,18 +473,53 @@ def quantities(lines: list[Line], thickness: np.ndarray, base: System) -> Quanti
     r = np.broadcast_to(base.r_inner[:, None], (n, m)).copy()
     for j in range(slots):
         th = np.nan_to_num(thickness[:, :, j])
-        max_layer = np.array([L.materials[j].max_layer if j < len(L.materials) else np.inf
-                              for L in lines])[:, None]
-        k = np.where(th > 0, np.ceil(th / max_layer - 1e-9), 0)
+        each = layer_builds(lines, th, j)  # (n, m, most) layer thicknesses, inner first, 0 = none
         r2 = r + th
         vol[:, :, j] = volume(r, r2)
-        count[:, :, j] = k
-        # k equal layers: the sum of their mid-radius areas
-        step = np.where(k > 0, th / np.maximum(k, 1), 0)
-        mids = sum(area_at(r + (q + 0.5) * step) * (q < k) for q in range(int(count.max(initial=0))))
-        larea[:, :, j] = mids if np.ndim(mids) else 0.0
+        count[:, :, j] = np.sum(each > 0, axis=2)
+        below = np.cumsum(each, axis=2) - each  # thickness of this slot inside each layer
+        mids = sum(area_at(r + below[:, :, q] + 0.5 * each[:, :, q]) * (each[:, :, q] > 0)
+                   for q in range(each.shape[2]))
+        larea[:, :, j] = mids
         r = r2
     return Quantities(vol, count, larea, area_at(r))
+
+
+def layer_builds(lines: list[Line], th: np.ndarray, j: int, most: int = 4) -> np.ndarray:
+    """The layers of slot ``j`` of thicknesses ``th`` (lines × candidates): (lines × candidates × most).
+
+    Each build is of listed thicknesses of the material (:func:`library.build`); a total no
+    list builds (a ``Fixed thickness``) is split into equal layers no thicker than ``Max layer``.
+    Lines sharing a material's series are done together, once per distinct thickness.
+    """
+    n, m = th.shape
+    out = np.zeros((n, m, most))
+    groups: dict[tuple, list[int]] = {}
+    for i, L in enumerate(lines):
+        if j < len(L.series):
+            groups.setdefault(L.series[j], []).append(i)
+    for (listed, max_layer), members in groups.items():
+        rows = np.array(members)
+        block = th[rows]
+        values, inverse = np.unique(block, return_inverse=True)
+        table = np.zeros((len(values), most))
+        for u, total in enumerate(values):
+            table[u] = _build_of(float(total), listed, max_layer, most)
+        out[rows] = table[inverse.reshape(block.shape)]
+    return out
+
+
+def _build_of(total: float, listed: tuple[float, ...], max_layer: float, most: int) -> np.ndarray:
+    row = np.zeros(most)
+    if total <= 0:
+        return row
+    layers = library.build(total, listed, max_layer)
+    if layers is None:
+        k = max(1, math.ceil(total / max_layer - 1e-9)) if np.isfinite(max_layer) else 1
+        layers = (total / k,) * k
+    layers = layers[:most - 1] + (sum(layers[most - 1:]),) if len(layers) > most else layers
+    row[:len(layers)] = layers
+    return row
 
 
 def _installed_cost(lines, cand, base, st, res, t):
@@ -435,8 +541,9 @@ def _installed_cost(lines, cand, base, st, res, t):
 
 
 def layers_text(th: np.ndarray, materials: list[library.Material], us: bool,
-                t_interface: float = np.nan) -> str:
-    text, count = _layer_words(tuple(float(x) for x in th), tuple(materials), us)
+                t_interface: float = np.nan, series: list | None = None) -> str:
+    series = series or [library.series(mm, us) for mm in materials]
+    text, count = _layer_words(tuple(float(x) for x in th), tuple(materials), us, tuple(series))
     if count == 2 and np.isfinite(t_interface):
         text += f" (interface {show(t_interface, 'temperature', us)})"
     return text
@@ -444,15 +551,25 @@ def layers_text(th: np.ndarray, materials: list[library.Material], us: bool,
 
 @lru_cache(maxsize=4096)
 def _layer_words(th: tuple[float, ...], materials: tuple[library.Material, ...],
-                 us: bool) -> tuple[str, int]:
-    """('2 × 50 mm calcium silicate + 40 mm mineral wool', 2): few distinct systems in a schedule."""
+                 us: bool, series: tuple) -> tuple[str, int]:
+    """('2 × 50 mm calcium silicate + 40 mm mineral wool', 2): few distinct systems in a schedule.
+
+    Layers of one material as built (:func:`layer_builds`): '2 × 60 mm' when equal,
+    '2 layers (65 and 50 mm)' when not."""
     parts = []
-    for thick, m in zip(th, materials, strict=False):
+    for thick, m, (listed, max_layer) in zip(th, materials, series, strict=False):
         if thick <= 0:
             continue
-        count = max(1, math.ceil(thick / m.max_layer - 1e-9)) if np.isfinite(m.max_layer) else 1
-        each = show(thick / count, "thickness", us)
-        parts.append(f"{count} × {each} {m.name}" if count > 1 else f"{each} {m.name}")
+        each = [x for x in _build_of(thick, listed, max_layer, 4) if x > 0]
+        shown = [show(x, "thickness", us) for x in each]
+        if len(each) == 1:
+            parts.append(f"{shown[0]} {m.name}")
+        elif len(set(shown)) == 1:
+            parts.append(f"{len(each)} × {shown[0]} {m.name}")
+        else:
+            unit = shown[0].rsplit(" ", 1)[1]
+            values = " and ".join(x.rsplit(" ", 1)[0] for x in shown)  # no ' + ': that joins materials
+            parts.append(f"{len(each)} layers ({values} {unit}) {m.name}")
     return (" + ".join(parts) if parts else "bare"), len(parts)
 
 
@@ -464,7 +581,7 @@ def _notes(i, L, res, t, th, c, k, start, case_cond, given, meets, sol, loss, ba
     notes = res.notes[i]
     sheet = t.sheet
     v = res.values
-    v["layers"][i] = layers_text(th, L.materials, us, v["t_interface"][i])
+    v["layers"][i] = layers_text(th, L.materials, us, v["t_interface"][i], L.series)
     names = " + ".join(m.name for m in L.materials)
     hot = L.t_op >= L.conditions[0].t_air
     ncase = len(L.conditions)
@@ -525,7 +642,7 @@ def _notes(i, L, res, t, th, c, k, start, case_cond, given, meets, sol, loss, ba
                           "no target on this line: the thinnest sold thickness is shown; give 'Max surface "
                           "temperature', 'Max heat loss', 'Prevent condensation', 'Min thickness' or "
                           "'Economic'", sheet, t.cell(i, "tag")))
-    if ncase > 1 and gov_cond and governing not in ("fixed", "none"):
+    if ncase > 1 and gov_cond and governing not in ("fixed", "none", THINNEST):
         where = ("at the coldest named condition, " if governing in ("freeze protection", "hold time")
                  else "at every named condition; ")
         notes.append(Note("info", "governing-condition",

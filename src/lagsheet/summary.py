@@ -12,11 +12,11 @@ import math
 
 import numpy as np
 
-from . import __version__, schema
+from . import __version__, library, schema
 from .display import show
 from .inputs import Inputs
 from .io.table import NewSheet as SheetTable
-from .physics.layers import CYLINDER, FLAT
+from .physics.layers import CYLINDER, FLAT, SPHERE
 from .report import CAUTIONS
 from .spec import Results
 from .units import from_si
@@ -57,7 +57,7 @@ def summary(inputs: Inputs, res: Results, today: _dt.date | None = None) -> Shee
     s.add([])
     head = ["Area", "Lines", "Errors", "Warnings", f"Heat loss [{p}]", f"Heat gain [{p}]",
             f"Bare heat loss [{p}]", f"Annual energy [{e}]", f"Annual cost [{cur}]",
-            f"Annual saving [{cur}]", "CO2 [t/yr]", f"Installed cost [{cur}]", "Payback [yr]"]
+            f"Annual saving [{cur}]", "CO2 [t/yr]", f"Installed cost [{cur}]", "Payback [yr]", "Totals cover"]
     header_row = s.add(head, bold=True)
     loss = np.nan_to_num(v["heat_loss"])
     energy = np.nan_to_num(v["annual_energy"])
@@ -70,19 +70,20 @@ def summary(inputs: Inputs, res: Results, today: _dt.date | None = None) -> Shee
         st = [res.status[i] for i in idx]
         gain = loss[idx][loss[idx] < 0].sum()
         lost = loss[idx][loss[idx] > 0].sum()
-        inst = np.array([v["installed_cost"][i] for i in idx])
+        inst = v["installed_cost"][idx]
         saving = sum(_fin(v["annual_saving"][i]) for i in idx)
-        cost_known = np.isfinite(inst) & np.isfinite(np.array([v["annual_saving"][i] for i in idx]))
-        installed = float(inst[cost_known].sum()) if cost_known.any() else None
-        saving_known = float(np.nansum([v["annual_saving"][i] for i in idx[cost_known]])) if cost_known.any() else 0
-        payback = installed / saving_known if installed is not None and saving_known > 0 else None
+        installed = float(inst[np.isfinite(inst)].sum()) if np.isfinite(inst).any() else None
+        both = np.isfinite(inst) & np.isfinite(v["annual_saving"][idx])  # payback: lines with both
+        saving_known = float(v["annual_saving"][idx][both].sum()) if both.any() else 0.0
+        payback = float(inst[both].sum()) / saving_known if saving_known > 0 else None
         r = s.add([name, len(idx), st.count("error"), st.count("warning"),
                    float(_conv(lost, "power", us)),
                    float(_conv(-gain, "power", us)),
                    float(_conv(np.nansum(np.abs(np.nan_to_num(v["bare_heat_loss"][idx]))), "power", us)),
                    float(_conv(np.abs(energy[idx]).sum(), "energy", us)),
                    float(sum(_fin(v["annual_cost"][i]) for i in idx)), float(saving),
-                   float(np.nansum(v["co2"][idx])) / 1000, installed, payback], fm, bold=name == "Total")
+                   float(np.nansum(v["co2"][idx])) / 1000, installed, payback,
+                   coverage(v, idx, both)], fm, bold=name == "Total")
         first = r if first is None else first
     s.chart = {"title": f"Heat loss by area, insulated and bare [{p}]", "categories": (0, first, first + len(order) - 1),
                "series": [((header_row, 4), 4, first, first + len(order) - 1),
@@ -110,12 +111,68 @@ def summary(inputs: Inputs, res: Results, today: _dt.date | None = None) -> Shee
     s.add(["Cautions"], bold=True)
     for text in CAUTIONS:
         s.add([text])
-    s.widths = {0: 28, **{c: 15 for c in range(1, 13)}}
+    s.widths = {0: 28, **{c: 15 for c in range(1, 13)}, 13: 60}
     return s
 
 
+# Summary column -> the per-line result it adds up
+COVERED = (("Heat loss", "heat_loss"), ("Heat gain", "heat_loss"), ("Bare heat loss", "bare_heat_loss"),
+           ("Annual energy", "annual_energy"), ("Annual cost", "annual_cost"),
+           ("Annual saving", "annual_saving"), ("CO2", "co2"), ("Installed cost", "installed_cost"))
+
+
+def coverage(values: dict, idx: np.ndarray, payback_lines: np.ndarray) -> str | None:
+    """Which totals of a Summary row leave lines out, and how many they cover: 'Installed cost,
+    Payback: 6 of 10 lines'. None when every total covers every line of the row."""
+    n = len(idx)
+    counts = {name: int(np.isfinite(values[key][idx]).sum()) for name, key in COVERED}
+    counts["Payback"] = int(payback_lines.sum())
+    by_count: dict[int, list[str]] = {}
+    for name, k in counts.items():
+        if k < n:
+            by_count.setdefault(k, []).append(name)
+    if not by_count:
+        return None
+    return "; ".join(f"{', '.join(names)}: {k} of {n} lines" for k, names in sorted(by_count.items(), reverse=True))
+
+
+SIZE_STYLES = ("NPS", "inch", "DN")
+
+
+def size_style(sizes, us: bool) -> str:
+    """How the sheet writes pipe sizes: 'NPS' (``NPS 2``), 'inch' (``2"``), 'DN' (``DN 50``) or
+    'OD' when it types no nominal size. A mixed sheet takes the style most of its lines use;
+    a tie goes to the style of its unit system (NPS in inches, DN in millimetres)."""
+    count = dict.fromkeys(SIZE_STYLES, 0)
+    for text in sizes:
+        if not text or library.pipe_outside_diameter(str(text)) is None:
+            continue
+        t = str(text).strip().lower()
+        count["DN" if t.startswith("dn") else "NPS" if t.startswith("nps") else "inch"] += 1
+    if not any(count.values()):
+        return "OD"
+    prefer = ("NPS", "inch", "DN") if us else ("DN", "NPS", "inch")
+    return max(prefer, key=lambda k: count[k])  # max keeps the first of equals: the preferred
+
+
+def size_label(od: float, style: str, us: bool) -> tuple[str, float]:
+    """(label, sort key) of an outside diameter [m] in the sheet's style; a diameter that is no
+    nominal pipe size (within 0.5 mm, ASME B36.10M) is labelled by its OD."""
+    nominal = library.nominal_size(round(float(od), 6)) if style != "OD" else None
+    if nominal is None:
+        return f"OD {show(od, 'radius', us)}", round(float(od), 4)
+    nps, dn = nominal
+    od_table = library.pipe_outside_diameter(f"DN {dn}")
+    return {"NPS": f"NPS {nps}", "inch": f'{nps}"', "DN": f"DN {dn}"}[style], od_table
+
+
 def quantities_table(inputs: Inputs, res: Results) -> SheetTable:
-    """Bill of materials: material × size × layer build, summed over computed lines."""
+    """Bill of materials: material × size × layer build, summed over computed lines.
+
+    One row per outside diameter, whatever it was typed as (``NPS 2``, ``2"``, ``DN 50`` and
+    ``Outside diameter`` 60.3 mm are one size), labelled as the sheet labels its sizes
+    (:func:`size_style`). Pipes give their length, flats and spheres their surface area.
+    """
     us = inputs.us_units
     t = inputs.lines
     q = res.quantities
@@ -123,15 +180,23 @@ def quantities_table(inputs: Inputs, res: Results) -> SheetTable:
     lu, au, vu = _UNITS["length"][us], _UNITS["area"][us], _UNITS["volume"][us]
     s.add(["lagsheet quantities", f"lagsheet {__version__}"], bold=True)
     s.add([])
-    s.add(["Material", "Size", "Layers", "Lines", f"Pipe length [{lu}]", f"Flat area [{au}]",
+    s.add(["Material", "Size", "Layers", "Lines", f"Pipe length [{lu}]", f"Surface area [{au}]",
            f"Insulation volume [{vu}]", f"Jacket area [{au}]"], bold=True)
     if q is None:
         return s
     size_col = t.get("size")
+    style = size_style([size_col[i] for i in range(res.n)] if size_col is not None else [], us)
     groups: dict[tuple, dict] = {}
     for i, L in enumerate(res.lines):
         if res.status[i] == "error" or not np.isfinite(res.values["thickness"][i]):
             continue
+        od = 2 * L.r_inner
+        if L.geometry == FLAT:
+            size, order = L.word, 1e9
+        elif L.geometry == SPHERE or L.word == "vessel":
+            size, order = f"{L.word}, OD {show(od, 'radius', us)}", round(od, 4)
+        else:
+            size, order = size_label(od, style, us)
         for j, m in enumerate(L.materials):
             th = res.chosen[i, j]
             if th <= 0:
@@ -139,12 +204,6 @@ def quantities_table(inputs: Inputs, res: Results) -> SheetTable:
             count = int(q.layers[i, 0, j])
             build = (f"{count} × {show(th / count, 'thickness', us)}" if count > 1
                      else show(th, "thickness", us))
-            if L.geometry == FLAT:
-                size, order = L.word, 1e9
-            elif size_col is not None and size_col[i]:
-                size, order = str(size_col[i]), 2 * L.r_inner
-            else:
-                size, order = f"OD {show(2 * L.r_inner, 'radius', us)}", 2 * L.r_inner
             g = groups.setdefault((m.name, order, size, build, th),
                                   {"lines": 0, "length": 0.0, "area": 0.0, "volume": 0.0, "jacket": 0.0})
             g["lines"] += 1
@@ -152,6 +211,8 @@ def quantities_table(inputs: Inputs, res: Results) -> SheetTable:
                 g["length"] += L.length
             elif L.geometry == FLAT:
                 g["area"] += L.area
+            elif L.geometry == SPHERE:
+                g["area"] += math.pi * od**2  # the sphere's own surface, to be covered
             g["volume"] += float(q.volume[i, 0, j])
             if j == len([x for x in res.chosen[i] if x > 0]) - 1:  # the jacket goes on the outer material
                 g["jacket"] += float(q.jacket_area[i, 0])
@@ -167,6 +228,13 @@ def quantities_table(inputs: Inputs, res: Results) -> SheetTable:
                 tot[k] += g[k]
             s.add(_q_row(mat, key[2], key[3], g, us), fm)
         s.add(_q_row(f"{mat} total", "", "", tot, us), fm, bold=True)
+    s.add([])
+    s.add([{"NPS": "Sizes as NPS, the way most lines of the sheet give them; ",
+            "inch": "Sizes in inches, the way most lines of the sheet give them; ",
+            "DN": "Sizes as DN, the way most lines of the sheet give them; ",
+            "OD": "Sizes by outside diameter, as the sheet gives them; "}[style]
+           + "lines of one outside diameter are one size however typed (ASME B36.10M, within 0.5 mm). "
+           "Pipe length for pipes and risers (a vessel's height), surface area for flats and spheres."])
     s.widths = {0: 26, 1: 14, 2: 22, 3: 8, 4: 16, 5: 16, 6: 18, 7: 16}
     return s
 

@@ -6,6 +6,7 @@ and shipped in ``lagsheet/templates_data``; nothing here builds or parses a work
 
 from __future__ import annotations
 
+import os
 from importlib.resources import files
 from pathlib import Path
 
@@ -25,19 +26,15 @@ def template_bytes(suffix: str) -> bytes:
 
 def write_new(path: Path, *, force: bool = False) -> Path:
     """Write the blank workbook to ``path`` (its type by suffix); refuse to replace a file unless ``force``."""
-    from .io.save import atomic_write
+    from .io.save import atomic_write, refuse_unsafe
 
     path = Path(path)
     suffix = path.suffix.lower()
     if suffix not in TEMPLATES:
         raise WorkbookError(f"{path.name}: lagsheet new writes {' or '.join(TEMPLATES)} workbooks; "
                             f"give a file name ending in one of them")
-    folder = path.parent if str(path.parent) else Path(".")
-    if not folder.is_dir():
-        raise WorkbookError(f"{path}: the folder {folder} does not exist; create it or choose another name")
-    if path.is_dir():
-        raise WorkbookError(f"{path}: is a folder; give a file name")
-    if (path.exists() or path.is_symlink()) and not force:
+    refuse_unsafe(path, what="workbook")  # a link, a special file, an open workbook, a name too long
+    if os.path.lexists(path) and not force:
         raise WorkbookError(f"{path}: already exists; nothing was written (give --force to replace it)")
     data = template_bytes(suffix)
 
@@ -45,10 +42,6 @@ def write_new(path: Path, *, force: bool = False) -> Path:
         with open(tmp, "wb") as fh:
             fh.write(data)
 
-    try:
-        atomic_write(path, write)
-    except OSError as exc:  # a WorkbookError is an OSError too: keep its words
-        if isinstance(exc, WorkbookError):
-            raise
-        raise WorkbookError(f"{path}: cannot be written ({exc.strerror or exc}); nothing was written") from None
+    # without --force the file is given its name only if no file has it by then
+    atomic_write(path, write, exclusive=not force, what="workbook")
     return path

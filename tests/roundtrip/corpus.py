@@ -959,3 +959,122 @@ def build_corpus(folder: Path, names: list[str] | None = None, *, profile: Path 
                 raise RuntimeError(f"LibreOffice did not write {p.name}: {r.stdout}\n{r.stderr}")
             out[e.name] = p
     return out
+
+
+# --------------------------------------------------------------------------- made by LibreOffice (UNO)
+
+UNO_PYTHON = "/usr/bin/python3"  # Debian's python3-uno: `import uno` works there, not in a venv
+LO_BUILD = Path(__file__).with_name("lo_build.py")
+
+
+@dataclass(frozen=True)
+class LoEntry:
+    """A workbook made in LibreOffice Calc through Python-UNO and saved by Calc as .ods and .xlsx.
+
+    Rows and columns are 0-based here (as the UNO API counts); ``lines`` are placed from
+    ``header + 1`` on, skipping the rows in ``gaps``.
+    """
+
+    name: str
+    header: int  # 0-based row of the header
+    n: int = 6
+    gaps: tuple[int, ...] = ()  # blank rows among the lines (0-based sheet rows)
+    above: tuple[tuple[int, str], ...] = ()  # (row, text) in column A above the header
+    remarks: bool = False  # a Remarks column after the schedule, merged down over lines
+    merges: tuple[tuple[int, int, int, int], ...] = ()  # (c1, r1, c2, r2)
+    row_groups: tuple[tuple[int, int, bool], ...] = ()  # (first, last, collapsed)
+    col_groups: tuple[tuple[int, int, bool], ...] = ()
+    hidden: tuple[int, ...] = ()
+    filter_min_temperature: float | None = None  # a standard filter: Operating temperature >= this
+    formats: tuple[str, ...] = ("ods", "xlsx")
+    password: str | None = None
+
+    @property
+    def line_rows(self) -> list[int]:
+        rows, r = [], self.header + 1
+        while len(rows) < self.n:
+            if r not in self.gaps:
+                rows.append(r)
+            r += 1
+        return rows
+
+    def tags(self) -> dict[str, int]:
+        """Each line's Tag -> its 1-based sheet row."""
+        return {line_values(i)[0]: r + 1 for i, r in enumerate(self.line_rows)}
+
+    def spec(self) -> dict:
+        cells = [[r, 0, text] for r, text in self.above]
+        headers = INPUT_HEADERS + (["Remarks"] if self.remarks else [])
+        cells += [[self.header, c, h] for c, h in enumerate(headers)]
+        for i, r in enumerate(self.line_rows):
+            cells += [[r, c, v] for c, v in enumerate(line_values(i))]
+        merges = [list(m) for m in self.merges]
+        if self.remarks:
+            rows, col = self.line_rows, len(INPUT_HEADERS)
+            cells += [[rows[0], col, "one rack with P-102, P-103"], [rows[3], col, "shared support"]]
+            merges += [[col, rows[0], col, rows[2]], [col, rows[3], col, rows[4]]]
+        f = None
+        if self.filter_min_temperature is not None:
+            f = {"range": [0, self.header, len(INPUT_HEADERS) - 1, self.line_rows[-1]],
+                 "field": INPUT_HEADERS.index("Operating temperature [°C]"), "operator": "GREATER_EQUAL",
+                 "value": self.filter_min_temperature}
+        return {"name": self.name, "formats": list(self.formats), "sheet": "Lines", "cells": cells,
+                "merges": merges, "row_groups": [list(g) for g in self.row_groups],
+                "col_groups": [list(g) for g in self.col_groups], "hidden_rows": list(self.hidden),
+                "filter": f, "password": self.password}
+
+
+LO_CORPUS: list[LoEntry] = [
+    # a collapsed group nested in a group that opens with three empty rows, above the schedule;
+    # a group over three lines; the Shape and Size columns grouped and collapsed
+    LoEntry("lo_grouped", header=8, above=((0, "Unit 5 insulation schedule"), (4, "Scope: steam"),
+                                           (5, "Rev C"), (6, "Issued for construction")),
+            row_groups=((1, 6, False), (2, 4, True), (10, 12, False)), col_groups=((1, 2, True),)),
+    LoEntry("lo_hidden", header=5, above=((0, "Unit 5"), (1, "internal note"), (2, "internal note 2")),
+            hidden=(1, 2, 7)),
+    LoEntry("lo_filtered", header=3, n=8, above=((0, "Unit 5 lines at 200 °C and above shown"),),
+            filter_min_temperature=200),
+    LoEntry("lo_repeated", header=46, gaps=(49, 50, 53, 54),
+            above=((0, "Unit 5"), (41, "-"), (42, "-"), (43, "-"))),
+    LoEntry("lo_merged", header=3, remarks=True, above=((0, "Unit 5 insulation schedule"), (1, "Rev C"),),
+            merges=((0, 0, 7, 0), (0, 1, 3, 1), (4, 1, 7, 1))),
+    LoEntry("lo_far_down", header=1499, n=5, above=((0, "Schedule below, from row 1500"),)),
+    LoEntry("lo_everything", header=300, n=10, gaps=(305, 306), remarks=True,
+            above=((0, "Unit 5 insulation schedule"), (2, "Rev C"), (3, "Rev C"), (4, "Rev C"),
+                   (150, "Scope: steam and condensate")),
+            merges=((0, 0, 7, 0),), row_groups=((1, 160, False), (2, 4, True), (303, 308, False)),
+            col_groups=((1, 2, False),), hidden=(150, 302), filter_min_temperature=150),
+]
+LO_LOCKED = LoEntry("lo_locked", header=2, n=3, above=((0, "Unit 5"),), formats=("ods",), password="site")
+LO_BY_NAME = {e.name: e for e in [*LO_CORPUS, LO_LOCKED]}
+
+
+def uno_python() -> str | None:
+    """The system Python with LibreOffice's UNO bridge, or None when it has none."""
+    if not os.access(UNO_PYTHON, os.X_OK):
+        return None
+    r = subprocess.run([UNO_PYTHON, "-c", "import uno"], capture_output=True, timeout=60,
+                       stdin=subprocess.DEVNULL)
+    return UNO_PYTHON if r.returncode == 0 else None
+
+
+def build_lo_corpus(folder: Path, entries: list[LoEntry]) -> dict[str, Path]:
+    """Make ``entries`` in LibreOffice (one headless soffice for all); '<name>.<format>' -> path."""
+    import json
+
+    exe = uno_python()
+    if exe is None:
+        raise FileNotFoundError(f"{UNO_PYTHON} cannot import uno: install python3-uno")
+    folder.mkdir(parents=True, exist_ok=True)
+    spec = folder / "lo-spec.json"
+    spec.write_text(json.dumps([e.spec() for e in entries]), encoding="utf-8")
+    r = subprocess.run([exe, str(LO_BUILD), str(spec), str(folder)], capture_output=True, text=True,
+                       timeout=600, stdin=subprocess.DEVNULL)
+    out = {}
+    for e in entries:
+        for fmt in e.formats:
+            p = folder / f"{e.name}.{fmt}"
+            if not p.is_file():
+                raise RuntimeError(f"LibreOffice did not make {p.name} (exit {r.returncode}): {r.stdout}\n{r.stderr}")
+            out[p.name] = p
+    return out

@@ -428,6 +428,12 @@ def m_new_element(root, info):
 
 
 @_edit_lines
+def m_rename_code_name(root, info):
+    """sheetPr may gain our fitToPage flag, nothing else: a changed codeName is still a change."""
+    root.find(q(MAIN, "sheetPr")).set("codeName", "Renamed")
+
+
+@_edit_lines
 def m_shrink_dimension(root, info):
     root.find(q(MAIN, "dimension")).set("ref", "A1:B2")
 
@@ -639,6 +645,7 @@ BAD_XLSX = [
     (m_reorder_elements, checks.check_sheet_elements, "elements reordered"),
     (m_new_element, checks.check_sheet_elements, "unexpected new element <ignoredErrors>"),
     (m_shrink_dimension, checks.check_sheet_elements, "<dimension> shrank"),
+    (m_rename_code_name, checks.check_sheet_elements, "<sheetPr> changed"),
     (m_drop_legacy_drawing, checks.check_sheet_elements, "<legacyDrawing> was dropped"),
     (m_drop_ignorable, checks.check_sheet_elements, "attributes changed"),
     (m_drop_namespace, checks.check_sheet_elements, "lost namespace declarations"),

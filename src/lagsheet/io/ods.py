@@ -12,8 +12,11 @@ added. Text is written as string cells, never as a formula.
 from __future__ import annotations
 
 import copy
+import io
 import re
 import zipfile
+from bisect import bisect_right
+from collections.abc import Iterator
 from functools import lru_cache
 from pathlib import Path
 from typing import Any
@@ -21,7 +24,8 @@ from xml.sax.saxutils import escape, quoteattr
 
 from ..errors import WorkbookError
 from .save import VERIFIERS, atomic_write
-from .table import RawSheet, SheetEdits, calamine_grid, post_write_check, sheet_name_for
+from .table import RawSheet, SheetEdits, calamine_grid, misplaced, post_write_check, sheet_name_for
+from .xmlscan import EMPTY, START, Scanner, XmlScanError, attr, tag_end
 
 AUTHOR = "lagsheet"
 MARK = "lagsheet: "
@@ -45,8 +49,10 @@ class _Names:
     """The prefixes this document uses for the OpenDocument namespaces."""
 
     def __init__(self, xml: str):
-        head = xml[: xml.find(">", xml.find("<office:document-content") if "<office:document-content" in xml else 0) + 1]
-        found = {uri: p for p, uri in re.findall(r'xmlns:([\w.-]+)="([^"]+)"', head)}
+        sc = Scanner(xml)
+        _, s, e = sc.root()
+        head = xml[s:e]
+        found = {(a or b): p for p, a, b in re.findall(r"""xmlns:([\w.-]+)\s*=\s*(?:"([^"]*)"|'([^']*)')""", head)}
         self.p = {k: found.get(uri) for k, uri in NS.items()}
         if self.p["table"] is None or self.p["office"] is None or self.p["text"] is None:
             raise WorkbookError("content.xml does not declare the OpenDocument table namespaces")
@@ -59,9 +65,7 @@ class OdsBook:
     def __init__(self, path: Path, zf: zipfile.ZipFile, content: str, values):
         self.path, self._zip, self._content, self._values = path, zf, content, values
         self.n = _Names(content)
-        t = re.escape(self.n.table)
-        self._names = [_unescape(m.group(1)) for m in
-                       re.finditer(rf'<{t}:table\b[^>]*\b{t}:name="([^"]*)"', content)]
+        self._names = [name for name, _, _ in _tables(content, self.n)]
         self._raw: dict[str, RawSheet] = {}
 
     @classmethod
@@ -72,15 +76,41 @@ class OdsBook:
             raise WorkbookError(f"{path.name}: not an OpenDocument spreadsheet (the file is not a zip package)")
         try:
             zf = zipfile.ZipFile(path)
+            if _encrypted(zf):
+                raise WorkbookError(
+                    f"{path.name} is saved with a password (encrypted), and lagsheet cannot read it; open it "
+                    "in LibreOffice, choose File > Save As, untick 'Save with password', and run lagsheet on "
+                    "that copy")
             content = zf.read("content.xml").decode("utf-8")
-            values = python_calamine.CalamineWorkbook.from_path(str(path))
-        except KeyError as exc:
-            raise WorkbookError(f"{path.name}: has no content.xml; not an OpenDocument spreadsheet") from exc
         except WorkbookError:
             raise
+        except KeyError as exc:
+            raise WorkbookError(f"{path.name}: has no content.xml; not an OpenDocument spreadsheet") from exc
+        except UnicodeDecodeError:
+            raise WorkbookError(f"{path.name}: its content.xml is not UTF-8 text; open the file in LibreOffice "
+                                "and save it again as .ods") from None
+        except (zipfile.BadZipFile, OSError, EOFError) as exc:
+            raise WorkbookError(f"{path.name}: the zip package is damaged ({type(exc).__name__}); open the file "
+                                "in LibreOffice and save it again as .ods") from None
+        try:
+            try:
+                values = python_calamine.CalamineWorkbook.from_path(str(path))
+            except Exception:
+                # An indented (pretty-printed) content.xml: calamine reads text between a table's
+                # elements as misplaced; without the indentation it reads the same cells.
+                compact = _compact(content, _Names(content))
+                if compact is None:
+                    raise
+                content = compact
+                values = python_calamine.CalamineWorkbook.from_filelike(io.BytesIO(_repack(zf, content)))
+            return cls(path, zf, content, values)
+        except WorkbookError:
+            raise
+        except XmlScanError as exc:
+            raise WorkbookError(f"{path.name}: its content.xml is not well-formed XML ({exc}); open the file in "
+                                "LibreOffice and save it again as .ods") from None
         except Exception as exc:
             raise WorkbookError(f"{path.name}: cannot be read as a spreadsheet ({exc})") from exc
-        return cls(path, zf, content, values)
 
     def sheet_names(self) -> list[str]:
         return list(self._names)
@@ -93,8 +123,7 @@ class OdsBook:
             content = content[:a] + content[b:]
         if name != sheet.name:
             sheet = type(sheet)(**{**sheet.__dict__, "name": name})
-        last = content.rfind(f"</{self.n.table}:table>")
-        at = last + len(f"</{self.n.table}:table>")
+        at = _tables(content, self.n)[-1][2]  # after the last sheet
         return content[:at] + _new_table(sheet, self.n, styles) + content[at:]
 
     def sheet(self, name: str) -> RawSheet:
@@ -105,6 +134,13 @@ class OdsBook:
         return self._raw[name]
 
     def save(self, edits: list[SheetEdits], out: Path, new_sheets=(), allow_loss: bool = False) -> list[str]:
+        try:
+            return self._save(edits, out, new_sheets, allow_loss)
+        except XmlScanError as exc:
+            raise WorkbookError(f"{self.path.name}: its content.xml is not well-formed XML ({exc}); open the file "
+                                "in LibreOffice and save it again as .ods; nothing was written") from None
+
+    def _save(self, edits: list[SheetEdits], out: Path, new_sheets, allow_loss: bool) -> list[str]:
         content = _declare(self._content, self.n)
         styles = _AutoStyles(content, self.n)
         for e in edits:
@@ -136,6 +172,12 @@ class OdsBook:
             reopened = VERIFIERS[".ods"](tmp)  # calamine reads a whole .ods when it opens it: once
             losses.extend(post_write_check(tmp, before, written, names, reopened=reopened,
                                            allow_loss=allow_loss))
+            for e in edits:  # every cell written sits where it was meant to, on its line's row
+                bad = misplaced(e.values, reopened.get_sheet_by_name(e.sheet))
+                if bad:
+                    raise WorkbookError(
+                        f"the written file does not hold lagsheet's results where they belong ({e.sheet}!"
+                        f"{', '.join(bad)}); nothing was written. Please report this with the workbook")
 
         atomic_write(out, write, like=self.path, verify=verify)
         return losses
@@ -183,8 +225,7 @@ def _grow_database_ranges(content: str, e: SheetEdits, n: _Names) -> str:
     last = max(cols)
     t = n.table
 
-    def grow(m):
-        tag = m.group(0)
+    def grow(tag):
         addr = _attr(tag, f"{t}:target-range-address")
         rm = _RANGE.match(addr or "")
         if not rm or _unescape(rm.group(2)) != e.sheet or int(rm.group(6)) - 1 != e.header_row:
@@ -196,7 +237,19 @@ def _grow_database_ranges(content: str, e: SheetEdits, n: _Names) -> str:
                + column_letter(last) + rm.group(9) + rm.group(10))
         return _set_attr(tag, f"{t}:target-range-address", new)
 
-    return re.sub(rf"<{t}:database-range\b[^>]*>", grow, content)
+    sc = Scanner(content)
+    at = _spreadsheet(sc, n)
+    ranges = sc.child(at, f"{t}:database-ranges") if at is not None else None
+    if ranges is None or ranges[0] != START:
+        return content
+    out, pos = [], 0
+    for _, name, start, end, _ in sc.children(ranges[2]):
+        if name == f"{t}:database-range":
+            out.append(content[pos:start])
+            out.append(grow(content[start:end]))
+            pos = end
+    out.append(content[pos:])
+    return "".join(out)
 
 
 def _col_index_letters(letters: str) -> int:
@@ -208,11 +261,9 @@ def _col_index_letters(letters: str) -> int:
 
 def _declare(content: str, n: _Names) -> str:
     """Declare on the root element the namespaces our additions use, where the file lacks them."""
-    root = re.search(r"<[\w.-]+:document-content\b[^>]*>", content)
-    if root is None:
-        return content
-    tag = root.group(0)
-    taken = set(re.findall(r"xmlns:([\w.-]+)=", tag))
+    _, start, end = Scanner(content).root()
+    tag = content[start:end]
+    taken = set(re.findall(r"xmlns:([\w.-]+)\s*=", tag))
     add = ""
     for key in ("dc", "style", "number", "fo"):
         if n.p[key] is None and key not in taken:
@@ -221,16 +272,84 @@ def _declare(content: str, n: _Names) -> str:
     if not add:
         return content
     new = tag[:-1] + add + ">"
-    return content[:root.start()] + new + content[root.end():]
+    return content[:start] + new + content[end:]
+
+
+def _spreadsheet(sc: Scanner, n: _Names) -> int | None:
+    """Where the content of office:spreadsheet starts (the end of its start tag), or None."""
+    _, _, head = sc.root()
+    body = sc.child(head, f"{n.office}:body")
+    if body is None or body[0] != START:
+        return None
+    sheet = sc.child(body[2], f"{n.office}:spreadsheet")
+    if sheet is None or sheet[0] != START:
+        return None
+    return sheet[2]
+
+
+def _tables(content: str, n: _Names) -> list[tuple[str, int, int]]:
+    """(name, start, end) of every sheet (table:table in office:spreadsheet), in order."""
+    sc = Scanner(content)
+    at = _spreadsheet(sc, n)
+    if at is None:
+        return []
+    t = f"{n.table}:table"
+    return [(_unescape(_attr(content[s:e], f"{n.table}:name") or ""), s, stop)
+            for _, name, s, e, stop in sc.children(at) if name == t]
 
 
 def _span(content: str, name: str, n: _Names) -> tuple[int, int]:
-    t = re.escape(n.table)
-    for m in re.finditer(rf'<{t}:table\b[^>]*\b{t}:name="([^"]*)"[^>]*>', content):
-        if _unescape(m.group(1)) == name:
-            end = content.find(f"</{n.table}:table>", m.end())
-            return m.start(), end + len(f"</{n.table}:table>")
+    for found, s, e in _tables(content, n):
+        if found == name:
+            return s, e
     raise KeyError(name)
+
+
+def _encrypted(zf: zipfile.ZipFile) -> bool:
+    """The package's manifest lists encryption data (a file saved with a password)."""
+    try:
+        manifest = zf.read("META-INF/manifest.xml")
+    except KeyError:
+        return False
+    return b"encryption-data" in manifest
+
+
+def _compact(content: str, n: _Names) -> str | None:
+    """content.xml without the indentation between elements, paragraphs' text untouched;
+    None when there is none."""
+    sc = Scanner(content)
+    para = re.compile(rf"<{re.escape(n.text)}:[ph][\s/>]")
+    starts, ends, i = [], [], 0
+    while True:  # the paragraphs: whitespace in them is text
+        m = para.search(content, i)
+        if m is None:
+            break
+        inside = sc.opaque_end(m.start())
+        if inside is not None:
+            i = inside
+            continue
+        kind, name, s, e = sc.next_tag(m.start())
+        stop = e if kind == EMPTY else sc.element_end(name, e)
+        starts.append(s)
+        ends.append(stop)
+        i = stop
+
+    def drop(m: re.Match) -> str:
+        k = bisect_right(starts, m.start()) - 1
+        return m.group(0) if k >= 0 and m.start() < ends[k] else ""
+
+    new = re.sub(r"(?<=>)\s+(?=<)", drop, content)
+    return None if new == content else new
+
+
+def _repack(zf: zipfile.ZipFile, content: str) -> bytes:
+    """The package in memory with ``content`` as its content.xml."""
+    buf = io.BytesIO()
+    with zipfile.ZipFile(buf, "w") as dst:
+        for info in zf.infolist():
+            body = content.encode("utf-8") if info.filename == "content.xml" else zf.read(info.filename)
+            dst.writestr(copy.copy(info), body, compress_type=info.compress_type)
+    return buf.getvalue()
 
 
 def _unescape(s: str) -> str:
@@ -239,20 +358,12 @@ def _unescape(s: str) -> str:
 
 
 @lru_cache(maxsize=64)
-def _attr_re(name: str) -> re.Pattern:
-    return re.compile(rf'\b{re.escape(name)}="([^"]*)"')
-
-
-@lru_cache(maxsize=64)
 def _set_attr_re(name: str) -> re.Pattern:
     return re.compile(rf'\s{re.escape(name)}="[^"]*"')
 
 
 def _attr(tag: str, name: str) -> str | None:
-    if name not in tag:
-        return None
-    m = _attr_re(name).search(tag)
-    return m.group(1) if m else None
+    return attr(tag, name)
 
 
 def _set_attr(tag: str, name: str, value: str | None) -> str:
@@ -266,13 +377,68 @@ def _set_attr(tag: str, name: str, value: str | None) -> str:
     return tag[:end] + f' {name}="{value}"' + tag[end:]
 
 
-def _rows(xml: str, n: _Names) -> re.Pattern:
-    return re.compile(rf"<{n.table}:table-row\b[^>]*?(?:/>|>.*?</{n.table}:table-row>)", re.S)
+_ROW_GROUPS = ("table-row-group", "table-header-rows", "table-rows")
+_COLUMN_GROUPS = ("table-column-group", "table-header-columns", "table-columns")
 
 
-def _cells_re(n: _Names) -> re.Pattern:
+def _count(tag: str, name: str) -> int:
+    """A repeat count (number-rows-repeated, number-columns-repeated); 1 when absent."""
+    v = _attr(tag, name)
+    return int(v) if v and v.strip().isdigit() else 1
+
+
+def _rows(sc: Scanner, n: _Names) -> Iterator[tuple[int, int, int, int]]:
+    """(start, start-tag end, end, repeat) of each row of the table ``sc`` holds (its text is
+    one table:table element), in order: in row groups, header rows and table-rows too; rows
+    of a sub-table in a cell are not the table's."""
     t = n.table
-    return re.compile(rf"<{t}:(table-cell|covered-table-cell)\b[^>]*?(?:/>|>.*?</{t}:\1>)", re.S)
+    row = f"{t}:table-row"
+    _, _, head = sc.root()
+    for _, name, s, e, stop in sc.children(head, descend=_groups(t, _ROW_GROUPS)):
+        if name == row:
+            yield s, e, stop, _count(sc.text[s:e], f"{t}:number-rows-repeated")
+
+
+def _columns(sc: Scanner, n: _Names) -> Iterator[tuple[int, int, int]]:
+    """(start, end, repeat) of each column of the table ``sc`` holds, in column groups too."""
+    t = n.table
+    col, rows = f"{t}:table-column", {f"{t}:table-row", *_groups(t, _ROW_GROUPS)}
+    _, _, head = sc.root()
+    for _, name, s, e, stop in sc.children(head, descend=_groups(t, _COLUMN_GROUPS)):
+        if name == col:
+            yield s, stop, _count(sc.text[s:e], f"{t}:number-columns-repeated")
+        elif name in rows:
+            return  # the columns come before the rows
+
+
+def _rows_end(sc: Scanner, n: _Names) -> int:
+    """Where rows after the table's last one go: after its last row or row group."""
+    t = n.table
+    rows = {f"{t}:table-row", *_groups(t, _ROW_GROUPS)}
+    _, _, at = sc.root()
+    for _, name, _, _, stop in sc.children(at):
+        if name in rows or at == 0:
+            at = stop
+    return at
+
+
+@lru_cache(maxsize=8)
+def _groups(t: str, names: tuple[str, ...]) -> frozenset[str]:
+    return frozenset(f"{t}:{x}" for x in names)
+
+
+def _cells(sc: Scanner, n: _Names, head_end: int, end: int) -> Iterator[tuple[int, int, int, int]]:
+    """(start, start-tag end, end, repeat) of each cell (covered ones too) of the row whose
+    start tag ends at ``head_end`` (``end``: the row's end)."""
+    t = n.table
+    names = (f"{t}:table-cell", f"{t}:covered-table-cell")
+    repeated = f"{t}:number-columns-repeated"
+    if head_end >= end:
+        return
+    for _, name, s, e, stop in sc.children(head_end, end):
+        if name in names:
+            tag = sc.text[s:e]
+            yield s, e, stop, (_count(tag, repeated) if repeated in tag else 1)
 
 
 def _uncached(table_xml: str, n: _Names) -> set[tuple[int, int]]:
@@ -280,15 +446,12 @@ def _uncached(table_xml: str, n: _Names) -> set[tuple[int, int]]:
     if f"{n.table}:formula" not in table_xml:
         return out
     r = 0
-    cell_re = _cells_re(n)
-    for rm in _rows(table_xml, n).finditer(table_xml):
-        row = rm.group(0)
-        rep = int(_attr(row[:row.find(">") + 1], f"{n.table}:number-rows-repeated") or 1)
-        if f"{n.table}:formula" in row:
+    sc = Scanner(table_xml)
+    for rs, re_, rstop, rep in _rows(sc, n):
+        if table_xml.find(f"{n.table}:formula", rs, rstop) >= 0:
             c = 0
-            for cm in cell_re.finditer(row):
-                tag = cm.group(0)[:cm.group(0).find(">") + 1]
-                crep = int(_attr(tag, f"{n.table}:number-columns-repeated") or 1)
+            for s, e, _, crep in _cells(sc, n, re_, rstop):
+                tag = table_xml[s:e]
                 if _attr(tag, f"{n.table}:formula") is not None and _attr(tag, f"{n.office}:value-type") is None:
                     for k in range(crep):
                         out.add((r, c + k))
@@ -352,25 +515,24 @@ class _AutoStyles:
         if not self.new:
             return content
         o = self.n.office
-        end = content.find(f"</{o}:automatic-styles>")
-        if end >= 0:
-            return content[:end] + "".join(self.new) + content[end:]
-        empty = re.search(rf"<{o}:automatic-styles\s*/>", content)
+        sc = Scanner(content)
+        _, _, head = sc.root()
         block = f"<{o}:automatic-styles>{''.join(self.new)}</{o}:automatic-styles>"
-        if empty:
-            return content[:empty.start()] + block + content[empty.end():]
-        body = content.find(f"<{o}:body")
-        return content[:body] + block + content[body:]
+        for kind, name, s, _, stop in sc.children(head):
+            if name == f"{o}:automatic-styles":
+                if kind == EMPTY:
+                    return content[:s] + block + content[stop:]
+                end = content.rfind("</", s, stop)
+                return content[:end] + "".join(self.new) + content[end:]
+            if name == f"{o}:body":
+                return content[:s] + block + content[s:]
+        return content
 
 
 class _TablePatch:
     def __init__(self, xml: str, e: SheetEdits, n: _Names, styles: _AutoStyles):
         self.xml, self.e, self.n, self.styles = xml, e, n, styles
         self.t, self.o = n.table, n.office
-        t = n.table
-        # _cells_re with the start tag's attributes as group 2 (the same matches)
-        self._cell_start_re = re.compile(rf"<{t}:(table-cell|covered-table-cell)\b([^>]*?)(?:/>|>.*?</{t}:\1>)",
-                                         re.S)
         self._floats: dict[tuple, str] = {}  # (number format, header style) -> the cell's start
         self._strings: dict[tuple, str] = {}  # (text, header style) -> the whole cell
 
@@ -393,22 +555,28 @@ class _TablePatch:
         if not self.e.widths:
             return xml
         t = self.t
-        col_re = re.compile(rf"<{t}:table-column\b[^>]*?(?:/>|>.*?</{t}:table-column>)", re.S)
         want = dict(self.e.widths)
         out, pos, c = [], 0, 0
-        for m in col_re.finditer(xml):
-            tag = m.group(0)
-            rep = int(_attr(tag, f"{t}:number-columns-repeated") or 1)
+        for start, end, rep in _columns(Scanner(xml), self.n):
+            tag = xml[start:end]
             hit = sorted(k for k in want if c <= k < c + rep)
-            out.append(xml[pos:m.start()])
+            out.append(xml[pos:start])
 
             def styled(one, k):
                 name = self.styles.column(want.pop(k))
                 return _set_attr(one, f"{t}:style-name", name) if name else one
 
             out.append(_split(tag, f"{t}:number-columns-repeated", c, rep, hit, styled) if hit else tag)
-            pos = m.end()
+            pos = end
             c += rep
+        if want and pos:  # new columns right of the declared ones: declare them (and any gap) after the last
+            for k in sorted(want):
+                if k > c:
+                    gap = f' {t}:number-columns-repeated="{k - c}"' if k - c > 1 else ""
+                    out.append(f"<{t}:table-column{gap}/>")
+                name = self.styles.column(want.pop(k))
+                out.append(f'<{t}:table-column {t}:style-name="{name}"/>' if name else f"<{t}:table-column/>")
+                c = k + 1
         out.append(xml[pos:])
         return "".join(out)
 
@@ -421,17 +589,14 @@ class _TablePatch:
         rows = {r for r, _ in positions}
         last = max(rows)
         r = 0
-        cell_re = _cells_re(self.n)
-        for rm in _rows(xml, self.n).finditer(xml):
+        sc = Scanner(xml)
+        for _, head_end, stop, rep in _rows(sc, self.n):
             if r > last:
                 break
-            row = rm.group(0)
-            rep = int(_attr(row[:row.find(">") + 1], f"{self.t}:number-rows-repeated") or 1)
             if any(r <= x < r + rep for x in rows):
                 c = 0
-                for cm in cell_re.finditer(row):
-                    tag = cm.group(0)[:cm.group(0).find(">") + 1]
-                    crep = int(_attr(tag, f"{self.t}:number-columns-repeated") or 1)
+                for s, e, _, crep in _cells(sc, self.n, head_end, stop):
+                    tag = xml[s:e]
                     for (pr, pc) in positions:
                         if r <= pr < r + rep and c <= pc < c + crep:
                             found[(pr, pc)] = _attr(tag, f"{self.t}:style-name")
@@ -443,54 +608,51 @@ class _TablePatch:
         t = self.t
         todo = sorted(targets)
         out, pos, r, k = [], 0, 0, 0
-        for rm in _rows(xml, self.n).finditer(xml):
+        sc = Scanner(xml)
+        for start, _, stop, rep in _rows(sc, self.n):
             if k >= len(todo):
                 break
-            row = rm.group(0)
-            head = row[:row.find(">") + 1]
-            rep = int(_attr(head, f"{t}:number-rows-repeated") or 1)
             hits = []
             while k < len(todo) and todo[k] < r + rep:
                 hits.append(todo[k])
                 k += 1
             if hits:
-                out.append(xml[pos:rm.start()])
-                out.append(_split(row, f"{t}:number-rows-repeated", r, rep, hits,
+                out.append(xml[pos:start])
+                out.append(_split(xml[start:stop], f"{t}:number-rows-repeated", r, rep, hits,
                                   lambda one, h: self._patch_row(one, h, targets[h], notes, header_src)))
-                pos = rm.end()
+                pos = stop
             r += rep
-        out.append(xml[pos:])
-        xml = "".join(out)
         if k < len(todo):  # rows past the table's last row
-            end = xml.rfind(f"</{t}:table>")
-            extra = []
+            end = _rows_end(sc, self.n)
+            out.append(xml[pos:end])
+            pos = end
             for h in todo[k:]:
                 if h > r:
-                    extra.append(f'<{t}:table-row {t}:number-rows-repeated="{h - r}"><{t}:table-cell/></{t}:table-row>')
-                extra.append(self._patch_row(f"<{t}:table-row></{t}:table-row>", h, targets[h], notes, header_src))
+                    out.append(f'<{t}:table-row {t}:number-rows-repeated="{h - r}"><{t}:table-cell/></{t}:table-row>')
+                out.append(self._patch_row(f"<{t}:table-row></{t}:table-row>", h, targets[h], notes, header_src))
                 r = h + 1
-            xml = xml[:end] + "".join(extra) + xml[end:]
-        return xml
+        out.append(xml[pos:])
+        return "".join(out)
 
     def _patch_row(self, row: str, r: int, cells: dict[int, tuple[str, Any]], notes, header_src) -> str:
         t = self.t
         close = f"</{t}:table-row>"
-        if row.endswith("/>"):
-            head, body = row[:-2] + ">", ""
+        head_end = tag_end(row)
+        if row[head_end - 2] == "/":
+            head, body = row[:head_end - 2] + ">", ""
         else:
-            head = row[:row.find(">") + 1]
-            body = row[len(head):-len(close)]
+            head = row[:head_end]
+            body = row[head_end:row.rfind("</")]
         out, pos, c = [], 0, 0
         todo = sorted(cells)
         k, n_todo = 0, len(todo)
         repeated = f"{t}:number-columns-repeated"
         last_end = 0
-        for cm in self._cell_start_re.finditer(body):  # the cells; those we write in are split
+        sc = Scanner(body)
+        for cs, _, cstop, rep in _cells(sc, self.n, 0, len(body)):  # the cells; those we write in are split
             if k >= n_todo:
                 break  # the rest of the row is copied as it is
-            attrs = cm.group(2)
-            rep = int(_attr(attrs, repeated) or 1) if repeated in attrs else 1
-            last_end = cm.end()
+            last_end = cstop
             if todo[k] >= c + rep:  # nothing of ours in this one: it stays in the text as it is
                 c += rep
                 continue
@@ -498,10 +660,10 @@ class _TablePatch:
             while k < n_todo and todo[k] < c + rep:
                 hits.append(todo[k])
                 k += 1
-            out.append(body[pos:cm.start()])
-            out.append(_split(cm.group(0), repeated, c, rep, hits,
+            out.append(body[pos:cs])
+            out.append(_split(body[cs:cstop], repeated, c, rep, hits,
                               lambda one, h: self._cell(one, r, h, cells[h], notes.get((r, h)), header_src)))
-            pos = cm.end()
+            pos = cstop
             c += rep
         else:  # every cell was seen (c is the row's width): ours past the last one go after it
             out.append(body[pos:last_end])
@@ -561,7 +723,7 @@ class _TablePatch:
 
 def _repeat(tok: str, attr: str, count: int) -> str:
     """A copy of a (cell or column) element standing for ``count`` positions."""
-    end = tok.find(">") + 1
+    end = tag_end(tok)
     tag, rest = tok[:end], tok[end:]
     tag = _set_attr(tag, attr, str(count) if count > 1 else None)
     return tag + rest
@@ -595,18 +757,34 @@ def _annotate(cell: str, note: str, n: _Names) -> str:
         tag = cell[:-2]
         kind = re.match(rf"<{t}:([\w-]+)", cell).group(1)
         return f"{tag}>{ann}</{t}:{kind}>"
-    end = cell.find(">") + 1
+    end = tag_end(cell)
     return cell[:end] + ann + cell[end:]
 
 
 def _strip_our_annotations(xml: str, n: _Names) -> str:
-    o = n.office
-
-    def keep(m):
-        body = m.group(0)
-        text = re.sub(r"<[^>]+>", "", body)
-        ours = (n.dc and f"<{n.dc}:creator>{AUTHOR}</{n.dc}:creator>" in body) or MARK in text
-        return "" if ours else body
-
-    return re.sub(rf"<{o}:annotation\b[^>]*>.*?</{o}:annotation>", keep, xml, flags=re.S)
+    """The table without the notes (annotations) of lagsheet's earlier runs; people's stay."""
+    name = f"{n.office}:annotation"
+    if f"<{name}" not in xml:
+        return xml
+    sc = Scanner(xml)
+    opening = re.compile(rf"<{re.escape(name)}[\s/>]")
+    out, pos, i = [], 0, 0
+    while True:
+        m = opening.search(xml, i)
+        if m is None:
+            break
+        inside = sc.opaque_end(m.start())
+        if inside is not None:  # in a comment or CDATA section: not an element
+            i = inside
+            continue
+        kind, _, s, e = sc.next_tag(m.start())
+        stop = e if kind == EMPTY else sc.element_end(name, e)
+        body = xml[s:stop]
+        text = re.sub(r"<[^>]*>", "", body)
+        if (n.dc and f"<{n.dc}:creator>{AUTHOR}</{n.dc}:creator>" in body) or MARK in text:
+            out.append(xml[pos:s])
+            pos = stop
+        i = stop
+    out.append(xml[pos:])
+    return "".join(out)
 

@@ -8,7 +8,7 @@ cell A1, and the addresses of formula cells that carry no cached value. Writing 
 from __future__ import annotations
 
 import re
-from collections.abc import Container
+from collections.abc import Container, Iterable
 from dataclasses import dataclass, field
 from functools import lru_cache
 from pathlib import Path
@@ -45,6 +45,7 @@ class RawSheet:
     name: str
     grid: list[list[Any]]  # rows from row 1, columns from A; '' or None for empty
     uncached: set[tuple[int, int]] = field(default_factory=set)  # formula cells with no cached value
+    totals_rows: set[int] = field(default_factory=set)  # rows that are a table's totals row, never lines
 
     def value(self, row: int, col: int) -> Any:
         if row < len(self.grid) and col < len(self.grid[row]):
@@ -73,6 +74,11 @@ class RawSheet:
             if any(isinstance(v, str) and fold(v) in want for v in row):
                 return i
         return None
+
+    def header_rows(self, marker: str | tuple[str, ...]) -> list[int]:
+        """Every row (0-based) with a cell equal to ``marker`` or one of several markers (folded)."""
+        want = {fold(m) for m in ((marker,) if isinstance(marker, str) else marker)}
+        return [i for i, row in enumerate(self.grid) if any(type(v) is str and fold(v) in want for v in row)]
 
 
 @dataclass
@@ -121,18 +127,29 @@ def calamine_grid(values, name: str, path: Path) -> list[list[Any]]:
         raise WorkbookError(f"{path.name}: sheet {name!r} cannot be read ({exc})") from exc
 
 
-def sheet_name_for(book: Book, wanted: str) -> tuple[str, bool]:
+def sheet_name_for(book: Book, wanted: str, taken: Iterable[str] | None = None) -> tuple[str, bool]:
     """Where a sheet of lagsheet's goes: (name, replace). Ours from an earlier run (its first
     cell starts with :attr:`NewSheet.MARK`) is replaced; a person's sheet of that name is never
-    touched, ours is then named '<name> (lagsheet)'."""
-    name = wanted
-    while name in book.sheet_names():
-        grid = book.sheet(name).grid
-        first = grid[0][0] if grid and grid[0] else ""
-        if isinstance(first, str) and first.startswith(NewSheet.MARK):
-            return name, True
-        name = f"{name} (lagsheet)"
-    return name, False
+    touched, ours is then named '<name> (lagsheet)' (then '<name> (lagsheet 2)', ...).
+
+    Sheet names compare ignoring case, as spreadsheet programs compare them, over ``taken``:
+    the names of every sheet of the workbook, chart and dialog sheets too (by default the
+    names of ``book.sheet_names()``).
+    """
+    names = list(book.sheet_names() if taken is None else taken)
+    cells = set(book.sheet_names())  # the sheets with cells: only those can be ours
+    name, k = wanted, 1
+    while True:
+        same = next((n for n in names if n.casefold() == name.casefold()), None)
+        if same is None:
+            return name, False
+        if same in cells:
+            grid = book.sheet(same).grid
+            first = grid[0][0] if grid and grid[0] else ""
+            if isinstance(first, str) and first.startswith(NewSheet.MARK):
+                return same, True
+        name = f"{wanted} (lagsheet)" if k == 1 else f"{wanted} (lagsheet {k})"
+        k += 1
 
 
 class Book(Protocol):
@@ -204,6 +221,59 @@ def rows_from_a1(sheet):
     yield pad + first
     for row in it:
         yield pad + row
+
+
+_XML_INVALID = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ufffe\uffff]")
+
+
+def _shown(v: Any) -> Any:
+    """What a written value reads back as: a number as a float, text with its spaces folded."""
+    if v is None or (isinstance(v, float) and v != v):
+        return ""
+    if isinstance(v, bool):
+        v = "yes" if v else "no"
+    if isinstance(v, (int, float)):
+        return float(v)
+    return " ".join(_XML_INVALID.sub("", str(v)).split())
+
+
+def misplaced(values: dict[tuple[int, int], Any], sheet, limit: int = 5) -> list[str]:
+    """Addresses of written cells that do not read back where they were written.
+
+    ``values``: what was written, by (row, column); ``sheet``: the written sheet as calamine
+    reopened it. Every result is written on its line's row (the row whose Tag the line was
+    read from, which :func:`kept` shows unchanged), so a result read back elsewhere, or
+    another value in its place, means the writer slipped: the file must not be kept.
+    """
+    by_row: dict[int, list[tuple[int, Any]]] = {}
+    for (r, c), v in values.items():
+        by_row.setdefault(r, []).append((c, v))
+    bad: list[str] = []
+    for r, row in enumerate(rows_from_a1(sheet)):
+        cells = by_row.pop(r, None)
+        if cells is None:
+            if not by_row:
+                break
+            continue
+        for c, v in cells:
+            want = _shown(v)
+            got = row[c] if c < len(row) else ""
+            if isinstance(want, float):
+                ok = isinstance(got, (int, float)) and not isinstance(got, bool) and (
+                    got == want or abs(got - want) <= 1e-9 * max(abs(want), 1.0))
+            else:
+                ok = (" ".join(got.split()) if isinstance(got, str) else got) == want
+            if not ok:
+                bad.append(address(r, c))
+                if len(bad) >= limit:
+                    return bad
+    for r, cells in sorted(by_row.items()):  # rows the written sheet does not reach
+        for c, v in cells:
+            if _shown(v) != "":
+                bad.append(address(r, c))
+                if len(bad) >= limit:
+                    return bad
+    return bad
 
 
 def post_write_check(tmp: Path, before: dict[str, RawSheet], written: dict[str, Container[tuple[int, int]]],

@@ -13,13 +13,16 @@ in. Text is written as inline strings, never as a formula.
 
 from __future__ import annotations
 
+import bisect
 import copy
+import io
 import posixpath
 import re
 import time
+import weakref
 import zipfile
 from collections.abc import Callable, Iterable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 from xml.sax.saxutils import escape
@@ -45,6 +48,8 @@ NS_PKG_REL = "http://schemas.openxmlformats.org/package/2006/relationships"
 REL_COMMENTS = NS_REL + "/comments"
 REL_VML = NS_REL + "/vmlDrawing"
 REL_TABLE = NS_REL + "/table"
+REL_STYLES = NS_REL + "/styles"
+CT_STYLES = "application/vnd.openxmlformats-officedocument.spreadsheetml.styles+xml"
 CT_COMMENTS = "application/vnd.openxmlformats-officedocument.spreadsheetml.comments+xml"
 CT_VML = "application/vnd.openxmlformats-officedocument.vmlDrawing"
 
@@ -83,9 +88,25 @@ def _rels_path(part: str) -> str:
     return posixpath.join(d, "_rels", f + ".rels")
 
 
+_LOWER: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()  # zip -> {lower-case name: name}
+
+
+def _member(zf: zipfile.ZipFile, name: str) -> str | None:
+    """The zip member that is part ``name``: part names compare ignoring case (ECMA-376 Part 2, 9.1.1)."""
+    if name in zf.NameToInfo:
+        return name
+    count, lower = _LOWER.get(zf, (-1, {}))
+    if count != len(zf.NameToInfo):
+        lower = {}
+        for n in zf.NameToInfo:
+            lower.setdefault(n.lower(), n)
+        _LOWER[zf] = (len(zf.NameToInfo), lower)
+    return lower.get(name.lower())
+
+
 def _read_rels(zf: zipfile.ZipFile, part: str) -> list[dict[str, str]]:
-    path = _rels_path(part)
-    if path not in zf.namelist():
+    path = _member(zf, _rels_path(part))
+    if path is None:
         return []
     xml = zf.read(path).decode("utf-8")
     return [_attrs(m.group(0)) for m in re.finditer(r"<(?:\w+:)?Relationship\b[^>]*>", xml)]
@@ -98,17 +119,18 @@ class _Sheet:
 
 
 class XlsxBook:
-    def __init__(self, path: Path, zf: zipfile.ZipFile, sheets: list[_Sheet], values):
+    def __init__(self, path: Path, zf: zipfile.ZipFile, sheets: list[_Sheet], values,
+                 kinds: list[tuple[str, str]] = ()):
         self.path = path
         self._zip = zf
         self._sheets = sheets
         self._values = values
         self._raw: dict[str, RawSheet] = {}
+        self._kinds = list(kinds) or [(s.name, "worksheet") for s in sheets]  # (name, kind) of every sheet
+        self._fixed: set[str] = set()  # sheet parts calamine reads from a mended copy (see _calamine_fixes)
 
     @classmethod
     def open(cls, path: Path) -> XlsxBook:
-        import python_calamine
-
         if not zipfile.is_zipfile(path):
             raise WorkbookError(f"{path.name}: not an Excel workbook (the file is not a zip package)")
         try:
@@ -116,35 +138,66 @@ class XlsxBook:
             wb_part = _workbook_part(zf)
             rels = {r.get("Id"): r for r in _read_rels(zf, wb_part)}
             xml = zf.read(wb_part).decode("utf-8")
-            sheets = []
+            sheets, kinds = [], []
             for m in re.finditer(r"<(?:\w+:)?sheet\b[^>]*>", xml):
                 a = _attrs(m.group(0))
                 rid = next((v for k, v in a.items() if k.endswith(":id")), None)
                 rel = rels.get(rid)
-                if rel is None or not rel.get("Type", "").endswith("/worksheet"):
+                name = _unescape(a.get("name", ""))
+                kind = rel.get("Type", "").rsplit("/", 1)[-1] if rel is not None else ""
+                kinds.append((name, kind))
+                if kind != "worksheet":
                     continue
-                sheets.append(_Sheet(_unescape(a.get("name", "")), _rel_target(wb_part, rel["Target"])))
-            values = python_calamine.CalamineWorkbook.from_path(str(path))
+                target = _rel_target(wb_part, rel["Target"])
+                sheets.append(_Sheet(name, _member(zf, target) or target))
+            values = _calamine(path, zf, _calamine_fixes(zf, ()))
         except WorkbookError:
             raise
         except Exception as exc:  # any library failure means the file cannot be read
             raise WorkbookError(f"{path.name}: cannot be read as a workbook ({exc})") from exc
-        return cls(path, zf, sheets, values)
+        return cls(path, zf, sheets, values, kinds)
 
     def sheet_names(self) -> list[str]:
         return [s.name for s in self._sheets]
+
+    def all_sheet_names(self) -> list[str]:
+        """Every sheet's name: worksheets, chart sheets, dialog and macro sheets (names are shared)."""
+        return [n for n, _ in self._kinds]
 
     def _part(self, name: str) -> str:
         return next(s.part for s in self._sheets if s.name == name)
 
     def sheet(self, name: str) -> RawSheet:
         if name not in self._raw:
+            part = self._part(name)
+            data = self._zip.read(part)
+            at = data.find(b"mergeCell")  # merges follow the cells: no regular expression over the rows
+            if at >= 0 and part not in self._fixed and _LINE_MERGE.search(data, max(at - 64, 0)):
+                self._fixed.add(part)  # calamine cannot read a merge of whole columns or rows: mend its copy
+                self._values = _calamine(self.path, self._zip, _calamine_fixes(self._zip, self._fixed))
             grid = calamine_grid(self._values, name, self.path)
-            data = self._zip.read(self._part(name))
             uncached = _uncached_formulas(data.decode("utf-8")) if b"<f" in data or b":f" in data else set()
             del data
-            self._raw[name] = RawSheet(name, grid, uncached)
+            self._raw[name] = RawSheet(name, grid, uncached, self._totals_rows(part))
         return self._raw[name]
+
+    def _totals_rows(self, part: str) -> set[int]:
+        """0-based rows that are the totals rows of the sheet's tables (not schedule lines)."""
+        rows: set[int] = set()
+        for rel in _read_rels(self._zip, part):
+            if rel.get("Type") != REL_TABLE or rel.get("TargetMode") == "External":
+                continue
+            tpart = _member(self._zip, _rel_target(part, rel.get("Target", "")))
+            if tpart is None:
+                continue
+            m = re.search(r"<(?:\w+:)?table\b[^>]*>", self._zip.read(tpart).decode("utf-8"))
+            a = _attrs(m.group(0)) if m else {}
+            n = int(a["totalsRowCount"]) if a.get("totalsRowCount", "").isdigit() else 0
+            end = re.fullmatch(r"[A-Za-z]+\d+:[A-Za-z]+(\d+)", a.get("ref", ""))
+            if n and end:
+                last = int(end.group(1)) - 1
+                rows.update(range(last - n + 1, last + 1))
+        return rows
 
     def save(self, edits: list[SheetEdits], out: Path, new_sheets=(), allow_loss: bool = False) -> list[str]:
         pkg = _Package(self._zip)
@@ -186,12 +239,82 @@ class XlsxBook:
 
         losses: list[str] = []
 
+        edited = {self._part(e.sheet) for e in edits}
+
         def verify(tmp: Path) -> None:
-            VERIFIERS[out.suffix.lower()](tmp)
-            losses.extend(post_write_check(tmp, before, written, names, pkg.removed, allow_loss=allow_loss))
+            with zipfile.ZipFile(tmp) as z:
+                fixes = _calamine_fixes(z, self._fixed)
+                if fixes:  # calamine reads a mended copy of this workbook (see _calamine_fixes)
+                    if z.testzip() is not None:
+                        raise WorkbookError("the written file failed its check (a part is corrupt)")
+                    reopened = _calamine(tmp, z, fixes)
+            if not fixes:
+                reopened = VERIFIERS[out.suffix.lower()](tmp)
+            with zipfile.ZipFile(tmp) as z:
+                _check_package(z, self._zip, edited, pkg.owned)
+            losses.extend(post_write_check(tmp, before, written, names, pkg.removed, reopened=reopened,
+                                           allow_loss=allow_loss))
 
         atomic_write(out, write, like=self.path, verify=verify)
         return losses
+
+
+def _check_package(out: zipfile.ZipFile, inp: zipfile.ZipFile, edited: set[str], owned: set[str]) -> None:
+    """The written package before it replaces anything: no two part names or sheet names equal
+    ignoring case, and no relationship of a person's part added, dropped or changed, but for
+    the notes (comments and their drawing) of the sheets lagsheet writes in, the workbook's
+    relationships to lagsheet's new sheets, and to a styles part when it had none. Raises
+    WorkbookError (nothing is written).
+    """
+    tail = "; nothing was written. Please report this with the workbook"
+    seen: dict[str, str] = {}
+    for n in out.namelist():
+        if n.lower() in seen:
+            raise WorkbookError(f"the written file would hold two parts named {seen[n.lower()]} and {n}, "
+                                f"which spreadsheet programs take for one{tail}")
+        seen[n.lower()] = n
+    wb_part = _workbook_part(out)
+    sheets: dict[str, str] = {}
+    for m in re.finditer(r"<(?:\w+:)?sheet\b[^>]*>", out.read(wb_part).decode("utf-8")):
+        name = _unescape(_attrs(m.group(0)).get("name", ""))
+        if name.casefold() in sheets:
+            raise WorkbookError(f"the written file would hold two sheets named {sheets[name.casefold()]!r} "
+                                f"and {name!r}, which spreadsheet programs take for one{tail}")
+        sheets[name.casefold()] = name
+    before = {n.lower() for n in inp.namelist()}
+    with_rels = {n.lower() for z in (inp, out) for n in z.namelist() if n.lower().endswith(".rels")}
+    allowed = {REL_COMMENTS, REL_VML}
+    for part in inp.namelist():
+        if part in owned or _rels_path(part).lower() not in with_rels:
+            continue
+        old, new = _rels_by_id(inp, part), _rels_by_id(out, part)
+        if old == new:
+            continue
+        for rid, rel in new.items():
+            if old.get(rid) == rel:
+                continue
+            rtype, external, target = rel
+            fresh = not external and target not in before
+            no_styles = not any(t == REL_STYLES for t, _e, _t in old.values())  # then ours is the first
+            if rid in old or not fresh or not (
+                    (part in edited and rtype in allowed) or (part == wb_part and rtype == REL_WORKSHEET)
+                    or (part == wb_part and rtype == REL_STYLES and no_styles)):
+                raise WorkbookError(f"the written file would give the workbook's part {part} a relationship "
+                                    f"it did not have (to {target}){tail}")
+        dropped = sorted(set(old) - set(new))
+        if dropped:
+            raise WorkbookError(f"the written file would lose the relationship {dropped[0]} of the workbook's "
+                                f"part {part}{tail}")
+
+
+def _rels_by_id(zf: zipfile.ZipFile, part: str) -> dict[str, tuple[str, bool, str]]:
+    """``part``'s relationships: Id -> (type, external, target part in lower case or external address)."""
+    out = {}
+    for r in _read_rels(zf, part):
+        external = r.get("TargetMode") == "External"
+        target = r.get("Target", "")
+        out[r.get("Id", "")] = (r.get("Type", ""), external, target if external else _rel_target(part, target).lower())
+    return out
 
 
 def _unescape(s: str) -> str:
@@ -202,8 +325,64 @@ def _unescape(s: str) -> str:
 def _workbook_part(zf: zipfile.ZipFile) -> str:
     for r in _read_rels(zf, ""):
         if r.get("Type", "").endswith("/officeDocument"):
-            return _rel_target("", r["Target"])
-    return "xl/workbook.xml"
+            target = _rel_target("", r["Target"])
+            return _member(zf, target) or target
+    return _member(zf, "xl/workbook.xml") or "xl/workbook.xml"
+
+
+# Sheets calamine reads; any other kind (an Excel 4 macro sheet) makes it refuse the whole workbook.
+_CALAMINE_KINDS = ("worksheet", "chartsheet", "dialogsheet")
+# A merge of whole columns ('A:A') or rows ('3:5'): calamine refuses the sheet that has one.
+_LINE_MERGE = re.compile(rb'(<(?:\w+:)?mergeCell\b[^>]*?\bref=")([A-Za-z]{1,3}:[A-Za-z]{1,3}|\d{1,7}:\d{1,7})"')
+
+
+def _calamine_fixes(zf: zipfile.ZipFile, sheet_parts: Iterable[str]) -> dict[str, bytes]:
+    """Parts to mend in the copy of the package that calamine reads (never in what is written).
+
+    The workbook part loses its ``<sheet>`` entries that are not a worksheet, a chart sheet
+    or a dialog sheet (Excel 4 macro sheets: lagsheet never reads them, and they stay in
+    the output as they were); each part of ``sheet_parts`` with a merge of whole columns or
+    rows gets it written as the cell range it covers ('A:A' -> 'A1:A1048576').
+    """
+    out: dict[str, bytes] = {}
+    wb_part = _workbook_part(zf)
+    rels = {r.get("Id"): r for r in _read_rels(zf, wb_part)}
+    xml = zf.read(wb_part).decode("utf-8")
+
+    def keep(m: re.Match) -> str:
+        rid = next((v for k, v in _attrs(m.group(0)).items() if k.endswith(":id")), None)
+        kind = rels.get(rid, {}).get("Type", "").rsplit("/", 1)[-1]
+        return m.group(0) if kind in _CALAMINE_KINDS else ""
+
+    mended = re.sub(r"<(?:\w+:)?sheet\b[^>]*?(?:/>|>.*?</(?:\w+:)?sheet>)", keep, xml, flags=re.S)
+    if mended != xml:
+        out[wb_part] = mended.encode("utf-8")
+
+    def whole(m: re.Match) -> bytes:
+        a, b = m.group(2).split(b":")
+        ref = b"A" + a + b":XFD" + b if a.isdigit() else a + b"1:" + b + b"1048576"
+        return m.group(1) + ref + b'"'
+
+    for part in sheet_parts:
+        data = zf.read(part)
+        fixed = _LINE_MERGE.sub(whole, data)
+        if fixed != data:
+            out[part] = fixed
+    return out
+
+
+def _calamine(path: Path, zf: zipfile.ZipFile, fixes: dict[str, bytes]):
+    """calamine's workbook of ``path``; with ``fixes``, of a copy in memory with those parts mended."""
+    import python_calamine
+
+    if not fixes:
+        return python_calamine.CalamineWorkbook.from_path(str(path))
+    buf = io.BytesIO()
+    with zipfile.ZipFile(buf, "w", zipfile.ZIP_STORED) as copy_:
+        for info in zf.infolist():
+            copy_.writestr(info.filename, fixes.get(info.filename) or zf.read(info.filename))
+    buf.seek(0)
+    return python_calamine.CalamineWorkbook.from_filelike(buf)
 
 
 _CELL = re.compile(r"<(\w+:)?c\b([^>]*?)(?:/>|>(.*?)</\1?c>)", re.S)
@@ -235,13 +414,32 @@ class _Package:
     def __init__(self, zf: zipfile.ZipFile):
         self.zf = zf
         self.names = set(zf.namelist())
+        self.lower = {n.lower(): n for n in self.names}
         self.out: dict[str, bytes] = {}
         self.streams: dict[str, tuple[Callable[[], Iterable[str]], int]] = {}  # part -> (pieces, size hint)
         self.removed: set[str] = set()
-        self.styles = _Styles(self.read("xl/styles.xml"))
+        self.owned: set[str] = set()  # parts of lagsheet's own sheets from an earlier run, replaced now
         self.content_types = self.read("[Content_Types].xml")
+        # the styles part is where the workbook's relationship says, not always xl/styles.xml
+        wb_part = _workbook_part(zf)
+        target = next((r.get("Target", "") for r in _read_rels(zf, wb_part) if r.get("Type") == REL_STYLES
+                       and r.get("TargetMode") != "External"), None)
+        self.styles_part = _rel_target(wb_part, target) if target else None
+        self.styles = _Styles(self.read(self.styles_part) if self.styles_part else "")
+
+    def actual(self, name: str) -> str:
+        """The name a part already goes by, ignoring case (part names compare so), else ``name``."""
+        if name in self.names or name in self.out or name in self.streams:
+            return name
+        low = name.lower()
+        for pool in (self.out, self.streams):
+            for n in pool:
+                if n.lower() == low:
+                    return n
+        return self.lower.get(low, name)
 
     def read(self, name: str) -> str:
+        name = self.actual(name)
         if name in self.streams:  # read back after it was patched: materialise it
             self.write(name, "".join(self.streams[name][0]()))
         if name in self.out:
@@ -249,17 +447,21 @@ class _Package:
         return self.zf.read(name).decode("utf-8") if name in self.names and name not in self.removed else ""
 
     def write(self, name: str, text: str) -> None:
+        name = self.actual(name)
         self.streams.pop(name, None)
         self.out[name] = text.encode("utf-8")
         self.removed.discard(name)
 
     def write_stream(self, name: str, pieces: Callable[[], Iterable[str]], size_hint: int) -> None:
         """A part written later from ``pieces()`` (strings), straight into the zip."""
+        name = self.actual(name)
         self.out.pop(name, None)
         self.streams[name] = (pieces, size_hint)
         self.removed.discard(name)
 
     def exists(self, name: str) -> bool:
+        """Whether a part of that name, ignoring case, is in the package being written."""
+        name = self.actual(name)
         return (name in self.names and name not in self.removed) or name in self.out or name in self.streams
 
     def free(self, pattern: str) -> str:
@@ -269,22 +471,37 @@ class _Package:
         return pattern.format(n)
 
     def add_rel(self, part: str, rtype: str, target: str) -> str:
+        """The Id of ``part``'s relationship of type ``rtype`` to ``target``: the one it has, or a new one."""
         path = _rels_path(part)
         xml = self.read(path) or (f'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
                                   f'<Relationships xmlns="{NS_PKG_REL}"></Relationships>')
+        want = _rel_target(part, target).lower()
+        for m in re.finditer(r"<(?:\w+:)?Relationship\b[^>]*>", xml):
+            a = _attrs(m.group(0))
+            if (a.get("Type") == rtype and a.get("TargetMode") != "External"
+                    and _rel_target(part, a.get("Target", "")).lower() == want):
+                return a.get("Id", "")
         ids = set(re.findall(r'\bId="([^"]*)"', xml))
         k = 1
         while f"rIdLs{k}" in ids:
             k += 1
         rid = f"rIdLs{k}"
-        close = re.search(r"</(\w+:)?Relationships>", xml)
+        close = re.search(r"</(\w+:)?Relationships\s*>", xml)
+        if close is None:  # an empty <Relationships/>, as some export libraries write for every sheet
+            empty = re.search(r"<((?:\w+:)?)Relationships\b([^>]*?)\s*/>", xml)
+            if empty is None:
+                raise WorkbookError(f"the package part {path} is damaged (no relationships element); "
+                                    "save the workbook again in a spreadsheet program")
+            xml = (xml[:empty.start()] + f"<{empty.group(1)}Relationships{empty.group(2)}>"
+                   f"</{empty.group(1)}Relationships>" + xml[empty.end():])
+            close = re.search(r"</(\w+:)?Relationships\s*>", xml)
         p = close.group(1) or ""
         xml = xml[:close.start()] + f'<{p}Relationship Id="{rid}" Type="{rtype}" Target="{target}"/>' + xml[close.start():]
         self.write(path, xml)
         return rid
 
     def override(self, part: str, ctype: str) -> None:
-        if f'PartName="/{part}"' in self.content_types:
+        if f'partname="/{part.lower()}"' in self.content_types.lower():
             return
         close = self.content_types.rfind("</")
         self.content_types = (self.content_types[:close] + f'<Override PartName="/{part}" ContentType="{ctype}"/>'
@@ -298,15 +515,21 @@ class _Package:
                               + self.content_types[m.end():])
 
     def remove(self, part: str) -> None:
+        part = self.actual(part)
         self.out.pop(part, None)
         self.streams.pop(part, None)
         self.removed.add(part)
         self.content_types = re.sub(rf'<(\w+:)?Override\b[^>]*PartName="/{re.escape(part)}"[^>]*/>', "",
-                                    self.content_types)
+                                    self.content_types, flags=re.I)
 
     def finish(self) -> dict[str, bytes]:
         if self.styles.changed:
-            self.write("xl/styles.xml", self.styles.xml)
+            if self.styles_part is None:  # a workbook without one: ours, related and typed
+                wb_part = _workbook_part(self.zf)
+                self.styles_part = self.free("xl/styles{}.xml") if self.exists("xl/styles.xml") else "xl/styles.xml"
+                self.add_rel(wb_part, REL_STYLES, posixpath.relpath(self.styles_part, posixpath.dirname(wb_part)))
+            self.override(self.styles_part, CT_STYLES)
+            self.write(self.styles_part, self.styles.xml)
         if self.content_types != self.zf.read("[Content_Types].xml").decode("utf-8"):
             self.write("[Content_Types].xml", self.content_types)
         return self.out
@@ -335,10 +558,12 @@ class _SheetPatch:
     def run(self) -> None:
         by_row = self._by_row = self._rows_of_edits()
         self._split()
+        self._merges_over(by_row)
         self._dimension(by_row)
         self._cols()
         self._tables()
         self._comments()
+        self._page_setup()
         self.xml = ""  # the pieces hold it now
         self.pkg.write_stream(self.part, self._stream, _size_hint(self.head, self.inner, self.tail, self.e))
 
@@ -543,6 +768,27 @@ class _SheetPatch:
             pos = body.find(f"</{p}c>", close) + len(f"</{p}c>")
         return pos if not res[1].search(body, pos) else None
 
+    def _merges_over(self, by_row: dict[int, list]) -> None:
+        """Refuse when a merged range of the sheet would hide a cell lagsheet writes (any cell of
+        a merge but its first is hidden by spreadsheet programs)."""
+        refs = re.findall(rf'<{re.escape(self.p)}mergeCell\b[^>]*?\bref="([^"]*)"', self.tail)
+        if not refs or not by_row:
+            return
+        rows = sorted(by_row)
+        for ref in refs:
+            box = _ref_box(ref)
+            if box is None:
+                continue
+            r0, c0, r1, c1 = box
+            lo = bisect.bisect_left(rows, r0)
+            for r in rows[lo:bisect.bisect_right(rows, r1)]:
+                hit = next((c for c in by_row[r][0::3] if c0 <= c <= c1 and (r, c) != (r0, c0)), None)
+                if hit is not None:
+                    raise WorkbookError(
+                        f"sheet {self.e.sheet!r} has the cells {ref} merged, and lagsheet writes in "
+                        f"{address(r, hit)} among them, where its result would be hidden; unmerge those "
+                        "cells (or clear that merge), then run lagsheet again")
+
     def _dimension(self, cells) -> None:
         pat = re.compile(rf'<{re.escape(self.p)}dimension\b[^>]*\bref="([^"]*)"')
         where = "head"
@@ -595,6 +841,42 @@ class _SheetPatch:
 
     # -- the Lines table -------------------------------------------------------------------
 
+    def _page_setup(self) -> None:
+        """A sheet with no page setup of its own prints landscape, so many pages wide that text keeps
+        about two thirds of its size (all of it on one page when it is narrow enough). A page setup
+        the user chose is kept as it is."""
+        p = self.p
+        if not self.e.values or re.search(rf"<{p}pageSetup\b", self.tail) or re.search(r"\bfitToPage=", self.head):
+            return  # notes only (check --annotate), or the user's own setup
+        widths: dict[int, float] = {}
+        default = re.search(r'<(?:\w+:)?sheetFormatPr\b[^>]*\b(?:defaultColWidth|baseColWidth)="([\d.]+)"',
+                            self.head)
+        default_w = float(default.group(1)) if default and "defaultColWidth" in default.group(0) else 8.43
+        for m in re.finditer(r"<(?:\w+:)?col\b[^>]*>", self.head):
+            a = _attrs(m.group(0))
+            try:
+                lo, hi, w = int(a["min"]), int(a["max"]), float(a.get("width", default_w))
+            except (KeyError, ValueError):
+                continue
+            for c in range(lo - 1, min(hi, self._max_col + 1)):
+                widths[c] = 0.0 if a.get("hidden") in ("1", "true") else w
+        total = sum(widths.get(c, default_w) for c in range(self._max_col + 1))
+        wide = max(1, -(-int(total) // CHARS_PER_PAGE))
+        follow = re.search(rf"<{p}(?:{'|'.join(_AFTER_PAGE_SETUP)})\b", self.tail)
+        at = follow.start() if follow else self.tail.rindex("</")
+        self.tail = self.tail[:at] + _PAGE_SETUP.format(p=p, wide=wide) + self.tail[at:]
+        fit = f'<{p}pageSetUpPr fitToPage="1"/>'
+        if re.search(rf"<{p}pageSetUpPr\b", self.head):  # there, without fitToPage
+            self.head = re.sub(rf"<{p}pageSetUpPr\b", f'<{p}pageSetUpPr fitToPage="1"', self.head, count=1)
+        elif m := re.search(rf"<{p}sheetPr\b[^>]*?/>", self.head):
+            self.head = (self.head[:m.start()] + m.group(0)[:-2].rstrip() + f">{fit}</{p}sheetPr>"
+                         + self.head[m.end():])
+        elif m := re.search(rf"</{p}sheetPr>", self.head):  # pageSetUpPr is the last of its children
+            self.head = self.head[:m.start()] + fit + self.head[m.start():]
+        else:
+            m = re.search(rf"<{p}worksheet\b[^>]*>", self.head)
+            self.head = self.head[:m.end()] + f"<{p}sheetPr>{fit}</{p}sheetPr>" + self.head[m.end():]
+
     def _tables(self) -> None:
         hr = self.e.header_row
         all_headers = {(r, c): v for (r, c), v in self.e.values.items() if r == hr and v is not None}
@@ -618,8 +900,11 @@ class _SheetPatch:
                 continue
             last = max([c1] + new_cols)
             ref = f"{m.group(2)}{r0 + 1}:{column_letter(last)}{r1 + 1}"
+            totals = _attrs(re.search(r"<(?:\w+:)?table\b[^>]*>", txml).group(0)).get("totalsRowCount", "0")
+            below = int(totals) if totals.isdigit() else 0  # the totals row: in the table, not in its filter
+            filter_ref = f"{m.group(2)}{r0 + 1}:{column_letter(last)}{max(r1 - below, r0) + 1}"
             txml = re.sub(r'(<(?:\w+:)?table\b[^>]*\bref=")[^"]*"', rf'\g<1>{ref}"', txml, count=1)
-            txml = re.sub(r'(<(?:\w+:)?autoFilter\b[^>]*\bref=")[^"]*"', rf'\g<1>{ref}"', txml, count=1)
+            txml = re.sub(r'(<(?:\w+:)?autoFilter\b[^>]*\bref=")[^"]*"', rf'\g<1>{filter_ref}"', txml, count=1)
             ids = [int(x) for x in re.findall(r'<(?:\w+:)?tableColumn\b[^>]*\bid="(\d+)"', txml)]
             next_id = max(ids, default=0) + 1
             added = ""
@@ -701,6 +986,22 @@ class _SheetPatch:
         self.tail = tail[:pos] + tag + tail[pos:]
 
 
+def _ref_box(ref: str) -> tuple[int, int, int, int] | None:
+    """'B2:D5' -> 0-based (first row, first col, last row, last col); whole columns ('A:C') and
+    rows ('3:4') cover the sheet's full height or width; None for what is not a range."""
+    m = re.fullmatch(r"\$?([A-Za-z]{0,3})\$?(\d*)(?::\$?([A-Za-z]{0,3})\$?(\d*))?", ref.strip())
+    if not m:
+        return None
+    a_col, a_row, b_col, b_row = m.group(1), m.group(2), m.group(3), m.group(4)
+    if b_col is None and b_row is None:
+        b_col, b_row = a_col, a_row
+    if bool(a_col) != bool(b_col) or bool(a_row) != bool(b_row) or not (a_col or a_row):
+        return None
+    r0, r1 = (int(a_row) - 1, int(b_row) - 1) if a_row else (0, 1048575)
+    c0, c1 = (_col_index(a_col), _col_index(b_col)) if a_col else (0, 16383)
+    return min(r0, r1), min(c0, c1), max(r0, r1), max(c0, c1)
+
+
 def _rel_prefix(xml: str) -> str | None:
     """The prefix the root element declares for the relationships namespace, if any."""
     root = re.search(r"<(?!\?)[^>]*>", xml)
@@ -726,85 +1027,282 @@ def _cell_xml(p: str, ref: str, v: Any, style: str | None, fmt: str | None, styl
             f"</{p}is></{p}c>")
 
 
+# CT_Stylesheet's children in the order its schema fixes (ECMA-376 Part 1, sml.xsd)
+_STYLE_ORDER = ("numFmts", "fonts", "fills", "borders", "cellStyleXfs", "cellXfs", "cellStyles", "dxfs",
+                "tableStyles", "colors", "extLst")
+# the entries each list holds, and the one a list created from nothing starts with (so that an
+# index 0 that cells already use without a styles part keeps meaning "the default")
+_STYLE_ENTRY = {"numFmts": "numFmt", "fonts": "font", "fills": "fill", "borders": "border",
+                "cellStyleXfs": "xf", "cellXfs": "xf", "cellStyles": "cellStyle"}
+_STYLE_BASE = {
+    "fonts": ['<{p}font><{p}sz val="11"/><{p}name val="Calibri"/><{p}family val="2"/></{p}font>'],
+    "fills": ['<{p}fill><{p}patternFill patternType="none"/></{p}fill>',
+              '<{p}fill><{p}patternFill patternType="gray125"/></{p}fill>'],
+    "borders": ["<{p}border><{p}left/><{p}right/><{p}top/><{p}bottom/><{p}diagonal/></{p}border>"],
+    "cellStyleXfs": ['<{p}xf numFmtId="0" fontId="0" fillId="0" borderId="0"/>'],
+    "cellXfs": ['<{p}xf numFmtId="0" fontId="0" fillId="0" borderId="0" xfId="0"/>'],
+    "cellStyles": ['<{p}cellStyle name="Normal" xfId="0" builtinId="0"/>'],
+}
+NS_MC = "http://schemas.openxmlformats.org/markup-compatibility/2006"
+
+
+@dataclass(slots=True)
+class _El:
+    """One element of the styles part: its expanded name, attributes and byte offsets."""
+
+    ns: str
+    name: str
+    attrs: dict[str, str]
+    start: int  # the '<' of its start tag
+    open_end: int  # just after its start tag
+    end: int = -1  # just after its end tag (== open_end when the tag is empty)
+    kids: list[_El] = field(default_factory=list)
+
+    @property
+    def empty(self) -> bool:
+        return self.end == self.open_end
+
+
+_START_TAG = re.compile(rb"""<[^\s/>]+(?:\s+[^\s=/>]+\s*=\s*(?:"[^"]*"|'[^']*'))*\s*/?>""")
+
+
+def _tag_end(data: bytes, i: int) -> int:
+    """The offset just after the start tag that begins at ``i`` ('>' inside a quoted value skipped)."""
+    m = _START_TAG.match(data, i)
+    if m is None:
+        raise ValueError("unterminated tag")
+    return m.end()
+
+
+def _parse_styles(data: bytes, depth: int = 4) -> tuple[_El, set[int]]:
+    """The element tree of a styles part down to ``depth`` levels below the root (byte offsets for
+    the root and its children, the only ones ever spliced at), and every numFmtId used anywhere.
+    An XML parser does it, so markup inside comments, CDATA or attribute values is never taken
+    for an element."""
+    import xml.parsers.expat
+
+    p = xml.parsers.expat.ParserCreate(encoding="utf-8", namespace_separator=" ")
+    stack: list[_El] = []
+    root: list[_El] = []
+    ids: set[int] = set()
+    skipped = [0]
+
+    def start(name, attrs):
+        fid = attrs.get("numFmtId")
+        if fid is not None and fid.isdigit():
+            ids.add(int(fid))
+        if skipped[0] or len(stack) > depth or (len(stack) >= 3 and stack[-1].ns != NS_MC):
+            skipped[0] += 1  # below an entry: nothing counted there (AlternateContent's branches are)
+            return
+        ns, _, local = name.rpartition(" ")
+        if len(stack) <= 1:
+            i = p.CurrentByteIndex
+            el = _El(ns, local, attrs, i, _tag_end(data, i))
+        else:
+            el = _El(ns, local, attrs, -1, -1)
+        (stack[-1].kids if stack else root).append(el)
+        stack.append(el)
+
+    def end(name):
+        if skipped[0]:
+            skipped[0] -= 1
+            return
+        el = stack.pop()
+        if el.start >= 0:
+            i = p.CurrentByteIndex
+            el.end = el.open_end if data[el.open_end - 2] == 0x2F else data.index(b">", i) + 1  # '/>': empty
+
+    def no_dtd(*_args):
+        raise ValueError("a document type declaration")
+
+    p.StartElementHandler, p.EndElementHandler = start, end
+    p.StartDoctypeDeclHandler = no_dtd
+    p.Parse(data, True)
+    return root[0], ids
+
+
 class _Styles:
-    """Adds the few cell formats lagsheet needs to styles.xml, keeping everything else."""
+    """Adds the few cell formats lagsheet needs to the styles part, keeping everything else.
+
+    The part is parsed once (expat, with byte offsets), never searched for tags: an index
+    is the position among the list's entries, where an ``mc:AlternateContent`` stands for
+    the entries of the branch a current spreadsheet program takes (its first Choice). New
+    entries are kept aside and spliced into the original text when :attr:`xml` is asked
+    for; a list the part lacks is created in the schema's order, starting with the default
+    entry (index 0 keeps meaning the default).
+    """
 
     def __init__(self, xml: str):
-        self.xml = xml
-        self.changed = False
         self._fmt: dict[str, str] = {}
         self._quote: dict[str | None, str] = {}
-        m = re.search(r"<(\w+:)?styleSheet\b", xml)
-        self.p = (m.group(1) or "") if m else ""
+        self._bold: int | None = None
+        self._new: dict[str, list[str]] = {}  # list name -> entries added, in order
+        self._new_fmts: dict[str, int] = {}  # format code -> the numFmtId we gave it
+        if not xml.strip():
+            xml = (f'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
+                   f'<styleSheet xmlns="{NS_MAIN}"/>')
+        self._data = xml.encode("utf-8")
+        try:
+            self._root, self._ids = _parse_styles(self._data)
+        except Exception as exc:  # expat's or ours: either way the part cannot be parsed
+            raise WorkbookError("the workbook's styles part cannot be read (not well-formed XML); "
+                                "open the file in a spreadsheet program and save it again") from exc
+        if self._root.name != "styleSheet" or self._root.ns != NS_MAIN:
+            raise WorkbookError("the workbook's styles part is not a spreadsheet style sheet; "
+                                "open the file in a spreadsheet program and save it again")
+        m = re.match(rb"<([\w.-]+:)?styleSheet\b", self._data[self._root.start:self._root.open_end])
+        self.p = (m.group(1) or b"").decode("utf-8")
+        self._lists: dict[str, _El] = {}
+        for k in self._root.kids:
+            if k.ns == NS_MAIN and k.name in _STYLE_ORDER:
+                self._lists.setdefault(k.name, k)
+        self._counts = {name: len(self._entries(lst, _STYLE_ENTRY[name]))
+                        for name, lst in self._lists.items() if name in _STYLE_ENTRY}
+        self._based = False
+
+    @property
+    def changed(self) -> bool:
+        return bool(self._new)
+
+    @staticmethod
+    def _entries(lst: _El, entry: str) -> list[_El]:
+        """The list's entries in index order (an AlternateContent: its first Choice, else its Fallback)."""
+        out = []
+        for k in lst.kids:
+            if k.ns == NS_MC and k.name == "AlternateContent":
+                branches = ([b for b in k.kids if b.ns == NS_MC and b.name == "Choice"]
+                            or [b for b in k.kids if b.ns == NS_MC and b.name == "Fallback"])
+                if branches:
+                    out += [e for e in branches[0].kids if e.ns == NS_MAIN and e.name == entry]
+            elif k.ns == NS_MAIN and k.name == entry:
+                out.append(k)
+        return out
+
+    def _count(self, name: str) -> int:
+        return self._counts.get(name, 0) + len(self._new.get(name, ()))
+
+    def _append(self, name: str, entries: list[str]) -> int:
+        """Add entries (XML with '{p}' for the prefix) to list ``name``; the first one's index."""
+        index = self._count(name)
+        self._new.setdefault(name, []).extend(e.format(p=self.p) for e in entries)
+        return index
+
+    @property
+    def xml(self) -> str:
+        """The part with the added entries spliced in (counts updated, missing lists created)."""
+        p, data, root = self.p, self._data, self._root
+        edits: list[tuple[int, int, int, str]] = []  # (start, end, order, text)
+        created = []
+        for name, entries in self._new.items():
+            lst = self._lists.get(name)
+            body = "".join(entries)
+            rank = _STYLE_ORDER.index(name)
+            if lst is None:
+                created.append((rank, f'<{p}{name} count="{len(entries)}">{body}</{p}{name}>'))
+                continue
+            head = data[lst.start:lst.open_end].decode("utf-8")
+            if re.search(r'\scount\s*=', head):
+                head = re.sub(r'(\scount\s*=\s*)("[^"]*"|\'[^\']*\')', rf'\g<1>"{self._count(name)}"', head, count=1)
+            if lst.empty:
+                edits.append((lst.start, lst.end, rank, head[:-2].rstrip() + f">{body}</{p}{name}>"))
+            else:
+                close = data.rindex(b"</", lst.start, lst.end)
+                edits.append((lst.start, lst.open_end, rank, head))
+                edits.append((close, close, rank, body))
+        if created and root.empty:
+            head = data[root.start:root.open_end].decode("utf-8")
+            edits.append((root.start, root.end, 0, head[:-2].rstrip() + ">"
+                          + "".join(t for _, t in sorted(created)) + f"</{p}styleSheet>"))
+        else:
+            for rank, text in created:
+                follow = next((k for k in root.kids if k.ns == NS_MAIN and k.name in _STYLE_ORDER
+                               and _STYLE_ORDER.index(k.name) > rank), None)
+                at = follow.start if follow else data.rindex(b"</", root.start, root.end)
+                edits.append((at, at, rank, text))
+        out, prev = [], 0
+        for start, end, _rank, text in sorted(edits):
+            out += [data[prev:start], text.encode("utf-8")]
+            prev = end
+        out.append(data[prev:])
+        return b"".join(out).decode("utf-8")
+
+    def _base(self) -> None:
+        """Give a part that lacks them the lists our cell formats refer to, each with its default."""
+        if not self._based:
+            self._based = True
+            for name in ("fonts", "fills", "borders", "cellStyleXfs", "cellXfs", "cellStyles"):
+                if not self._count(name):
+                    self._append(name, _STYLE_BASE[name])
 
     BUILTIN = {"0": 1, "0.00": 2, "#,##0": 3, "#,##0.00": 4, "@": 49}
 
     def _num_fmt_id(self, code: str) -> int:
         if code in self.BUILTIN:
             return self.BUILTIN[code]
-        for m in re.finditer(r'<(?:\w+:)?numFmt\b[^>]*numFmtId="(\d+)"[^>]*formatCode="([^"]*)"', self.xml):
-            if _unescape(m.group(2)) == code:
-                return int(m.group(1))
-        ids = [int(x) for x in re.findall(r'numFmtId="(\d+)"', self.xml)]
-        new = max([163] + ids) + 1
-        el = f'<{self.p}numFmt numFmtId="{new}" formatCode="{_text(code)}"/>'
-        end = re.search(r"</(\w+:)?numFmts>", self.xml)
-        if end:
-            self.xml = self.xml[:end.start()] + el + self.xml[end.start():]
-            self._recount("numFmts", "numFmt")
-        else:
-            at = re.search(r"<(\w+:)?styleSheet\b[^>]*>", self.xml).end()
-            self.xml = self.xml[:at] + f'<{self.p}numFmts count="1">{el}</{self.p}numFmts>' + self.xml[at:]
-        return new
-
-    def _recount(self, parent: str, child: str) -> None:
-        m = re.search(rf"<(\w+:)?{parent}\b[^>]*>(.*?)</(\w+:)?{parent}>", self.xml, re.S)
-        if not m:
-            return
-        n = len(re.findall(rf"<(?:\w+:)?{child}\b", m.group(2)))
-        head = re.match(rf"<(\w+:)?{parent}\b[^>]*>", m.group(0)).group(0)
-        new_head = re.sub(r'count="\d+"', f'count="{n}"', head) if "count=" in head else head
-        self.xml = self.xml[:m.start()] + new_head + self.xml[m.start() + len(head):]
+        lst = self._lists.get("numFmts")
+        for f in self._entries(lst, "numFmt") if lst is not None else ():
+            if f.attrs.get("formatCode") == code and f.attrs.get("numFmtId", "").isdigit():
+                return int(f.attrs["numFmtId"])
+        if code not in self._new_fmts:
+            new = max([163, *self._ids, *self._new_fmts.values()]) + 1
+            attr = _text(code).replace('"', "&quot;").replace("{", "{{").replace("}", "}}")
+            self._append("numFmts", [f'<{{p}}numFmt numFmtId="{new}" formatCode="{attr}"/>'])
+            self._new_fmts[code] = new
+        return self._new_fmts[code]
 
     def _add_xf(self, xf: str) -> str:
-        m = re.search(r"<(\w+:)?cellXfs\b[^>]*>(.*?)</(\w+:)?cellXfs>", self.xml, re.S)
-        if not m:
-            raise WorkbookError("the workbook's styles part has no cell formats; save it again in a spreadsheet program")
-        index = len(re.findall(r"<(?:\w+:)?xf\b", m.group(2)))
-        self.xml = self.xml[:m.end(2)] + xf + self.xml[m.end(2):]
-        self._recount("cellXfs", "xf")
-        self.changed = True
-        return str(index)
+        self._base()
+        return str(self._append("cellXfs", [xf]))
 
     def xf_for(self, code: str | None, bold: bool = False) -> str:
         key = f"{code}|{bold}"
         if key not in self._fmt:
+            self._base()
             fid = self._num_fmt_id(code) if code else 0
             font = self._bold_font() if bold else 0
             self._fmt[key] = self._add_xf(
-                f'<{self.p}xf numFmtId="{fid}" fontId="{font}" fillId="0" borderId="0" xfId="0" '
+                f'<{{p}}xf numFmtId="{fid}" fontId="{font}" fillId="0" borderId="0" xfId="0" '
                 f'applyNumberFormat="1"{" applyFont=" + chr(34) + "1" + chr(34) if bold else ""}/>')
         return self._fmt[key]
 
     def _bold_font(self) -> int:
-        if getattr(self, "_bold", None) is None:
-            m = re.search(r"<(\w+:)?fonts\b[^>]*>(.*?)</(\w+:)?fonts>", self.xml, re.S)
-            if not m:
-                self._bold = 0
-                return 0
-            index = len(re.findall(r"<(?:\w+:)?font\b", m.group(2)))
-            p = self.p
-            self.xml = self.xml[:m.end(2)] + f'<{p}font><{p}b/><{p}sz val="11"/></{p}font>' + self.xml[m.end(2):]
-            self._recount("fonts", "font")
-            self._bold = index
+        if self._bold is None:
+            self._base()
+            self._bold = self._append("fonts", ['<{p}font><{p}b/><{p}sz val="11"/></{p}font>'])
         return self._bold
 
     def quote_xf(self, base: str | None) -> str:
         if base not in self._quote:
             self._quote[base] = self._add_xf(
-                f'<{self.p}xf numFmtId="49" fontId="0" fillId="0" borderId="0" xfId="0" applyNumberFormat="1" '
+                '<{p}xf numFmtId="49" fontId="0" fillId="0" borderId="0" xfId="0" applyNumberFormat="1" '
                 'quotePrefix="1"/>')
         return self._quote[base]
+
+
+# CT_Font's children in the order the Open XML SDK's schema (and Excel) expects; openpyxl
+# writes name, family, color, sz, scheme, which a schema validator rejects
+_FONT_ORDER = ("b", "i", "strike", "condense", "extend", "outline", "shadow", "u", "vertAlign", "sz",
+               "color", "name", "family", "charset", "scheme")
+
+
+def fonts_in_schema_order(styles_xml: bytes) -> bytes:
+    """The styles part with each font's children reordered as CT_Font's sequence asks.
+
+    For the workbooks lagsheet itself writes through openpyxl (the template, the demo):
+    their fonts hold only empty child elements, which this moves; a font holding anything
+    else is left as it is.
+    """
+    rank = {n: k for k, n in enumerate(_FONT_ORDER)}
+
+    def order(m: re.Match) -> bytes:
+        kids = re.findall(rb"<(\w+)\b[^<>]*/>", m.group(2))
+        whole = re.findall(rb"<\w+\b[^<>]*/>", m.group(2))
+        if b"".join(whole) != m.group(2) or any(k.decode() not in rank for k in kids):
+            return m.group(0)
+        pairs = sorted(zip(kids, whole, strict=True), key=lambda kw: rank[kw[0].decode()])
+        return m.group(1) + b"".join(w for _, w in pairs) + m.group(3)
+
+    return re.sub(rb"(<font>)(.*?)(</font>)", order, styles_xml, flags=re.S)
 
 
 def _strip_our_comments(cxml: str) -> tuple[set[str], set[str], str]:
@@ -912,16 +1410,19 @@ NS_C = "http://schemas.openxmlformats.org/drawingml/2006/chart"
 
 def _put_sheet(pkg: _Package, book: XlsxBook, sheet) -> None:
     """Write a whole sheet of lagsheet's (Summary, Quantities), replacing our earlier one."""
-    name, ours = sheet_name_for(book, sheet.name)
+    name, ours = sheet_name_for(book, sheet.name, book.all_sheet_names())
     if ours:
         part = book._part(name)
+        pkg.owned.add(part)
         for rel in _read_rels(pkg.zf, part):  # our old drawing and chart go with the old sheet
             target = _rel_target(part, rel.get("Target", ""))
             if rel.get("Type") == REL_DRAWING:
                 for r2 in _read_rels(pkg.zf, target):
                     pkg.remove(_rel_target(target, r2.get("Target", "")))
+                    pkg.owned.add(pkg.actual(_rel_target(target, r2.get("Target", ""))))
                 pkg.remove(_rels_path(target))
                 pkg.remove(target)
+                pkg.owned.add(pkg.actual(target))
         pkg.remove(_rels_path(part))
     else:
         part = pkg.free("xl/worksheets/sheet{}.xml")
@@ -970,23 +1471,39 @@ def _put_sheet(pkg: _Package, book: XlsxBook, sheet) -> None:
         crid = pkg.add_rel(d_part, REL_CHART, "../charts/" + posixpath.basename(c_part))
         pkg.override(d_part, CT_DRAWING)
         pkg.override(c_part, CT_CHART)
-        pkg.write(d_part, _drawing_xml(crid, len(sheet.rows) + 1))
+        ncols = max(max((len(r) for r in sheet.rows), default=8), 8)
+        # a landscape page as wide as these columns is about 0.2 rows high per character of width
+        width = sum(sheet.widths.get(c, 8.43) for c in range(ncols))
+        pkg.write(d_part, _drawing_xml(crid, len(sheet.rows) + 2, ncols, max(15, min(40, int(width * 0.2)))))
         pkg.write(c_part, _chart_xml(name, sheet))
         drawing = f'<drawing r:id="{drid}"/>'
+    # printed landscape, as wide as the page; the chart (a row below the break) starts a page of its own
+    breaks = (f'<rowBreaks count="1" manualBreakCount="1"><brk id="{len(sheet.rows) + 1}" max="16383" man="1"/>'
+              "</rowBreaks>") if sheet.chart else ""
     xml = (f'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<worksheet xmlns="{NS_MAIN}" '
-           f'xmlns:r="{NS_REL}"><dimension ref="A1:{column_letter(max((len(r) for r in sheet.rows), default=1) - 1)}'
+           f'xmlns:r="{NS_REL}"><sheetPr><pageSetUpPr fitToPage="1"/></sheetPr>'
+           f'<dimension ref="A1:{column_letter(max((len(r) for r in sheet.rows), default=1) - 1)}'
            f'{max(len(sheet.rows), 1)}"/><sheetViews><sheetView workbookViewId="0"/></sheetViews>'
            f'<sheetFormatPr defaultRowHeight="15"/>' + (f"<cols>{cols}</cols>" if cols else "")
-           + f'<sheetData>{"".join(rows_xml)}</sheetData><pageMargins left="0.7" right="0.7" top="0.75" '
-           f'bottom="0.75" header="0.3" footer="0.3"/>{drawing}</worksheet>')
+           + f'<sheetData>{"".join(rows_xml)}</sheetData><pageMargins left="0.5" right="0.5" top="0.75" '
+           f'bottom="0.75" header="0.3" footer="0.3"/>{_PAGE_SETUP.format(p="", wide=1)}{breaks}{drawing}</worksheet>')
     pkg.write(part, xml)
 
 
-def _drawing_xml(chart_rid: str, row: int) -> str:
+_PAGE_SETUP = '<{p}pageSetup orientation="landscape" fitToWidth="{wide}" fitToHeight="0"/>'
+# what may follow pageSetup in a worksheet (CT_Worksheet's sequence): it goes before the first
+_AFTER_PAGE_SETUP = ("headerFooter", "rowBreaks", "colBreaks", "customProperties", "cellWatches", "ignoredErrors",
+                     "smartTags", "drawing", "legacyDrawing", "legacyDrawingHF", "drawingHF", "picture",
+                     "oleObjects", "controls", "webPublishItems", "tableParts", "extLst")
+CHARS_PER_PAGE = 250  # column width (characters) printed across one landscape page: text at about 2/3 size
+
+
+def _drawing_xml(chart_rid: str, row: int, cols: int = 8, rows: int = 20) -> str:
+    """The chart below the table, as wide as the table (so a page as wide as the table holds it)."""
     return (f'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<xdr:wsDr xmlns:xdr="{NS_DRAW}" '
             f'xmlns:a="{NS_A}"><xdr:twoCellAnchor><xdr:from><xdr:col>0</xdr:col><xdr:colOff>0</xdr:colOff>'
-            f"<xdr:row>{row}</xdr:row><xdr:rowOff>0</xdr:rowOff></xdr:from><xdr:to><xdr:col>8</xdr:col>"
-            f"<xdr:colOff>0</xdr:colOff><xdr:row>{row + 20}</xdr:row><xdr:rowOff>0</xdr:rowOff></xdr:to>"
+            f"<xdr:row>{row}</xdr:row><xdr:rowOff>0</xdr:rowOff></xdr:from><xdr:to><xdr:col>{cols}</xdr:col>"
+            f"<xdr:colOff>0</xdr:colOff><xdr:row>{row + rows}</xdr:row><xdr:rowOff>0</xdr:rowOff></xdr:to>"
             '<xdr:graphicFrame macro=""><xdr:nvGraphicFramePr><xdr:cNvPr id="2" name="lagsheet chart"/>'
             '<xdr:cNvGraphicFramePr/></xdr:nvGraphicFramePr><xdr:xfrm><a:off x="0" y="0"/><a:ext cx="0" cy="0"/>'
             f'</xdr:xfrm><a:graphic><a:graphicData uri="{NS_C}"><c:chart xmlns:c="{NS_C}" '

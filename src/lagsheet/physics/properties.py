@@ -11,8 +11,14 @@ of microseconds and importing CoolProp several seconds. So the tables in
   CoolProp by ``tests/reference/test_air_properties.py``;
 - ``water_saturation.csv``: the partial pressure of water in saturated moist air at
   101 325 Pa (``HAPropsSI('P_w', 'T', T, 'P', 101325, 'R', 1)``, enhancement factor
-  included), 190–360 K every 0.5 K; the dew point inverts it (ln p linear in T), and a
-  test holds it within 0.02 K of ``HAPropsSI('D', ...)``.
+  included; over liquid water above 0 °C, over ice below), 190–360 K every 0.5 K; the
+  dew point inverts it (ln p linear in T), and a test holds it within 0.02 K of
+  ``HAPropsSI('D', ...)`` where the air is above 0 °C.
+
+Relative humidity is taken over liquid water at every temperature, as weather data and
+design conditions give it (the WMO convention); CoolProp's humid-air functions take it
+over ice below 0 °C. :func:`dew_point` converts with the ratio of the saturation
+pressures over supercooled water and over ice (Murphy & Koop 2005).
 
 A test rebuilds both tables from CoolProp and compares them with the shipped files.
 
@@ -117,18 +123,73 @@ def air(t_film: np.ndarray) -> AirProperties:
     return AirProperties(k=k, mu=mu, nu=nu, pr=pr, beta=1.0 / t)
 
 
-def dew_point(t_air: np.ndarray | float, rh: np.ndarray | float) -> np.ndarray:
-    """Dew point [K] of moist air at ``t_air`` [K] and relative humidity ``rh`` [0–1].
+def vapour_pressure_murphy_koop(t: np.ndarray | float, over: str = "water") -> np.ndarray:
+    r"""Saturation vapour pressure [Pa] of pure water vapour over a plane surface of liquid
+    water (``over='water'``, also supercooled) or of ice (``over='ice'``), Murphy & Koop 2005.
 
-    The temperature at which saturated air holds the water of this air:
-    p_ws(T_d) = RH · p_ws(T). NaN for RH 0 or temperatures outside 190–360 K.
+    .. math::
+        \ln e_w = 54.842763 - \frac{6763.22}{T} - 4.210 \ln T + 0.000367\,T
+                  + \tanh\{0.0415\,(T - 218.8)\}
+                    \left(53.878 - \frac{1331.22}{T} - 9.44523 \ln T + 0.014025\,T\right)
+
+        \ln e_i = 9.550426 - \frac{5723.265}{T} + 3.53068 \ln T - 0.00728332\,T
+
+    Parameters
+    ----------
+    t : array_like
+        Temperature [K]; water 123–332 K, ice above 110 K (the paper's ranges).
+    over : {'water', 'ice'}
+
+    Returns
+    -------
+    ndarray
+        e [Pa]. Both forms give 611.657 Pa at the triple point 273.16 K.
+
+    References
+    ----------
+    D. M. Murphy and T. Koop, Review of the vapour pressures of ice and supercooled water
+    for atmospheric applications, Q. J. R. Meteorol. Soc. 131 (2005) 1539-1565,
+    doi:10.1256/qj.04.94, eqs. (7) and (10) (coefficients from memory; the tests hold
+    them to CoolProp's IAPWS values within 0.05 % and to the Alduchov & Eskridge 1996
+    Magnus forms within 0.5 %).
+
+    Examples
+    --------
+    >>> round(float(vapour_pressure_murphy_koop(273.16, "water")), 2)
+    611.66
+    """
+    t = np.asarray(t, dtype=float)
+    if over == "ice":
+        return np.exp(9.550426 - 5723.265 / t + 3.53068 * np.log(t) - 0.00728332 * t)
+    return np.exp(54.842763 - 6763.22 / t - 4.210 * np.log(t) + 0.000367 * t
+                  + np.tanh(0.0415 * (t - 218.8)) * (53.878 - 1331.22 / t - 9.44523 * np.log(t) + 0.014025 * t))
+
+
+T_TRIPLE = 273.16  # K, triple point of water (ITS-90): the table is over ice below it
+
+
+def dew_point(t_air: np.ndarray | float, rh: np.ndarray | float) -> np.ndarray:
+    """Dew point [K] of moist air at ``t_air`` [K] and relative humidity ``rh`` [0–1] over water.
+
+    ``rh`` is relative to liquid water at every air temperature, as weather data and
+    design conditions give it: the vapour pressure is e = RH · e_w(T), over supercooled
+    water below 0 °C. The result is the temperature at which e saturates the air: over
+    water where it lies above 0 °C, over ice (the frost point, where frost forms on a
+    cold surface) below. Below 0 °C, e_w/e_i (:func:`vapour_pressure_murphy_koop`)
+    converts RH to RH over ice, the convention of the shipped table (CoolProp); at
+    −20 °C and 70 % this puts the frost point 2 K above what RH taken over ice gives.
+    NaN for RH 0 or temperatures outside 190–360 K.
     """
     tk, lnp = _water()
     t, r = np.broadcast_arrays(np.atleast_1d(np.asarray(t_air, dtype=float)),
                                np.atleast_1d(np.asarray(rh, dtype=float)))
     inside = (t >= tk[0]) & (t <= tk[-1]) & (r > 0)
+    cold = t < T_TRIPLE
+    tc = np.where(cold & inside, t, T_TRIPLE)
+    to_ice = np.where(cold, np.log(vapour_pressure_murphy_koop(tc, "water") / vapour_pressure_murphy_koop(tc, "ice")),
+                      0.0)
     with np.errstate(divide="ignore"):
-        target = np.interp(t, tk, lnp) + np.log(np.minimum(np.where(r > 0, r, 1.0), 1.0))
+        target = np.interp(t, tk, lnp) + np.log(np.minimum(np.where(r > 0, r, 1.0), 1.0)) + to_ice
     td = np.interp(target, lnp, tk)
     return np.where(inside & (target >= lnp[0]), td, np.nan)
 
