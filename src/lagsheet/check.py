@@ -16,7 +16,7 @@ from typing import Any
 import numpy as np
 
 from . import schema
-from .errors import Note
+from .errors import InputError, Note
 from .io.table import RawSheet, address, fold
 from .units import UnitTextError, is_unit, parse_quantity_text, parse_unit, to_si, unit_label
 
@@ -103,12 +103,41 @@ def _known(fields, row: list) -> int:
     return len(found)
 
 
-def find_header_row(sheet: RawSheet, fields, marker: str) -> tuple[int | None, list[int]]:
+def header_map(pairs: dict[str, str], fields) -> dict[str, str]:
+    """``--map`` pairs 'Their header' -> 'Our header' as folded their name -> our header text.
+
+    Each of ours must be a field of ``fields``; otherwise an :class:`InputError` names the
+    nearest fields.
+    """
+    out = {}
+    for theirs, ours in pairs.items():
+        name = split_header(ours)[0]
+        if schema.match(fields, fold(name)) is None:
+            near = _suggest(name, [f.header.lower() for f in fields])
+            raise InputError(f"--map: {ours!r} is not a column lagsheet reads on this sheet{near}")
+        out[fold(split_header(theirs)[0])] = ours
+    return out
+
+
+def _mapped(text: str, mapping: dict[str, str] | None) -> tuple[str, str | None]:
+    """A header's field name and unit text, after ``--map``: their unit wins, else the one in the map."""
+    name, unit_text = split_header(str(text))
+    if mapping and fold(name) in mapping:
+        ours, ours_unit = split_header(mapping[fold(name)])
+        return ours, unit_text or ours_unit
+    return name, unit_text
+
+
+def find_header_row(sheet: RawSheet, fields, marker: str,
+                    mapping: dict[str, str] | None = None) -> tuple[int | None, list[int]]:
     """The header row: of the rows with a cell equal to ``marker`` or one of its aliases ('Tag',
-    'ID', 'Line'...), the one naming the most known fields (the first of equals); with the
-    other such rows."""
+    'ID', 'Line'...) or a header mapped to it, the one naming the most known fields (the first
+    of equals); with the other such rows."""
     key = next((f for f in fields if fold(f.header) == fold(marker)), None)
-    rows = sheet.header_rows((marker, *key.aliases) if key is not None else marker)
+    names = (marker, *key.aliases) if key is not None else (marker,)
+    names += tuple(t for t, ours in (mapping or {}).items()
+                   if key is not None and schema.match(fields, fold(split_header(ours)[0])) is key)
+    rows = sheet.header_rows(names)
     if len(rows) <= 1:
         return (rows[0] if rows else None), []
     score = {r: _known(fields, sheet.grid[r]) for r in rows}
@@ -116,9 +145,13 @@ def find_header_row(sheet: RawSheet, fields, marker: str) -> tuple[int | None, l
     return best, [r for r in rows if r != best]
 
 
-def read_table(sheet: RawSheet, fields, marker: str) -> Table | None:
-    """Find the header row (:func:`find_header_row`), map headers to fields, convert."""
-    hr, others = find_header_row(sheet, fields, marker)
+def read_table(sheet: RawSheet, fields, marker: str, mapping: dict[str, str] | None = None) -> Table | None:
+    """Find the header row (:func:`find_header_row`), map headers to fields, convert.
+
+    ``mapping`` (from :func:`header_map`) reads a header of the user's as one of ours; a
+    mapped header not in the header row is an error note (code ``map-unused``).
+    """
+    hr, others = find_header_row(sheet, fields, marker, mapping)
     if hr is None:
         return None
     header_cells = sheet.grid[hr]
@@ -128,10 +161,12 @@ def read_table(sheet: RawSheet, fields, marker: str) -> Table | None:
         t.notes.append(Note("info", "header-row",
                             f"row {hr + 1} is taken as the header row of sheet {sheet.name!r}: it names more "
                             f"known columns than row {others[0] + 1} above it", sheet.name, address(hr, 0)))
+    seen = set()
     for c, text in enumerate(header_cells):
         if text in ("", None):
             continue
-        name, unit_text = split_header(str(text))
+        seen.add(fold(split_header(str(text))[0]))
+        name, unit_text = _mapped(text, mapping)
         f = schema.match(fields, fold(name))
         if f is None:
             t.unused.append((c, str(text).strip()))  # the user's own column: never touched, but reported
@@ -142,6 +177,12 @@ def read_table(sheet: RawSheet, fields, marker: str) -> Table | None:
                                 sheet.name, address(hr, c)))
             continue
         cols[f.key] = Column(f, c, str(text).strip(), unit_text)
+    for theirs, ours in (mapping or {}).items():
+        if theirs not in seen:
+            t.notes.append(Note("error", "map-unused",
+                                f"--map names a column {theirs!r} (read as {ours!r}) that is not in the header "
+                                f"row of sheet {sheet.name!r} (row {hr + 1}); give their header as written there",
+                                sheet.name, address(hr, 0)))
     # a units row: most unit-less numeric columns have a unit just below ('m', '[m]', '(F)');
     # a cell there that is no unit is an error on that cell, not a reason to read the row as data
     numeric = [c for c in cols.values() if c.field.kind in (schema.NUMBER, schema.TEMPERATURE, schema.DIFFERENCE)]

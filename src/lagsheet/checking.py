@@ -32,9 +32,10 @@ class CheckOutcome:
     exit_code: int = 0
 
 
-def check(path: Path, sheet: str = "Lines", annotate: Path | None = None) -> CheckOutcome:
+def check(path: Path, sheet: str = "Lines", annotate: Path | None = None,
+          header_map: dict[str, str] | None = None) -> CheckOutcome:
     book = open_book(Path(path))
-    inputs = read_inputs(book, sheet)
+    inputs = read_inputs(book, sheet, header_map)
     out = CheckOutcome(inputs)
     out.notes.extend(inputs.notes)
     t = inputs.lines

@@ -17,6 +17,11 @@ CAUTION = ("Cautions: surface limits for personnel protection depend on contact 
            "licensed practice.")
 
 
+_MAP_HELP = ("'Their header=Our header': read a column of yours as one of lagsheet's inputs, e.g. "
+             "'Insul. mat.=Insulation' or 'Pipe OD=Outside diameter [in]' (their unit wins if their header "
+             "has one). Repeat for more columns.")
+
+
 def _version(value: bool):
     if value:
         typer.echo(f"lagsheet {__version__}")
@@ -88,12 +93,15 @@ def fill(
                                      help="Write even if a spreadsheet program's lock file says the output "
                                           "is open (for a stale lock left by a crash)."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="Print errors only."),
+    map_: list[str] = typer.Option([], "--map", help=_MAP_HELP),
 ):
     from .pipeline import fill as run
 
+    mapping = _map_pairs(map_, "Insulation")
     with _progress(quiet) as stage:
         outcome = _guarded(lambda: run(file, output, sheet=sheet, report_path=report, in_place=in_place,
-                                       ignore_lock=ignore_lock, allow_loss=allow_loss, progress=stage))
+                                       ignore_lock=ignore_lock, allow_loss=allow_loss, progress=stage,
+                                       header_map=mapping))
     _print_summary(outcome, file if in_place else output, quiet)
     raise typer.Exit(outcome.exit_code)
 
@@ -123,6 +131,18 @@ class _progress:
         if self.status is not None:
             self.status.stop()
         return False
+
+
+def _map_pairs(items: list[str], example: str) -> dict[str, str]:
+    """--map 'Their header=Our header' options as a dict; a malformed one is exit 2 with the form."""
+    mapping = {}
+    for m in items:
+        theirs, sep, ours = m.partition("=")
+        if not sep or not theirs.strip() or not ours.strip():
+            typer.echo(f"lagsheet: --map {m!r}: write it as 'Their header={example}'", err=True)
+            raise typer.Exit(2)
+        mapping[theirs.strip()] = ours.strip()
+    return mapping
 
 
 def _guarded(job):
@@ -239,12 +259,15 @@ def check(
     report: Path = typer.Option(None, "--report", dir_okay=False, help="Also write the findings as JSON."),
     sheet: str = typer.Option("Lines", "--sheet", help="The sheet holding the lines."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="Print errors only."),
+    map_: list[str] = typer.Option([], "--map", help=_MAP_HELP),
 ):
     from rich.console import Console
     from rich.markup import escape
     from rich.table import Table
 
     from .checking import check as run
+
+    mapping = _map_pairs(map_, "Insulation")
     from .io.save import writing
 
     _refuse_unsafe(file, (annotate, "annotated copy"), (report, "report"))
@@ -252,7 +275,7 @@ def check(
     def job():
         # the annotated copy and the report are both written and verified before either is renamed
         with writing(inputs=[file], deferred=True):
-            outcome = run(file, sheet, annotate)
+            outcome = run(file, sheet, annotate, mapping)
             if report is not None:
                 from .report import write_json
 
@@ -325,13 +348,7 @@ def audit(
 
     from .audit import audit as run
 
-    mapping = {}
-    for m in map_:
-        theirs, sep, ours = m.partition("=")
-        if not sep or not theirs.strip() or not ours.strip():
-            typer.echo(f"lagsheet: --map {m!r}: write it as 'Their header=Thickness'", err=True)
-            raise typer.Exit(2)
-        mapping[theirs.strip()] = ours.strip()
+    mapping = _map_pairs(map_, "Thickness")
     _refuse_unsafe(file, (report, "report"))
     book, inputs, res = _guarded(lambda: _open_and_specify(file, sheet))
     result = _guarded(lambda: run(inputs, book.sheet(inputs.lines.sheet), res, mapping, surface_k,

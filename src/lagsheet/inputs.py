@@ -13,6 +13,7 @@ import numpy as np
 
 from . import library, plausibility, schema
 from .check import Table, read_table, split_header, unused_columns
+from .check import header_map as check_header_map
 from .errors import Note
 from .io.table import Book, address, fold
 from .units import UnitTextError, from_si, is_unit, parse_unit, split_currency, to_si, unit_label
@@ -67,7 +68,10 @@ def _find(book: Book, wanted: str) -> str | None:
     return None
 
 
-def read_inputs(book: Book, lines_sheet: str = "Lines") -> Inputs:
+def read_inputs(book: Book, lines_sheet: str = "Lines", header_map: dict[str, str] | None = None) -> Inputs:
+    """Every sheet checked and in SI; ``header_map`` ('Their header' -> 'Our header', from
+    ``--map``) reads the user's own Lines headers as ours."""
+    mapping = check_header_map(header_map or {}, schema.LINE_FIELDS)
     notes: list[Note] = []
     columns: list[dict] = []
     settings = _settings(book, notes)
@@ -76,7 +80,7 @@ def read_inputs(book: Book, lines_sheet: str = "Lines") -> Inputs:
     materials = _materials(book, notes, columns, unusable)
     fluids = _fluids(book, notes, columns)
     name = _find(book, lines_sheet)
-    lines = read_table(book.sheet(name), schema.LINE_FIELDS, "Tag") if name else None
+    lines = read_table(book.sheet(name), schema.LINE_FIELDS, "Tag", mapping) if name else None
     if name is None:
         notes.append(Note("error", "no-lines-sheet",
                           f"the workbook has no sheet {lines_sheet!r}; add one with a header row that "

@@ -46,12 +46,13 @@ def backup_path(path: Path) -> Path:
     raise WorkbookError(f"{path.name}: 9,999 backups of it exist beside it; move some away")
 
 
-def load(path: Path, sheet: str = "Lines"):
-    """Open and check a workbook; exit-2 problems (no Lines sheet, header or required column) raise."""
+def load(path: Path, sheet: str = "Lines", header_map: dict[str, str] | None = None):
+    """Open and check a workbook; exit-2 problems (no Lines sheet, header or required column, a
+    --map that names no column) raise."""
     book = open_book(Path(path))
-    inputs = read_inputs(book, sheet)
+    inputs = read_inputs(book, sheet, header_map)
     fatal = [n for n in inputs.notes if n.level == "error" and n.code in
-             ("no-lines-sheet", "no-header", "missing-column")]
+             ("no-lines-sheet", "no-header", "missing-column", "map-unused")]
     if fatal:
         raise WorkbookError("; ".join(n.message for n in fatal))
     return book, inputs
@@ -59,7 +60,7 @@ def load(path: Path, sheet: str = "Lines"):
 
 def fill(path: Path, out: Path | None, *, sheet: str = "Lines", report_path: Path | None = None,
          in_place: bool = False, ignore_lock: bool = False, allow_loss: bool = False,
-         progress=None) -> Outcome:
+         progress=None, header_map: dict[str, str] | None = None) -> Outcome:
     """Size and evaluate every line of ``path`` and write the filled workbook to ``out``.
 
     ``progress``, if given, is called with the name of each stage as it starts
@@ -100,7 +101,7 @@ def fill(path: Path, out: Path | None, *, sheet: str = "Lines", report_path: Pat
                               f"{path.name} is open in a spreadsheet program ({in_lock.by()}): "
                               "the last saved version is read; unsaved changes there are not included"))
     step("reading")
-    book, inputs = load(path, sheet)
+    book, inputs = load(path, sheet, header_map)
     inputs.notes[:0] = notes
     step("solving")
     res = specify(inputs)
