@@ -144,6 +144,7 @@ def write_demo(path: Path) -> None:
     import openpyxl
     from openpyxl.styles import Font
     from openpyxl.worksheet.datavalidation import DataValidation
+    from openpyxl.worksheet.properties import PageSetupProperties
 
     wb = openpyxl.Workbook()
     ws = wb.active
@@ -175,6 +176,12 @@ def write_demo(path: Path) -> None:
             s.append(list(r))
         for cell in s[1]:
             cell.font = Font(bold=True)
+        for k, head in enumerate(rows[0]):  # each column as wide as its header, so the sheet reads and prints
+            width = max(len(str(head)), *(len(str(r[k])) for r in rows[1:] if k < len(r) and r[k] is not None))
+            s.column_dimensions[openpyxl.utils.get_column_letter(k + 1)].width = min(width + 2, 60)
+        s.page_setup.orientation = "landscape"
+        s.sheet_properties.pageSetUpPr = PageSetupProperties(fitToPage=True)
+        s.page_setup.fitToWidth, s.page_setup.fitToHeight = 1, 0
     from .io.save import atomic_write
 
     def write(tmp: str) -> None:
