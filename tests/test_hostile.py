@@ -340,6 +340,11 @@ for job in json.loads(sys.argv[1]):
     pid = os.fork()
     if pid == 0:  # one child per file: its own peak memory, interpreter and imports included
         os.close(r)
+        if job.get("limit_MB"):  # address space: what the interpreter holds now, and this much more
+            with open("/proc/self/status") as fh:
+                vm = next(int(x.split()[1]) for x in fh if x.startswith("VmSize:")) * 1024
+            cap = vm + job["limit_MB"] * 2**20
+            resource.setrlimit(resource.RLIMIT_AS, (cap, cap))
         t = time.perf_counter()
         try:
             if job.get("read_only"):
@@ -365,16 +370,19 @@ for job in json.loads(sys.argv[1]):
             break
         chunks.append(b)
     os.close(r)
-    os.waitpid(pid, 0)
-    print(json.dumps({"name": job["name"], **json.loads(b"".join(chunks))}), flush=True)
+    _, status = os.waitpid(pid, 0)
+    got = json.loads(b"".join(chunks)) if chunks else {"seconds": -1, "peak_MB": -1,
+                                                      "result": f"died: wait status {status}"}
+    print(json.dumps({"name": job["name"], **got}), flush=True)
 """
 
 
-def measure(jobs: list[dict]) -> dict[str, dict]:
-    """Run each job (fill, or only a read) in its own forked child of one fresh interpreter."""
+def measure(jobs: list[dict], timeout: float = 600) -> dict[str, dict]:
+    """Run each job (fill, or only a read) in its own forked child of one fresh interpreter
+    (``limit_MB`` in a job: its address space may grow this much, by ``resource.setrlimit``)."""
     env = dict(os.environ, OPENBLAS_NUM_THREADS="1", OMP_NUM_THREADS="1")
     p = subprocess.run([sys.executable, "-c", MEASURE, json.dumps(jobs)], capture_output=True, text=True,
-                       timeout=600, env=env)
+                       timeout=timeout, env=env)
     assert p.returncode == 0, p.stderr
     rows = [json.loads(line) for line in p.stdout.splitlines()]
     assert len(rows) == len(jobs), p.stdout + p.stderr
@@ -384,7 +392,8 @@ def measure(jobs: list[dict]) -> dict[str, dict]:
 @pytest.fixture(scope="module")
 def measured(hostile, tmp_path_factory):
     out = tmp_path_factory.mktemp("measured-out")
-    return measure([{"name": k, "src": str(p), "out": str(out / f"out{p.suffix}")} for k, (p, _) in hostile.items()])
+    return measure([{"name": k, "src": str(p), "out": str(out / f"out{p.suffix}"), "limit_MB": 400}
+                    for k, (p, _) in hostile.items()], timeout=300)
 
 
 CASES = [
@@ -427,7 +436,8 @@ def test_a_hostile_file_is_refused_with_one_line(hostile, tmp_path, cli, case):
 
 @pytest.mark.parametrize("case", CASES)
 def test_a_hostile_file_is_refused_fast_in_bounded_memory(measured, hostile, case):
-    """The refusal itself takes under 2 s and the process peaks under 200 MB (a noisy machine has margin)."""
+    """The refusal itself takes under 2 s and the process peaks under 200 MB (a noisy machine has margin),
+    with its address space capped at 400 MB above the interpreter's."""
     m = measured[case]
     assert m["result"].startswith("refused: ") and hostile[case][1] in m["result"], m
     assert m["seconds"] < 2.0, m
@@ -690,3 +700,82 @@ def test_an_ods_package_without_content_is_refused(tmp_path):
     """A zip named .ods with no content.xml is not an OpenDocument spreadsheet."""
     with pytest.raises(WorkbookError, match="without content.xml"):
         preflight.check_package(_ods(tmp_path / "empty.ods", {"styles.xml": ODS_CONTENT}))
+
+
+# -- hostile but readable: linear time, bounded memory ----------------------------------------------
+
+
+def _long_attribute(tmp: Path) -> Path:
+    """A 200,000-character single-quoted attribute on the header row and on a cell the fill writes beside."""
+    xml = _sheet_xml(tmp)
+    junk = "x='" + "a" * 200_000 + "'"
+    new = xml.replace('<row r="1">', f'<row r="1" {junk}>', 1).replace('<c r="A2" ', f'<c {junk} r="A2" ', 1)
+    assert new.count(junk) == 2
+    return _with_sheet(tmp, "long-attribute.xlsx", new.encode())
+
+
+def _shapes_in_a_vml_comment(tmp: Path) -> Path:
+    """A person's note whose VML drawing holds a comment of 100,000 '<v:shape>' openings."""
+    src = write_book(tmp / "noted.xlsx", [pipe(), pipe("P-2")])
+    wb = openpyxl.load_workbook(src)
+    wb["Lines"]["B1"].comment = openpyxl.comments.Comment("a person's note", "someone")
+    wb.save(src)
+    with zipfile.ZipFile(src) as z:
+        parts = {n: z.read(n) for n in z.namelist()}
+    vml = next(n for n in parts if n.endswith(".vml"))
+    text = parts[vml].decode()
+    at = text.rindex("</xml>")
+    parts[vml] = (text[:at] + "<!--" + "<v:shape>" * 100_000 + "-->" + text[at:]).encode()
+    return _zip(tmp / "vml-comment.xlsx", parts)
+
+
+def _excel_style_ods(tmp: Path) -> Path:
+    """An .ods whose Lines table ends, as Excel writes it, with styled empty cells repeated to the sheet's end."""
+    return _ods_with(tmp, "excel-style.ods", (
+        '<table:table-row table:number-rows-repeated="1048000"><table:table-cell table:style-name="Default" '
+        'table:number-columns-repeated="16384"/></table:table-row>'))
+
+
+READABLE = {"a 200,000-character single-quoted attribute": _long_attribute,
+            "100,000 '<v:shape>' openings in a VML comment": _shapes_in_a_vml_comment,
+            "an ods with empty cells repeated to the sheet end": _excel_style_ods}
+
+
+@pytest.fixture(scope="module")
+def readable(tmp_path_factory):
+    tmp = tmp_path_factory.mktemp("readable")
+    return {k: make(tmp) for k, make in READABLE.items()}
+
+
+def test_hostile_but_readable_files_are_filled_in_linear_time(readable, tmp_path):
+    """Each is filled (both lines) in under 10 s, its address space capped at 600 MB over the interpreter's;
+    a scan that backtracks over the input (minutes for these) fails the time limit instead of stalling."""
+    m = measure([{"name": k, "src": str(p), "out": str(tmp_path / f"{k[:3]}{p.suffix}"), "limit_MB": 600}
+                 for k, p in readable.items()], timeout=240)
+    for k in READABLE:
+        assert m[k]["result"] == "written", m[k]
+        assert m[k]["seconds"] < 10, m[k]
+
+
+def test_a_person_s_note_survives_a_vml_comment(readable, tmp_path, cli):
+    """The note in the VML drawing with the comment is kept, and the comment with it."""
+    src = readable["100,000 '<v:shape>' openings in a VML comment"]
+    out = tmp_path / "out.xlsx"
+    r = cli("fill", src, "-o", out)
+    assert r.exit_code in (0, 1), r.output
+    with zipfile.ZipFile(out) as z:
+        vml = next(z.read(n).decode() for n in z.namelist() if n.endswith(".vml"))
+        comments = next(z.read(n).decode() for n in z.namelist() if "comments" in n and n.endswith(".xml"))
+    assert "<!--" + "<v:shape>" * 100_000 + "-->" in vml
+    assert "a person&apos;s note" in comments or "a person's note" in comments
+
+
+def test_a_native_panic_in_the_reader_is_one_plain_sentence(hostile):
+    """calamine's panic (a shared-strings count of 2^64-1, preflight bypassed) becomes a WorkbookError."""
+    from lagsheet.io.xlsx import XlsxBook
+
+    src, _ = hostile["shared strings claim 2^64-1"]
+    with pytest.raises(WorkbookError) as err:
+        XlsxBook.open(src)
+    assert str(err.value) == (f"{src.name}: cannot be read as a workbook (its parts are damaged or not as "
+                              "spreadsheet programs write them); open it in a spreadsheet program and save it again")
