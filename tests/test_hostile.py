@@ -303,6 +303,8 @@ def _content_cases(tmp: Path, put) -> None:
     put("backslash part names", _zip(tmp / "backslash.xlsx", {k.replace("/", "\\") if k.startswith("xl/") else k: v
                                                           for k, v in _parts(tmp).items()}),
         "the package names its parts with backslashes ('xl/")
+    put("a table claiming 99,999,999,999 totals rows", _table_totals(tmp, "99999999999"),
+        "part 'xl/tables/table1.xml' has a table claiming totalsRowCount=99999999999 rows")
     (tmp / "flat.ods").write_text('<?xml version="1.0" encoding="UTF-8"?>\n<office:document xmlns:office="'
                                   'urn:oasis:names:tc:opendocument:xmlns:office:1.0" office:version="1.3" '
                                   'office:mimetype="application/vnd.oasis.opendocument.spreadsheet"/>')
@@ -316,6 +318,22 @@ def _content_cases(tmp: Path, put) -> None:
         '<table:table-row><table:table-cell office:value-type="float" office:value="1" '
         'table:number-columns-repeated="16000"><text:p>1</text:p></table:table-cell></table:table-row>')),
         "sheet 'Lines' has a value at WQJ")
+
+
+def _table_totals(tmp: Path, count: str) -> Path:
+    """The schedule kept as an Excel table (openpyxl's), whose table part claims ``count`` totals rows."""
+    from openpyxl.worksheet.table import Table
+
+    src = write_book(tmp / "table.src.xlsx", [pipe(), pipe("P-2")])
+    wb = openpyxl.load_workbook(src)
+    wb["Lines"].add_table(Table(displayName="Lines", ref="A1:N3"))
+    wb.save(src)
+    with zipfile.ZipFile(src) as z:
+        parts = {n: z.read(n) for n in z.namelist()}
+    xml = parts["xl/tables/table1.xml"]
+    parts["xl/tables/table1.xml"] = xml.replace(b' ref="A1:N3"', f' ref="A1:N3" totalsRowCount="{count}"'.encode(), 1)
+    assert parts["xl/tables/table1.xml"] != xml
+    return _zip(tmp / "table-totals.xlsx", parts)
 
 
 def body_of(xml: str) -> str:
@@ -410,7 +428,7 @@ CASES = [
     "shared strings claim 2^32-1", "shared strings claim 2^64-1", "100 parts of 7 MiB",
     "<c openings in a comment of the sheet", "VML in Latin-1", "VML with a DTD", "[Content_Types].xml in Latin-1",
     "UTF-16 sheet", "backslash part names", ".fods named .ods", "ods: a value row repeated to past the sheet end",
-    "ods: values repeated across 16,000 columns"]
+    "ods: values repeated across 16,000 columns", "a table claiming 99,999,999,999 totals rows"]
 
 
 def test_the_case_list_names_every_hostile_file(hostile):

@@ -392,6 +392,16 @@ class _PartScan:
         elif local == "sst" and not self.ods:
             self._sst(attrs)
             self.p.StartElementHandler = None
+        elif local == "table" and not self.ods:  # an Excel table: its range and row counts
+            for ref in attrs.get("ref", "").split(":") if attrs.get("ref") else ():
+                rc = _ref(ref)
+                if rc is None or not (1 <= rc[0] <= SHEET_ROWS and 1 <= rc[1] <= SHEET_COLS):
+                    raise _Refuse(f"bad range {attrs.get('ref', '')}")
+            for key in ("headerRowCount", "totalsRowCount"):
+                v = attrs.get(key, "0")
+                if not v.isdigit() or len(v) > 7 or int(v) > SHEET_ROWS:
+                    raise _Refuse(f"bad row count {key}={v}")
+            self.p.StartElementHandler = None
         elif local in ("document-content", "document") and self.ods:
             self.table: SheetStats | None = None
             self.p.StartElementHandler = self._ods_start
@@ -611,6 +621,8 @@ def _what(why: str) -> str:
         sort, _, value = what.partition(" ")
         if sort == "repeat":
             return f"a repeat count of {value!s}"
+        if sort == "row" and value.startswith("count "):
+            return f"a table claiming {value[6:]} rows"
         return {"cell": "a cell reference", "row": "a row number", "range": "a range", "columns": "a column range",
                 "column": "a column number"}.get(sort, sort) + f" {value}"
     return why
