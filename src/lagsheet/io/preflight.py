@@ -287,7 +287,7 @@ class SheetStats:
     cells: int = 0
     rows: int = 0  # 1 + the last row holding a value (0: none)
     cols: int = 0  # 1 + the last column holding a value
-    last: str = ""  # the address of the value that lies farthest out
+    far: tuple[int, int] = (0, 0)  # 1-based (row, column) of a value that lies farthest out
 
     @property
     def area(self) -> int:
@@ -303,7 +303,7 @@ class SheetStats:
         if 4 * self.cells >= self.area:
             return (f"{book}: sheet {_q(sheet)} holds {self.cells:,} values over {span} (limit {MAX_AREA:,} "
                     "cells); split the schedule into workbooks of fewer lines")
-        return (f"{book}: sheet {_q(sheet)} has a value at {self.last}, so reading it means filling {span} "
+        return (f"{book}: sheet {_q(sheet)} has a value at {_addr(*self.far)}, so reading it means filling {span} "
                 f"for {self.cells:,} values; clear or move the cells far below or right of the schedule "
                 "and save again")
 
@@ -326,6 +326,7 @@ class _Refuse(Exception):
 
 
 _REF = re.compile(r"\$?([A-Za-z]{1,4})\$?([0-9]{1,12})")
+_COLUMNS: dict[str, int] = {}  # column letters -> 1-based index, filled as sheets are scanned
 
 
 def _ref(ref: str) -> tuple[int, int] | None:
@@ -387,7 +388,7 @@ class _PartScan:
         if local == "worksheet" and not self.ods:
             self.sheet = SheetStats()
             self.stats[self.part] = self.sheet
-            self.row, self.col, self.cell = 0, 0, None
+            self.row, self.col, self.cell, self.row_text = 0, 0, False, "0"
             self.p.StartElementHandler = self._sheet
         elif local == "sst" and not self.ods:
             self._sst(attrs)
@@ -410,29 +411,30 @@ class _PartScan:
         else:
             self.p.StartElementHandler = None
 
-    # -- xlsx sheets
+    # -- xlsx sheets (called for every element of the sheet: the common cases come first, no regex)
     def _sheet(self, name, attrs):
-        local = name[name.find(":") + 1:]
+        local = name if len(name) < 3 else name[name.find(":") + 1:]
         if local == "c":
             r = attrs.get("r")
             if r is not None:
-                rc = _ref(r)
-                if rc is None or rc[0] != self.row:
-                    raise _Refuse(f"bad cell {r}")
-                self.col = rc[1]
+                letters = r.rstrip("0123456789")
+                col = _COLUMNS.get(letters)
+                if col is None or r[len(letters):] != self.row_text:
+                    col = self._cell_ref(r)
+                self.col = col
             else:
                 self.col += 1
-            if self.col > SHEET_COLS:
-                raise _Refuse(f"outside cell {r or self.col}")
-            self.cell = r
-        elif local in ("v", "is", "f"):
-            if self.cell is not False:
+                if self.col > SHEET_COLS:
+                    raise _Refuse(f"outside column {self.col}")
+            self.cell = True
+        elif local == "v" or local == "is" or local == "f":
+            if self.cell:
                 self.cell = False  # counted once
                 s = self.sheet
                 s.cells += 1
-                if self.row >= s.rows or self.col >= s.cols:
+                if self.row > s.rows or self.col > s.cols:
                     s.rows, s.cols = max(s.rows, self.row), max(s.cols, self.col)
-                    s.last = _addr(self.row, self.col)
+                    s.far = (self.row, self.col)
         elif local == "row":
             r = attrs.get("r")
             if r is not None:
@@ -443,6 +445,7 @@ class _PartScan:
                 self.row += 1
             if self.row > SHEET_ROWS or self.row < 1:
                 raise _Refuse(f"outside row {self.row}")
+            self.row_text = str(self.row)
             self.col = 0
         elif local == "dimension":
             for ref in attrs.get("ref", "").split(":") if attrs.get("ref") else ():
@@ -454,6 +457,18 @@ class _PartScan:
             if not (lo.isdigit() and hi.isdigit() and len(lo) < 7 and len(hi) < 7
                     and 1 <= int(lo) <= int(hi) <= SHEET_COLS):
                 raise _Refuse(f"bad columns {lo}:{hi}")
+
+    def _cell_ref(self, r: str) -> int:
+        """The column of cell reference ``r`` in the current row (the slow path: checks it whole)."""
+        rc = _ref(r)
+        if rc is None or rc[0] != self.row:
+            raise _Refuse(f"bad cell {r}")
+        if rc[1] > SHEET_COLS:
+            raise _Refuse(f"outside cell {r}")
+        letters = r.rstrip("0123456789")
+        if letters.isupper() and len(_COLUMNS) < 20_000:
+            _COLUMNS[letters] = rc[1]
+        return rc[1]
 
     def _sst(self, attrs):
         for key, most in (("uniqueCount", self.size // 5 + 1), ("count", self.package_size // 10 + 1)):
@@ -505,9 +520,9 @@ class _PartScan:
                 if self.row > SHEET_ROWS:
                     raise _Refuse(f"outside row {self.row}")
                 s.cells += self.row_cells * self.row_rep
-                if self.row >= s.rows or self.row_last >= s.cols:
+                if self.row > s.rows or self.row_last > s.cols:
                     s.rows, s.cols = max(s.rows, self.row), max(s.cols, self.row_last)
-                    s.last = _addr(self.row, self.row_last)
+                    s.far = (self.row, self.row_last)
         elif local == "table":
             self.table = None
 
