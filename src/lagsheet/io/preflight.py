@@ -24,6 +24,15 @@ first bytes of each XML part, and refuses (``WorkbookError``, exit 2, one line):
   OpenOffice.org 1-2 named in an ``.ods`` manifest, allowed there alone — or whose prolog runs past
   :data:`PROLOG_BYTES` without reaching the root element.
 
+Then :func:`_scan_content` streams every XML part once through expat (64 KiB at a time: time
+linear in the part, memory bounded, no regular expression over the input) and refuses a part
+not in UTF-8 (``.vml`` included), damaged XML, markup inside a comment or CDATA of a part
+lagsheet patches (its patterns then only ever meet real tags), cells, rows, columns, ranges and
+table row counts outside ``XFD1048576``, and a shared-strings count larger than its part can
+hold; it returns each sheet's value count and the rectangle from A1 its values span, which
+:meth:`SheetStats.too_big` judges before calamine fills that rectangle (all tables of an
+``.ods`` at once, since calamine reads them all when it opens the file).
+
 The limits are generous for real schedules: a filled 50,000-line schedule has a sheet
 part of about 70 MB at 6.5:1, comments at 50:1 and notes drawings at 40:1.
 Time and memory are bounded: the directory is read once, and at most
