@@ -187,7 +187,157 @@ def build_hostile(tmp: Path) -> dict[str, tuple[Path, str]]:
     put("endless prolog", _with_sheet(tmp, "prolog.xlsx", (
         '<?xml version="1.0"?>\n<!--' + "x" * (preflight.PROLOG_BYTES + 10) + "-->" + body).encode()),
         "does not reach its first element")
+    _content_cases(tmp, put)
     return out
+
+
+def _one_cell(sheet: str, ref: str) -> str:
+    row = int("".join(ch for ch in ref if ch.isdigit()))
+    return sheet.replace("</sheetData>", f'<row r="{row}"><c r="{ref}" t="n"><v>1</v></c></row></sheetData>')
+
+
+SST_CT = ('<Override PartName="/xl/sharedStrings.xml" '
+          'ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.sharedStrings+xml"/>')
+SST_REL = ('<Relationship Id="rIdS" Target="sharedStrings.xml" '
+           'Type="http://schemas.openxmlformats.org/officeDocument/2006/relationships/sharedStrings"/>')
+
+
+def _shared_strings(tmp: Path, name: str, count: int) -> Path:
+    parts = _parts(tmp)
+    parts["[Content_Types].xml"] = parts["[Content_Types].xml"].replace(b"</Types>", SST_CT.encode() + b"</Types>")
+    rels = "xl/_rels/workbook.xml.rels"
+    parts[rels] = parts[rels].replace(b"</Relationships>", SST_REL.encode() + b"</Relationships>")
+    parts["xl/sharedStrings.xml"] = (f'<?xml version="1.0" encoding="UTF-8"?><sst xmlns="http://schemas.'
+                                     f'openxmlformats.org/spreadsheetml/2006/main" count="{count}" '
+                                     f'uniqueCount="{count}"><si><t>x</t></si></sst>').encode()
+    return _zip(tmp / name, parts)
+
+
+def _with_notes_vml(tmp: Path, name: str, vml: bytes) -> Path:
+    """The base schedule with a person's note on A1 (openpyxl writes its comments part and VML),
+    the VML part then replaced by ``vml``."""
+    src = write_book(tmp / f"{name}.src.xlsx", [pipe(), pipe("P-2")])
+    wb = openpyxl.load_workbook(src)
+    wb["Lines"]["A1"].comment = openpyxl.comments.Comment("a person's note", "someone")
+    wb.save(src)
+    with zipfile.ZipFile(src) as z:
+        parts = {n: z.read(n) for n in z.namelist()}
+    vml_part = next(n for n in parts if n.endswith(".vml"))
+    parts[vml_part] = vml
+    return _zip(tmp / name, parts)
+
+
+def _padded_parts(tmp: Path, n: int, mib: int) -> Path:
+    """``n`` extra XML parts of ``mib`` MiB each, compressed about 150:1 (under the ratio limits)."""
+    import random
+
+    rnd = random.Random(14)
+    block = bytearray()
+    while len(block) < mib * MIB:
+        block += b" " * 600 + bytes([rnd.randrange(97, 123)])
+    data = b"<x>" + bytes(block[:mib * MIB - 7]) + b"</x>"
+    members = [_member(k, b) for k, b in _parts(tmp).items()]
+    pad = _member("xl/pad.xml", data)
+    members += [(f"xl/pad{k}.xml", *pad[1:]) for k in range(n)]
+    return _raw_zip(tmp / "padded.xlsx", members)
+
+
+def _ods_with(tmp: Path, name: str, rows: str) -> Path:
+    """A LibreOffice-style .ods (lagsheet's own template) with ``rows`` added at the end of its Lines table."""
+    import io
+
+    from lagsheet.templates import template_bytes
+
+    with zipfile.ZipFile(io.BytesIO(template_bytes(".ods"))) as z:
+        parts = {n: z.read(n) for n in z.namelist()}
+    content = parts["content.xml"].decode()
+    at = content.index('table:name="Lines"')
+    end = content.index("</table:table>", at)
+    parts["content.xml"] = (content[:end] + rows + content[end:]).encode()
+    path = tmp / name
+    with zipfile.ZipFile(path, "w") as z:
+        for k, b in parts.items():
+            z.writestr(k, b, compress_type=zipfile.ZIP_STORED if k == "mimetype" else zipfile.ZIP_DEFLATED)
+    return path
+
+
+def _content_cases(tmp: Path, put) -> None:
+    """Files whose zip is sound but whose XML would crash, exhaust or stall a reader."""
+    parts = _parts(tmp)
+    sheet = parts["xl/worksheets/sheet1.xml"].decode()
+    outside = "outside any sheet (the last cell of a sheet is XFD1048576)"
+    for ref in ("XFD1048576", "ZZ1048576", "A1048576"):
+        put(f"one value at {ref}", _with_sheet(tmp, f"at-{ref}.xlsx", _one_cell(sheet, ref).encode()),
+            f"sheet 'Lines' has a value at {ref}, so reading it means filling")
+    put("one value at E99999999999", _with_sheet(tmp, "at-E99999999999.xlsx",
+                                                _one_cell(sheet, "E99999999999").encode()),
+        "sheet 'Lines' has a row number 99999999999, " + outside)
+    put("one value at XFE1", _with_sheet(tmp, "at-XFE1.xlsx", _one_cell(sheet, "XFE1").encode()),
+        "sheet 'Lines' has a cell reference XFE1, " + outside)
+    put("dimension past the sheet", _with_sheet(tmp, "dimension.xlsx", sheet.replace(
+        '<dimension ref="A1:N3"/>', '<dimension ref="A1:XFD99999999999"/>').encode()),
+        "has a range A1:XFD99999999999, " + outside)
+    put("column range 1:99999999999", _with_sheet(tmp, "cols.xlsx", sheet.replace(
+        "<sheetData>", '<cols><col min="1" max="99999999999" width="9"/></cols><sheetData>').encode()),
+        "has a column range 1:99999999999, " + outside)
+    for label, count in (("1e9", 10**9), ("2^32-1", 2**32 - 1), ("2^64-1", 2**64 - 1)):
+        put(f"shared strings claim {label}", _shared_strings(tmp, f"sst-{count}.xlsx", count),
+            f"the shared strings part claims {count:,} strings (uniqueCount), more than its")
+    put("100 parts of 7 MiB", _padded_parts(tmp, 100, 7), "the package would expand to 700")
+    put("<c openings in a comment of the sheet", _with_sheet(tmp, "c-comment.xlsx", sheet.replace(
+        "<sheetData>", "<sheetData><!--" + "<c" * 100_000 + "-->").encode()),
+        "part 'xl/worksheets/sheet1.xml' hides XML markup inside a comment")
+    vml = '<xml xmlns:v="urn:schemas-microsoft-com:vml"><v:shape id="x">caf\u00e9</v:shape></xml>'
+    put("VML in Latin-1", _with_notes_vml(tmp, "vml-latin1.xlsx", vml.encode("latin-1")),
+        "Drawing1.vml' is not UTF-8 text")
+    put("VML with a DTD", _with_notes_vml(tmp, "vml-dtd.xlsx", (LAUGHS + vml).encode()), "declares a DTD")
+    parts = _parts(tmp)
+    parts["[Content_Types].xml"] = parts["[Content_Types].xml"].replace(
+        b'<Default Extension="xml"', '<!-- caf\u00e9 --><Default Extension="xml"'.encode("latin-1"))
+    assert b"caf\xe9" in parts["[Content_Types].xml"]
+    put("[Content_Types].xml in Latin-1", _zip(tmp / "ct-latin1.xlsx", parts),
+        "part '[Content_Types].xml' is not UTF-8 text")
+    put("UTF-16 sheet", _with_sheet(tmp, "utf16-sheet.xlsx", (
+        '\ufeff<?xml version="1.0" encoding="UTF-16"?>\n' + body_of(sheet)).encode("utf-16-le")),
+        "part 'xl/worksheets/sheet1.xml' is stored as UTF-16 text; lagsheet reads parts stored as UTF-8")
+    put("backslash part names", _zip(tmp / "backslash.xlsx", {k.replace("/", "\\") if k.startswith("xl/") else k: v
+                                                          for k, v in _parts(tmp).items()}),
+        "the package names its parts with backslashes ('xl/")
+    put("a table claiming 99,999,999,999 totals rows", _table_totals(tmp, "99999999999"),
+        "part 'xl/tables/table1.xml' has a table claiming totalsRowCount=99999999999 rows")
+    (tmp / "flat.ods").write_text('<?xml version="1.0" encoding="UTF-8"?>\n<office:document xmlns:office="'
+                                  'urn:oasis:names:tc:opendocument:xmlns:office:1.0" office:version="1.3" '
+                                  'office:mimetype="application/vnd.oasis.opendocument.spreadsheet"/>')
+    put(".fods named .ods", tmp / "flat.ods", "a flat OpenDocument spreadsheet (.fods, one XML file) named .ods; "
+        "open it in LibreOffice and save it as .ods or .xlsx")
+    put("ods: a value row repeated to past the sheet end", _ods_with(tmp, "ods-rows.ods", (
+        '<table:table-row table:number-rows-repeated="1048576"><table:table-cell office:value-type="float" '
+        'office:value="1"><text:p>1</text:p></table:table-cell></table:table-row>')),
+        "sheet 'Lines' has a row number")
+    put("ods: values repeated across 16,000 columns", _ods_with(tmp, "ods-cols.ods", (
+        '<table:table-row><table:table-cell office:value-type="float" office:value="1" '
+        'table:number-columns-repeated="16000"><text:p>1</text:p></table:table-cell></table:table-row>')),
+        "sheet 'Lines' has a value at WQJ")
+
+
+def _table_totals(tmp: Path, count: str) -> Path:
+    """The schedule kept as an Excel table (openpyxl's), whose table part claims ``count`` totals rows."""
+    from openpyxl.worksheet.table import Table
+
+    src = write_book(tmp / "table.src.xlsx", [pipe(), pipe("P-2")])
+    wb = openpyxl.load_workbook(src)
+    wb["Lines"].add_table(Table(displayName="Lines", ref="A1:N3"))
+    wb.save(src)
+    with zipfile.ZipFile(src) as z:
+        parts = {n: z.read(n) for n in z.namelist()}
+    xml = parts["xl/tables/table1.xml"]
+    parts["xl/tables/table1.xml"] = xml.replace(b' ref="A1:N3"', f' ref="A1:N3" totalsRowCount="{count}"'.encode(), 1)
+    assert parts["xl/tables/table1.xml"] != xml
+    return _zip(tmp / "table-totals.xlsx", parts)
+
+
+def body_of(xml: str) -> str:
+    return xml.split("?>", 1)[1] if xml.startswith("<?xml") else xml
 
 
 @pytest.fixture(scope="module")
@@ -208,6 +358,11 @@ for job in json.loads(sys.argv[1]):
     pid = os.fork()
     if pid == 0:  # one child per file: its own peak memory, interpreter and imports included
         os.close(r)
+        if job.get("limit_MB"):  # address space: what the interpreter holds now, and this much more
+            with open("/proc/self/status") as fh:
+                vm = next(int(x.split()[1]) for x in fh if x.startswith("VmSize:")) * 1024
+            cap = vm + job["limit_MB"] * 2**20
+            resource.setrlimit(resource.RLIMIT_AS, (cap, cap))
         t = time.perf_counter()
         try:
             if job.get("read_only"):
@@ -233,16 +388,19 @@ for job in json.loads(sys.argv[1]):
             break
         chunks.append(b)
     os.close(r)
-    os.waitpid(pid, 0)
-    print(json.dumps({"name": job["name"], **json.loads(b"".join(chunks))}), flush=True)
+    _, status = os.waitpid(pid, 0)
+    got = json.loads(b"".join(chunks)) if chunks else {"seconds": -1, "peak_MB": -1,
+                                                      "result": f"died: wait status {status}"}
+    print(json.dumps({"name": job["name"], **got}), flush=True)
 """
 
 
-def measure(jobs: list[dict]) -> dict[str, dict]:
-    """Run each job (fill, or only a read) in its own forked child of one fresh interpreter."""
+def measure(jobs: list[dict], timeout: float = 600) -> dict[str, dict]:
+    """Run each job (fill, or only a read) in its own forked child of one fresh interpreter
+    (``limit_MB`` in a job: its address space may grow this much, by ``resource.setrlimit``)."""
     env = dict(os.environ, OPENBLAS_NUM_THREADS="1", OMP_NUM_THREADS="1")
     p = subprocess.run([sys.executable, "-c", MEASURE, json.dumps(jobs)], capture_output=True, text=True,
-                       timeout=600, env=env)
+                       timeout=timeout, env=env)
     assert p.returncode == 0, p.stderr
     rows = [json.loads(line) for line in p.stdout.splitlines()]
     assert len(rows) == len(jobs), p.stdout + p.stderr
@@ -252,7 +410,8 @@ def measure(jobs: list[dict]) -> dict[str, dict]:
 @pytest.fixture(scope="module")
 def measured(hostile, tmp_path_factory):
     out = tmp_path_factory.mktemp("measured-out")
-    return measure([{"name": k, "src": str(p), "out": str(out / "out.xlsx")} for k, (p, _) in hostile.items()])
+    return measure([{"name": k, "src": str(p), "out": str(out / f"out{p.suffix}"), "limit_MB": 400}
+                    for k, (p, _) in hostile.items()], timeout=300)
 
 
 CASES = [
@@ -262,7 +421,14 @@ CASES = [
     "unknown compression", "bomb: 1 GiB sheet", "bomb: 1000:1 sheet", "bomb: many 7 MiB parts at 1000:1",
     "bomb: sizes that lie", "bomb: overlapping entries", "too many parts", "zip that is no Office document",
     "billion laughs", "external entity", "DTD after a comment, in [Content_Types].xml", "DTD in a UTF-16 part",
-    "endless prolog"]
+    "endless prolog",
+    # the content scan (sheet limits, counts, encodings, markup in comments)
+    "one value at XFD1048576", "one value at ZZ1048576", "one value at A1048576", "one value at E99999999999",
+    "one value at XFE1", "dimension past the sheet", "column range 1:99999999999", "shared strings claim 1e9",
+    "shared strings claim 2^32-1", "shared strings claim 2^64-1", "100 parts of 7 MiB",
+    "<c openings in a comment of the sheet", "VML in Latin-1", "VML with a DTD", "[Content_Types].xml in Latin-1",
+    "UTF-16 sheet", "backslash part names", ".fods named .ods", "ods: a value row repeated to past the sheet end",
+    "ods: values repeated across 16,000 columns", "a table claiming 99,999,999,999 totals rows"]
 
 
 def test_the_case_list_names_every_hostile_file(hostile):
@@ -275,7 +441,7 @@ def test_a_hostile_file_is_refused_with_one_line(hostile, tmp_path, cli, case):
     """Exit 2, one line naming the file and the reason, no traceback; input unchanged, nothing written."""
     src, words = hostile[case]
     before = sha256(src)
-    out = tmp_path / "out.xlsx"
+    out = tmp_path / f"out{src.suffix}"
     r = cli("fill", src, "-o", out)
     assert r.exit_code == 2, r.output
     lines = r.output.strip().splitlines()
@@ -288,7 +454,8 @@ def test_a_hostile_file_is_refused_with_one_line(hostile, tmp_path, cli, case):
 
 @pytest.mark.parametrize("case", CASES)
 def test_a_hostile_file_is_refused_fast_in_bounded_memory(measured, hostile, case):
-    """The refusal itself takes under 2 s and the process peaks under 200 MB (a noisy machine has margin)."""
+    """The refusal itself takes under 2 s and the process peaks under 200 MB (a noisy machine has margin),
+    with its address space capped at 400 MB above the interpreter's."""
     m = measured[case]
     assert m["result"].startswith("refused: ") and hostile[case][1] in m["result"], m
     assert m["seconds"] < 2.0, m
@@ -317,7 +484,7 @@ def test_a_real_legacy_xls_named_xlsx_is_refused(tmp_path, cli):
 
 
 def test_the_limits_pass_a_filled_50000_line_schedule():
-    """Part sizes and ratios measured on a filled 50,000-line schedule are far inside the limits."""
+    """Part sizes and ratios measured on a filled 50,000-line schedule, and six times them, are inside the limits."""
     def info(name, size, packed):
         z = zipfile.ZipInfo(name)
         z.file_size, z.compress_size = size, packed
@@ -327,8 +494,8 @@ def test_the_limits_pass_a_filled_50000_line_schedule():
             info("xl/comments1.xml", 1_697_809, 33_515),
             info("xl/drawings/vmlDrawing1.vml", 2_582_375, 63_182)]
     preflight._check_sizes(real, "plant.xlsx")
-    ten_times = [info(z.filename, z.file_size * 10, z.compress_size * 10) for z in real]
-    preflight._check_sizes(ten_times, "plant.xlsx")
+    six_times = [info(z.filename, z.file_size * 6, z.compress_size * 6) for z in real]  # 300,000 lines
+    preflight._check_sizes(six_times, "plant.xlsx")
     with pytest.raises(WorkbookError, match="zip bomb"):
         preflight._check_sizes([info("xl/worksheets/sheet1.xml", 64 * MIB, MIB // 4)], "plant.xlsx")
 
@@ -551,3 +718,82 @@ def test_an_ods_package_without_content_is_refused(tmp_path):
     """A zip named .ods with no content.xml is not an OpenDocument spreadsheet."""
     with pytest.raises(WorkbookError, match="without content.xml"):
         preflight.check_package(_ods(tmp_path / "empty.ods", {"styles.xml": ODS_CONTENT}))
+
+
+# -- hostile but readable: linear time, bounded memory ----------------------------------------------
+
+
+def _long_attribute(tmp: Path) -> Path:
+    """A 200,000-character single-quoted attribute on the header row and on a cell the fill writes beside."""
+    xml = _sheet_xml(tmp)
+    junk = "x='" + "a" * 200_000 + "'"
+    new = xml.replace('<row r="1">', f'<row r="1" {junk}>', 1).replace('<c r="A2" ', f'<c {junk} r="A2" ', 1)
+    assert new.count(junk) == 2
+    return _with_sheet(tmp, "long-attribute.xlsx", new.encode())
+
+
+def _shapes_in_a_vml_comment(tmp: Path) -> Path:
+    """A person's note whose VML drawing holds a comment of 100,000 '<v:shape>' openings."""
+    src = write_book(tmp / "noted.xlsx", [pipe(), pipe("P-2")])
+    wb = openpyxl.load_workbook(src)
+    wb["Lines"]["B1"].comment = openpyxl.comments.Comment("a person's note", "someone")
+    wb.save(src)
+    with zipfile.ZipFile(src) as z:
+        parts = {n: z.read(n) for n in z.namelist()}
+    vml = next(n for n in parts if n.endswith(".vml"))
+    text = parts[vml].decode()
+    at = text.rindex("</xml>")
+    parts[vml] = (text[:at] + "<!--" + "<v:shape>" * 100_000 + "-->" + text[at:]).encode()
+    return _zip(tmp / "vml-comment.xlsx", parts)
+
+
+def _excel_style_ods(tmp: Path) -> Path:
+    """An .ods whose Lines table ends, as Excel writes it, with styled empty cells repeated to the sheet's end."""
+    return _ods_with(tmp, "excel-style.ods", (
+        '<table:table-row table:number-rows-repeated="1048000"><table:table-cell table:style-name="Default" '
+        'table:number-columns-repeated="16384"/></table:table-row>'))
+
+
+READABLE = {"a 200,000-character single-quoted attribute": _long_attribute,
+            "100,000 '<v:shape>' openings in a VML comment": _shapes_in_a_vml_comment,
+            "an ods with empty cells repeated to the sheet end": _excel_style_ods}
+
+
+@pytest.fixture(scope="module")
+def readable(tmp_path_factory):
+    tmp = tmp_path_factory.mktemp("readable")
+    return {k: make(tmp) for k, make in READABLE.items()}
+
+
+def test_hostile_but_readable_files_are_filled_in_linear_time(readable, tmp_path):
+    """Each is filled (both lines) in under 10 s, its address space capped at 600 MB over the interpreter's;
+    a scan that backtracks over the input (minutes for these) fails the time limit instead of stalling."""
+    m = measure([{"name": k, "src": str(p), "out": str(tmp_path / f"{k[:3]}{p.suffix}"), "limit_MB": 600}
+                 for k, p in readable.items()], timeout=240)
+    for k in READABLE:
+        assert m[k]["result"] == "written", m[k]
+        assert m[k]["seconds"] < 10, m[k]
+
+
+def test_a_person_s_note_survives_a_vml_comment(readable, tmp_path, cli):
+    """The note in the VML drawing with the comment is kept, and the comment with it."""
+    src = readable["100,000 '<v:shape>' openings in a VML comment"]
+    out = tmp_path / "out.xlsx"
+    r = cli("fill", src, "-o", out)
+    assert r.exit_code in (0, 1), r.output
+    with zipfile.ZipFile(out) as z:
+        vml = next(z.read(n).decode() for n in z.namelist() if n.endswith(".vml"))
+        comments = next(z.read(n).decode() for n in z.namelist() if "comments" in n and n.endswith(".xml"))
+    assert "<!--" + "<v:shape>" * 100_000 + "-->" in vml
+    assert "a person&apos;s note" in comments or "a person's note" in comments
+
+
+def test_a_native_panic_in_the_reader_is_one_plain_sentence(hostile):
+    """calamine's panic (a shared-strings count of 2^64-1, preflight bypassed) becomes a WorkbookError."""
+    from lagsheet.io.xlsx import XlsxBook
+
+    src, _ = hostile["shared strings claim 2^64-1"]
+    with pytest.raises(WorkbookError) as err:
+        XlsxBook.open(src)
+    assert str(err.value) == (f"{src.name}: cannot be read as a workbook (its parts are damaged or not as "
+                              "spreadsheet programs write them); open it in a spreadsheet program and save it again")

@@ -20,8 +20,7 @@ def open_book(path: Path) -> Book:
         from .preflight import check_package
         from .xlsx import XlsxBook
 
-        check_package(path)
-        return XlsxBook.open(path)
+        return XlsxBook.open(path, scan=check_package(path))
     if suffix == ".ods":
         from .ods import OdsBook
         from .preflight import check_package

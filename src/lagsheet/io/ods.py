@@ -109,8 +109,12 @@ class OdsBook:
         except XmlScanError as exc:
             raise WorkbookError(f"{path.name}: its content.xml is not well-formed XML ({exc}); open the file in "
                                 "LibreOffice and save it again as .ods") from None
-        except Exception as exc:
-            raise WorkbookError(f"{path.name}: cannot be read as a spreadsheet ({exc})") from exc
+        except BaseException as exc:  # any library failure (a native panic too) means it cannot be read
+            if isinstance(exc, (KeyboardInterrupt, SystemExit, GeneratorExit)):
+                raise
+            raise WorkbookError(f"{path.name}: cannot be read as a spreadsheet (its parts are damaged or not "
+                                "as spreadsheet programs write them); open it in a spreadsheet program and "
+                                "save it again") from None
 
     def sheet_names(self) -> list[str]:
         return list(self._names)

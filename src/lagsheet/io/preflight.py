@@ -15,7 +15,7 @@ first bytes of each XML part, and refuses (``WorkbookError``, exit 2, one line):
   lies outside the file or overlaps another part's (an overlapping-entry zip bomb);
 - zip bombs by the sizes the directory declares (calamine and Python's zipfile stop
   at the declared size, so the declared size bounds what they inflate): a part over
-  :data:`MAX_PART` (1 GiB) uncompressed, a package over :data:`MAX_TOTAL` (2 GiB),
+  :data:`MAX_PART` (512 MiB) uncompressed, a package over :data:`MAX_TOTAL` (512 MiB),
   or a compression ratio above :data:`MAX_RATIO` (200:1) for a part, or the whole
   package, above :data:`RATIO_FLOOR` (8 MiB);
 - a zip without ``[Content_Types].xml`` (``.xlsx``) or ``content.xml`` (``.ods``);
@@ -23,6 +23,15 @@ first bytes of each XML part, and refuses (``WorkbookError``, exit 2, one line):
   entities) — spreadsheet XML never has one, except the external manifest DTD that
   OpenOffice.org 1-2 named in an ``.ods`` manifest, allowed there alone — or whose prolog runs past
   :data:`PROLOG_BYTES` without reaching the root element.
+
+Then :func:`_scan_content` streams every XML part once through expat (64 KiB at a time: time
+linear in the part, memory bounded, no regular expression over the input) and refuses a part
+not in UTF-8 (``.vml`` included), damaged XML, markup inside a comment or CDATA of a part
+lagsheet patches (its patterns then only ever meet real tags), cells, rows, columns, ranges and
+table row counts outside ``XFD1048576``, and a shared-strings count larger than its part can
+hold; it returns each sheet's value count and the rectangle from A1 its values span, which
+:meth:`SheetStats.too_big` judges before calamine fills that rectangle (all tables of an
+``.ods`` at once, since calamine reads them all when it opens the file).
 
 The limits are generous for real schedules: a filled 50,000-line schedule has a sheet
 part of about 70 MB at 6.5:1, comments at 50:1 and notes drawings at 40:1.
@@ -32,17 +41,22 @@ Time and memory are bounded: the directory is read once, and at most
 
 from __future__ import annotations
 
+import codecs
 import re
 import struct
 import zipfile
+from dataclasses import dataclass, field
 from pathlib import Path
+from xml.parsers import expat
 
 from ..errors import WorkbookError
 
 MAX_MEMBERS = 10_000
 MAX_DIRECTORY = 16 * 2**20  # bytes of central directory
-MAX_PART = 2**30  # 1 GiB uncompressed, any one part
-MAX_TOTAL = 2 * 2**30  # 2 GiB uncompressed, all parts
+# A filled 50,000-line schedule unpacks to about 75 MB (a 70 MB sheet); 512 MiB is seven times
+# that, and what lagsheet streams through its scan in about 10 s. More is no schedule to read.
+MAX_PART = 512 * 2**20  # uncompressed, any one part
+MAX_TOTAL = 512 * 2**20  # uncompressed, all parts
 MAX_RATIO = 200  # uncompressed : compressed ...
 RATIO_FLOOR = 8 * 2**20  # ... only judged above this many uncompressed bytes
 PROLOG_BYTES = 64 * 2**10  # how much of each XML part is inflated to check its prolog
@@ -51,14 +65,14 @@ OLE_MAGIC = b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"
 _EOCD = b"PK\x05\x06"
 _EOCD64_LOCATOR = b"PK\x06\x07"
 _LOCAL = b"PK\x03\x04"
-_XML_PARTS = (".xml", ".rels")
+_XML_PARTS = (".xml", ".rels", ".vml")
 _DRIVE = re.compile(r"^[A-Za-z]:")
 _LEGACY_MANIFEST = re.compile(r'<!DOCTYPE\s+manifest:manifest\s+PUBLIC\s+"-//OpenOffice\.org//DTD Manifest 1\.0//EN"'
                               r'\s+"Manifest\.dtd"\s*>')
 
 
-def check_package(path: Path) -> None:
-    """Refuse a hostile or broken workbook package before anything parses it."""
+def check_package(path: Path) -> Scan:
+    """Refuse a hostile or broken workbook package before anything parses it; what its sheets hold."""
     path = Path(path)
     name = path.name
     try:
@@ -69,6 +83,9 @@ def check_package(path: Path) -> None:
                 raise WorkbookError(f"{name}: the file is empty (0 bytes)")
             if head.startswith(OLE_MAGIC):
                 raise WorkbookError(f"{name}: encrypted or legacy .xls; save it as .xlsx without a password")
+            if path.suffix.lower() == ".ods" and _flat_ods(fh):
+                raise WorkbookError(f"{name}: a flat OpenDocument spreadsheet (.fods, one XML file) named .ods; "
+                                    "open it in LibreOffice and save it as .ods or .xlsx")
             entries, cd_size = _end_record(fh, size, name, head)
     except WorkbookError:
         raise
@@ -97,11 +114,13 @@ def check_package(path: Path) -> None:
             for info in infos:
                 if info.filename.lower().endswith(_XML_PARTS) and not info.is_dir():
                     _check_prolog(zf, info, name, ods=ods)
+            scan = _scan_content(zf, infos, name, ods=ods)
     except WorkbookError:
         raise
     except (zipfile.BadZipFile, zipfile.LargeZipFile, EOFError, ValueError, NotImplementedError,
             RuntimeError, OSError, UnicodeDecodeError, struct.error) as exc:
         raise WorkbookError(f"{name}: damaged zip package ({exc}); re-save it in a spreadsheet program") from None
+    return scan
 
 
 def _end_record(fh, size: int, name: str, head: bytes) -> tuple[int, int]:
@@ -116,6 +135,8 @@ def _end_record(fh, size: int, name: str, head: bytes) -> tuple[int, int]:
         if head.startswith(_LOCAL):
             raise WorkbookError(f"{name}: the file is truncated or damaged (a zip package with no directory "
                                 "at its end); copy it again or re-save it")
+        if name.lower().endswith(".ods"):
+            raise WorkbookError(f"{name}: not an OpenDocument spreadsheet (the file is not a zip package)")
         raise WorkbookError(f"{name}: not an Excel workbook (the file is not a zip package)")
     (_sig, _disk, _cd_disk, _n_disk, entries, cd_size, _cd_off, _clen) = struct.unpack(
         "<4sHHHHIIH", tail[at:at + 22])
@@ -137,6 +158,10 @@ def _check_names(infos: list[zipfile.ZipInfo], name: str) -> None:
         parts = re.split(r"[/\\]", n)
         if (not n or n.startswith(("/", "\\")) or _DRIVE.match(n) or "\\" in n or "\x00" in n
                 or ".." in parts):
+            if "\\" in n and not (n.startswith("\\") or _DRIVE.match(n) or "\x00" in n or ".." in parts):
+                raise WorkbookError(f"{name}: the package names its parts with backslashes ({_q(n)} ...), "
+                                    "which the format does not allow; open the workbook in a spreadsheet "
+                                    "program and save it again")
             raise WorkbookError(f"{name}: unsafe part name {n!r} in the package (a path outside the "
                                 "workbook); lagsheet does not read it")
         key = n.lower()
@@ -250,3 +275,409 @@ def _size(n: int) -> str:
         if n >= scale:
             return f"{n / scale:.4g} {unit}"
     return f"{n} bytes"
+
+
+# -- the content scan: every XML part, streamed once through expat ----------------------------
+
+SHEET_ROWS, SHEET_COLS = 1_048_576, 16_384  # the sheet limits of Excel and of LibreOffice (7.4 and later)
+# The reader (calamine) fills the rectangle from A1 to the farthest value, about 90 bytes a cell
+# (measured: 1,048,576 x 14 cells took 1.3 GB). A filled 50,000-line schedule spans about 2 million.
+MAX_AREA = 4_000_000  # cells of that rectangle, at most (about 0.36 GB)
+SPARSE_AREA = 2_000_000  # ... and above this, a quarter of it must hold values (a stray far cell is refused)
+_CHUNK = 2**16
+_PATCHED_ROOTS = {"worksheet", "comments", "table", "Relationships", "Types", "styleSheet", "workbook",
+                  "sst", "document-content", "document-styles", "document"}
+
+
+@dataclass
+class SheetStats:
+    """What a sheet part holds, from the scan: value cells and the rectangle from A1 they span."""
+
+    cells: int = 0
+    rows: int = 0  # 1 + the last row holding a value (0: none)
+    cols: int = 0  # 1 + the last column holding a value
+    far: tuple[int, int] = (0, 0)  # 1-based (row, column) of a value that lies farthest out
+
+    @property
+    def area(self) -> int:
+        return self.rows * self.cols
+
+    def too_big(self) -> bool:
+        return self.area > MAX_AREA or (self.area > SPARSE_AREA and 4 * self.cells < self.area)
+
+    def refusal(self, book: str, sheet: str) -> str:
+        from .table import column_letter
+
+        span = f"{self.rows:,} rows x {self.cols:,} columns from A1 to {column_letter(self.cols - 1)}{self.rows}"
+        if 4 * self.cells >= self.area:
+            return (f"{book}: sheet {_q(sheet)} holds {self.cells:,} values over {span} (limit {MAX_AREA:,} "
+                    "cells); split the schedule into workbooks of fewer lines")
+        return (f"{book}: sheet {_q(sheet)} has a value at {_addr(*self.far)}, so reading it means filling {span} "
+                f"for {self.cells:,} values; clear or move the cells far below or right of the schedule "
+                "and save again")
+
+
+@dataclass
+class Scan:
+    """What the content scan learnt: sheet statistics by part name (xlsx) or by table name (ods)."""
+
+    sheets: dict[str, SheetStats] = field(default_factory=dict)
+
+
+def _q(text: str) -> str:
+    return "'" + str(text).replace("\\", "/") + "'"
+
+
+class _Refuse(Exception):
+    def __init__(self, message: str):
+        super().__init__(message)
+        self.message = message
+
+
+_REF = re.compile(r"\$?([A-Za-z]{1,4})\$?([0-9]{1,12})")
+_COLUMNS: dict[str, int] = {}  # column letters -> 1-based index, filled as sheets are scanned
+
+
+def _ref(ref: str) -> tuple[int, int] | None:
+    """'XFD1048576' -> (row, col), 1-based; None if it is no cell reference."""
+    m = _REF.fullmatch(ref)
+    if not m:
+        return None
+    col = 0
+    for ch in m.group(1).upper():
+        col = col * 26 + ord(ch) - 64
+    return int(m.group(2)), col
+
+
+class _PartScan:
+    """Streams one XML part through expat: UTF-8 only, no DTD, no markup inside comments,
+    and, by its root element, the statistics of a sheet, shared strings or an ods content part."""
+
+    def __init__(self, part: str, size: int, package_size: int, ods: bool, legacy_dtd: bool):
+        self.part, self.size, self.package_size, self.ods, self.legacy_dtd = part, size, package_size, ods, legacy_dtd
+        self.root: str | None = None
+        self.stats: dict[str, SheetStats] = {}
+        self.p = p = expat.ParserCreate()
+        p.buffer_text = True
+        p.StartDoctypeDeclHandler = self._doctype
+        p.EntityDeclHandler = self._entity
+        p.XmlDeclHandler = self._decl
+        p.StartElementHandler = self._first
+        p.CommentHandler = self._comment
+        p.ProcessingInstructionHandler = self._pi
+        p.StartCdataSectionHandler = self._cdata
+        self.in_cdata = False
+
+    # -- the generic checks
+    def _doctype(self, name, sysid, pubid, has_internal):
+        if not (self.legacy_dtd and not has_internal):
+            raise _Refuse("dtd")
+
+    def _entity(self, *args):
+        raise _Refuse("dtd")
+
+    def _decl(self, version, encoding, standalone):
+        if encoding and encoding.lower().replace("_", "-") not in ("utf-8", "utf8", "us-ascii", "ascii"):
+            raise _Refuse(f"encoding {encoding}")
+
+    def _comment(self, data):
+        if "<" in data and self.root in _PATCHED_ROOTS | {None}:
+            raise _Refuse("markup in a comment")
+
+    def _pi(self, target, data):
+        if "<" in data and self.root in _PATCHED_ROOTS | {None}:
+            raise _Refuse("markup in a comment")
+
+    def _cdata(self):
+        if self.root in _PATCHED_ROOTS:
+            raise _Refuse("markup in a comment")
+
+    def _first(self, name, attrs):
+        self.root = local = name.rpartition(":")[2]
+        if local == "worksheet" and not self.ods:
+            self.sheet = SheetStats()
+            self.stats[self.part] = self.sheet
+            self.row, self.col, self.cell, self.row_text = 0, 0, False, "0"
+            self.p.StartElementHandler = self._sheet
+        elif local == "sst" and not self.ods:
+            self._sst(attrs)
+            self.p.StartElementHandler = None
+        elif local == "table" and not self.ods:  # an Excel table: its range and row counts
+            for ref in attrs.get("ref", "").split(":") if attrs.get("ref") else ():
+                rc = _ref(ref)
+                if rc is None or not (1 <= rc[0] <= SHEET_ROWS and 1 <= rc[1] <= SHEET_COLS):
+                    raise _Refuse(f"bad range {attrs.get('ref', '')}")
+            for key in ("headerRowCount", "totalsRowCount"):
+                v = attrs.get(key, "0")
+                if not v.isdigit() or len(v) > 7 or int(v) > SHEET_ROWS:
+                    raise _Refuse(f"bad row count {key}={v}")
+            self.p.StartElementHandler = None
+        elif local in ("document-content", "document") and self.ods:
+            self.table: SheetStats | None = None
+            self.p.StartElementHandler = self._ods_start
+            self.p.EndElementHandler = self._ods_end
+            self.depth_cell = 0
+        else:
+            self.p.StartElementHandler = None
+
+    # -- xlsx sheets (called for every element of the sheet: the common cases come first, no regex)
+    def _sheet(self, name, attrs):
+        local = name if len(name) < 3 else name[name.find(":") + 1:]
+        if local == "c":
+            r = attrs.get("r")
+            if r is not None:
+                letters = r.rstrip("0123456789")
+                col = _COLUMNS.get(letters)
+                if col is None or r[len(letters):] != self.row_text:
+                    col = self._cell_ref(r)
+                self.col = col
+            else:
+                self.col += 1
+                if self.col > SHEET_COLS:
+                    raise _Refuse(f"outside column {self.col}")
+            self.cell = True
+        elif local == "v" or local == "is" or local == "f":
+            if self.cell:
+                self.cell = False  # counted once
+                s = self.sheet
+                s.cells += 1
+                if self.row > s.rows or self.col > s.cols:
+                    s.rows, s.cols = max(s.rows, self.row), max(s.cols, self.col)
+                    s.far = (self.row, self.col)
+        elif local == "row":
+            r = attrs.get("r")
+            if r is not None:
+                if not r.isdigit() or len(r) > 12:
+                    raise _Refuse(f"bad row {r}")
+                self.row = int(r)
+            else:
+                self.row += 1
+            if self.row > SHEET_ROWS or self.row < 1:
+                raise _Refuse(f"outside row {self.row}")
+            self.row_text = str(self.row)
+            self.col = 0
+        elif local == "dimension":
+            for ref in attrs.get("ref", "").split(":") if attrs.get("ref") else ():
+                rc = _ref(ref)
+                if rc is None or not (1 <= rc[0] <= SHEET_ROWS and 1 <= rc[1] <= SHEET_COLS):
+                    raise _Refuse(f"bad range {attrs.get('ref', '')}")
+        elif local == "col":
+            lo, hi = attrs.get("min", "1"), attrs.get("max", "1")
+            if not (lo.isdigit() and hi.isdigit() and len(lo) < 7 and len(hi) < 7
+                    and 1 <= int(lo) <= int(hi) <= SHEET_COLS):
+                raise _Refuse(f"bad columns {lo}:{hi}")
+
+    def _cell_ref(self, r: str) -> int:
+        """The column of cell reference ``r`` in the current row (the slow path: checks it whole)."""
+        rc = _ref(r)
+        if rc is None or rc[0] != self.row:
+            raise _Refuse(f"bad cell {r}")
+        if rc[1] > SHEET_COLS:
+            raise _Refuse(f"outside cell {r}")
+        letters = r.rstrip("0123456789")
+        if letters.isupper() and len(_COLUMNS) < 20_000:
+            _COLUMNS[letters] = rc[1]
+        return rc[1]
+
+    def _sst(self, attrs):
+        for key, most in (("uniqueCount", self.size // 5 + 1), ("count", self.package_size // 10 + 1)):
+            v = attrs.get(key)
+            if v is None:
+                continue
+            if not v.isdigit() or len(v) > 12 or int(v) > most:
+                raise _Refuse(f"count {key}={v}")
+
+    # -- ods content
+    def _ods_start(self, name, attrs):
+        local = name[name.find(":") + 1:]
+        if self.depth_cell:
+            self.depth_cell += 1
+            if self.cell_rep:
+                self._ods_value()
+            return
+        if local == "table":
+            self.table = SheetStats()
+            self.table_name = attrs.get("table:name", "")
+            self.stats[self.table_name] = self.table
+            self.row = 0
+        elif local == "table-row" and self.table is not None:
+            rep = _repeat(attrs.get("table:number-rows-repeated"))
+            self.row_rep, self.row_cells, self.row_last, self.col = rep, 0, 0, 0
+        elif local in ("table-cell", "covered-table-cell") and self.table is not None:
+            self.cell_rep = _repeat(attrs.get("table:number-columns-repeated"))
+            self.depth_cell = 1
+            self.col += self.cell_rep
+            if "office:value-type" in attrs or "table:formula" in attrs:
+                self._ods_value()
+
+    def _ods_value(self):
+        rep, self.cell_rep = self.cell_rep, 0
+        if self.col > SHEET_COLS:
+            raise _Refuse(f"outside column {self.col}")
+        self.row_cells += rep
+        self.row_last = self.col
+
+    def _ods_end(self, name):
+        if self.depth_cell:
+            self.depth_cell -= 1
+            return
+        local = name[name.find(":") + 1:]
+        if local == "table-row" and self.table is not None:
+            s = self.table
+            self.row += self.row_rep
+            if self.row_cells:
+                if self.row > SHEET_ROWS:
+                    raise _Refuse(f"outside row {self.row}")
+                s.cells += self.row_cells * self.row_rep
+                if self.row > s.rows or self.row_last > s.cols:
+                    s.rows, s.cols = max(s.rows, self.row), max(s.cols, self.row_last)
+                    s.far = (self.row, self.row_last)
+        elif local == "table":
+            self.table = None
+
+    def feed(self, chunk: bytes, final: bool = False) -> None:
+        self.p.Parse(chunk, final)
+
+
+def _repeat(v: str | None) -> int:
+    if v is None:
+        return 1
+    if not v.isdigit() or len(v) > 10 or int(v) < 1:
+        raise _Refuse(f"bad repeat {v}")
+    return int(v)
+
+
+def _addr(row: int, col: int) -> str:
+    from .table import address
+
+    return address(row - 1, col - 1)
+
+
+def _flat_ods(fh) -> bool:
+    """True when the file is one XML document of an OpenDocument office (a .fods), not a zip."""
+    fh.seek(0)
+    head = fh.read(4096)
+    if head.startswith(b"PK"):
+        return False
+    return b"<office:document" in head or b":document " in head and b"opendocument" in head
+
+
+def _scan_content(zf: zipfile.ZipFile, infos: list[zipfile.ZipInfo], name: str, *, ods: bool) -> Scan:
+    """Stream every XML part once (expat, 64 KiB at a time: linear time, bounded memory) and
+    refuse, in one sentence, what no spreadsheet program writes and what would make a reader
+    allocate far beyond the file's content."""
+    scan = Scan()
+    if ods and any(i.filename == "META-INF/manifest.xml" for i in infos) and \
+            b"encryption-data" in zf.read("META-INF/manifest.xml"):
+        return scan  # saved with a password: its parts are ciphertext, and the reader refuses it in words
+    total = sum(i.file_size for i in infos)
+    names = None
+    for info in infos:
+        part = info.filename
+        low = part.lower()
+        if info.is_dir() or not low.endswith(_XML_PARTS):
+            continue
+        legacy = ods and part == "META-INF/manifest.xml"
+        ps = _PartScan(part, info.file_size, total, ods, legacy) if not low.endswith(".vml") else None
+        decoder = codecs.getincrementaldecoder("utf-8")()
+        where = f"part {_q(part)}"
+        try:
+            with zf.open(info) as fh:
+                first = True
+                while True:
+                    chunk = fh.read(_CHUNK)
+                    if first:
+                        first = False
+                        if chunk.startswith((b"\xff\xfe", b"\xfe\xff", b"<\x00", b"\x00<")):
+                            raise _Refuse("encoding UTF-16")
+                    decoder.decode(chunk, not chunk)
+                    if ps is not None:
+                        ps.feed(chunk, not chunk)
+                    if not chunk:
+                        break
+        except UnicodeDecodeError:
+            raise WorkbookError(f"{name}: {where} is not UTF-8 text, which the format asks for; open the "
+                                "workbook in a spreadsheet program and save it again") from None
+        except expat.ExpatError as exc:
+            raise WorkbookError(f"{name}: {where} is damaged (not well-formed XML at line {exc.lineno}); "
+                                "open the workbook in a spreadsheet program and save it again") from None
+        except _Refuse as r:
+            why = r.message
+            if why == "dtd":
+                raise WorkbookError(f"{name}: {where} declares a DTD (<!DOCTYPE ...>), which workbooks never "
+                                    "do; lagsheet does not read XML entities") from None
+            if why.startswith("encoding "):
+                raise WorkbookError(f"{name}: {where} is stored as {why[9:]} text; lagsheet reads parts stored "
+                                    "as UTF-8, as spreadsheet programs write them: open the workbook in one "
+                                    "and save it again") from None
+            if why.startswith("markup"):
+                raise WorkbookError(f"{name}: {where} hides XML markup inside a comment, which spreadsheet "
+                                    "programs never write; open the workbook in one and save it again") from None
+            if why.startswith("count "):
+                key, _, v = why[6:].partition("=")
+                raise WorkbookError(f"{name}: the shared strings part claims {_num(v)} strings ({key}), more than "
+                                    f"its {_size(info.file_size)} can hold; the file is damaged or was not "
+                                    "written by a spreadsheet program: open it in one and save it again") from None
+            if names is None:
+                names = {} if ods else _sheet_names(zf)
+            if ods and getattr(ps, "table_name", None) is not None:
+                names[part] = ps.table_name
+            sheet = f"sheet {_q(names[part])}" if part in names else where
+            raise WorkbookError(f"{name}: {sheet} has {_what(why)}, outside any sheet (the last cell of a "
+                                "sheet is XFD1048576); the file is damaged or was not written by a spreadsheet "
+                                "program: open it in one and save it again") from None
+        if ps is not None:
+            scan.sheets.update(ps.stats)
+    if ods:
+        for table, stats in scan.sheets.items():
+            if stats.too_big():
+                raise WorkbookError(stats.refusal(name, table))
+    return scan
+
+
+def _num(v: str) -> str:
+    return f"{int(v):,}" if v.isdigit() else repr(v)
+
+
+def _what(why: str) -> str:
+    kind, _, what = why.partition(" ")
+    if kind in ("bad", "outside"):
+        sort, _, value = what.partition(" ")
+        if sort == "repeat":
+            return f"a repeat count of {value!s}"
+        if sort == "row" and value.startswith("count "):
+            return f"a table claiming {value[6:]} rows"
+        return {"cell": "a cell reference", "row": "a row number", "range": "a range", "columns": "a column range",
+                "column": "a column number"}.get(sort, sort) + f" {value}"
+    return why
+
+
+def _sheet_names(zf: zipfile.ZipFile) -> dict[str, str]:
+    """Sheet part -> sheet name, best effort (for messages), from xl/workbook.xml and its relationships."""
+    import posixpath
+
+    out: dict[str, str] = {}
+    try:
+        targets: dict[str, str] = {}
+        sheets: list[tuple[str, str]] = []
+
+        def rel(tag, attrs):
+            if tag.rpartition(":")[2] == "Relationship" and "Id" in attrs:
+                targets[attrs["Id"]] = attrs.get("Target", "")
+
+        def sheet(tag, attrs):
+            if tag.rpartition(":")[2] == "sheet":
+                rid = next((v for k, v in attrs.items() if k.endswith(":id")), "")
+                sheets.append((attrs.get("name", ""), rid))
+
+        for part, handler in (("xl/_rels/workbook.xml.rels", rel), ("xl/workbook.xml", sheet)):
+            p = expat.ParserCreate()
+            p.StartElementHandler = handler
+            p.Parse(zf.read(part), True)
+        for sname, rid in sheets:
+            t = targets.get(rid, "")
+            part = t.lstrip("/") if t.startswith("/") else posixpath.normpath(posixpath.join("xl", t))
+            out[part] = sname
+    except Exception:  # only for a message: the part name serves as well
+        pass
+    return out

@@ -123,8 +123,12 @@ def calamine_grid(values, name: str, path: Path) -> list[list[Any]]:
 
     try:
         return values.get_sheet_by_name(name).to_python(skip_empty_area=False)
-    except Exception as exc:  # calamine raises its own kinds; all mean "cannot be read"
-        raise WorkbookError(f"{path.name}: sheet {name!r} cannot be read ({exc})") from exc
+    except BaseException as exc:  # calamine's own kinds, a native panic too: all mean "cannot be read"
+        if isinstance(exc, (KeyboardInterrupt, SystemExit, GeneratorExit)):
+            raise
+        raise WorkbookError(f"{path.name}: sheet '{name}' cannot be read (its cells are damaged or not as "
+                            "spreadsheet programs write them); open the workbook in a spreadsheet program "
+                            "and save it again") from None
 
 
 def sheet_name_for(book: Book, wanted: str, taken: Iterable[str] | None = None) -> tuple[str, bool]:

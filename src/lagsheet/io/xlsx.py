@@ -54,12 +54,13 @@ CT_COMMENTS = "application/vnd.openxmlformats-officedocument.spreadsheetml.comme
 CT_VML = "application/vnd.openxmlformats-officedocument.vmlDrawing"
 
 _OTHER = object()  # a written value that is neither a number, a text nor empty (see _SheetPatch)
-_ATTR = re.compile(r'([\w:]+)\s*=\s*"([^"]*)"')
+# a name starts where no name character precedes it: each character is tried once (linear time)
+_ATTR = re.compile(r"""(?<![\w:.-])([\w:.-]+)\s*=\s*(?:"([^"]*)"|'([^']*)')""")
 _INVALID_XML = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ufffe\uffff]")
 
 
 def _attrs(tag_text: str) -> dict[str, str]:
-    return dict(_ATTR.findall(tag_text))
+    return {k: a or b for k, a, b in _ATTR.findall(tag_text)}
 
 
 def _text(s: str) -> str:
@@ -128,9 +129,10 @@ class XlsxBook:
         self._raw: dict[str, RawSheet] = {}
         self._kinds = list(kinds) or [(s.name, "worksheet") for s in sheets]  # (name, kind) of every sheet
         self._fixed: set[str] = set()  # sheet parts calamine reads from a mended copy (see _calamine_fixes)
+        self._scan = None  # what preflight's content scan found (sheet statistics by part)
 
     @classmethod
-    def open(cls, path: Path) -> XlsxBook:
+    def open(cls, path: Path, scan=None) -> XlsxBook:
         if not zipfile.is_zipfile(path):
             raise WorkbookError(f"{path.name}: not an Excel workbook (the file is not a zip package)")
         try:
@@ -153,9 +155,14 @@ class XlsxBook:
             values = _calamine(path, zf, _calamine_fixes(zf, ()))
         except WorkbookError:
             raise
-        except Exception as exc:  # any library failure means the file cannot be read
-            raise WorkbookError(f"{path.name}: cannot be read as a workbook ({exc})") from exc
-        return cls(path, zf, sheets, values, kinds)
+        except BaseException as exc:  # any library failure (a native panic too) means it cannot be read
+            _reraise_interrupt(exc)
+            raise WorkbookError(f"{path.name}: cannot be read as a workbook (its parts are damaged or not "
+                                "as spreadsheet programs write them); open it in a spreadsheet program and "
+                                "save it again") from None
+        book = cls(path, zf, sheets, values, kinds)
+        book._scan = scan
+        return book
 
     def sheet_names(self) -> list[str]:
         return [s.name for s in self._sheets]
@@ -170,13 +177,16 @@ class XlsxBook:
     def sheet(self, name: str) -> RawSheet:
         if name not in self._raw:
             part = self._part(name)
+            stats = self._scan.sheets.get(part) if self._scan is not None else None
+            if stats is not None and stats.too_big():  # before calamine fills the rectangle from A1
+                raise WorkbookError(stats.refusal(self.path.name, name))
             data = self._zip.read(part)
             at = data.find(b"mergeCell")  # merges follow the cells: no regular expression over the rows
             if at >= 0 and part not in self._fixed and _LINE_MERGE.search(data, max(at - 64, 0)):
                 self._fixed.add(part)  # calamine cannot read a merge of whole columns or rows: mend its copy
                 self._values = _calamine(self.path, self._zip, _calamine_fixes(self._zip, self._fixed))
             grid = calamine_grid(self._values, name, self.path)
-            uncached = _uncached_formulas(data.decode("utf-8")) if b"<f" in data or b":f" in data else set()
+            uncached = _uncached_formulas(data) if b"<f" in data or b":f" in data else set()
             del data
             self._raw[name] = RawSheet(name, grid, uncached, self._totals_rows(part))
         return self._raw[name]
@@ -388,18 +398,52 @@ def _calamine(path: Path, zf: zipfile.ZipFile, fixes: dict[str, bytes]):
 _CELL = re.compile(r"<(\w+:)?c\b([^>]*?)(?:/>|>(.*?)</\1?c>)", re.S)
 
 
-def _uncached_formulas(xml: str) -> set[tuple[int, int]]:
-    """0-based (row, col) of formula cells with no cached value."""
-    out = set()
-    if "<f" not in xml and ":f" not in xml:
-        return out
-    for m in _CELL.finditer(xml):
-        body = m.group(3) or ""
-        if re.search(r"<(\w+:)?f\b", body) and not re.search(r"<(\w+:)?v>[^<]", body):
-            ref = _attrs(m.group(2)).get("r")
+def _reraise_interrupt(exc: BaseException) -> None:
+    if isinstance(exc, (KeyboardInterrupt, SystemExit, GeneratorExit)):
+        raise exc
+
+
+def _uncached_formulas(data: bytes) -> set[tuple[int, int]]:
+    """0-based (row, col) of formula cells with no cached value, by one expat pass (linear time)."""
+    from xml.parsers import expat
+
+    out: set[tuple[int, int]] = set()
+    state = {"row": 0, "col": -1, "f": False, "v": False, "in_v": False}
+
+    def start(tag, attrs):
+        local = tag[tag.find(":") + 1:]
+        if local == "c":
+            ref = attrs.get("r")
+            state["col"] = _col_index(ref) if ref else state["col"] + 1
             if ref:
-                row = int(re.sub(r"[A-Za-z]", "", ref)) - 1
-                out.add((row, _col_index(ref)))
+                digits = ref.lstrip("$ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz").lstrip("$")
+                if digits.isdigit():
+                    state["row"] = int(digits) - 1
+            state["f"] = state["v"] = False
+        elif local == "f":
+            state["f"] = True
+        elif local == "v":
+            state["in_v"] = True
+        elif local == "row":
+            r = attrs.get("r")
+            state["row"] = int(r) - 1 if r and r.isdigit() else state["row"] + 1
+            state["col"] = -1
+
+    def text(data):
+        if state["in_v"] and data:
+            state["v"] = True
+
+    def end(tag):
+        local = tag[tag.find(":") + 1:]
+        if local == "v":
+            state["in_v"] = False
+        elif local == "c" and state["f"] and not state["v"]:
+            out.add((state["row"], state["col"]))
+
+    p = expat.ParserCreate()
+    p.buffer_text = True
+    p.StartElementHandler, p.EndElementHandler, p.CharacterDataHandler = start, end, text
+    p.Parse(data, True)
     return out
 
 
@@ -820,13 +864,13 @@ class _SheetPatch:
             m = pat.search(self.tail)
             where = "tail" if m else "head"
         xml = getattr(self, where)
-        covered = set()
+        covered = []  # (first, last) 0-based column ranges: no set of every column (max may be 16,384)
         if m:
             for cm in re.finditer(rf"<{p}col\b[^>]*>", m.group(1)):
                 a = _attrs(cm.group(0))
-                covered.update(range(int(a.get("min", 1)) - 1, int(a.get("max", 1))))
+                covered.append((int(a.get("min", 1)) - 1, int(a.get("max", 1)) - 1))
         new = "".join(f'<{self.p}col min="{c + 1}" max="{c + 1}" width="{w:g}" customWidth="1"/>'
-                      for c, w in sorted(self.e.widths.items()) if c not in covered)
+                      for c, w in sorted(self.e.widths.items()) if not any(lo <= c <= hi for lo, hi in covered))
         if not new:
             return
         if m:
@@ -1360,10 +1404,40 @@ _VML_HEAD = ('<xml xmlns:v="urn:schemas-microsoft-com:vml" xmlns:o="urn:schemas-
 
 def _strip_vml(vml: str, refs: set[str]) -> str:
     """Remove the note shapes anchored at ``refs`` that lagsheet wrote (marked by their id)."""
-    def keep(m):
-        return "" if 'id="lagsheet_' in m.group(0) else m.group(0)
+    # one pass, each character looked at a bounded number of times: a VML part need not be
+    # well-formed XML, and a pattern over it could backtrack (comments full of '<shape')
+    out, pos, i, n = [], 0, 0, len(vml)
+    while True:
+        i = vml.find("<", i)
+        if i < 0:
+            break
+        for opener, closer in (("<!--", "-->"), ("<![CDATA[", "]]>")):
+            if vml.startswith(opener, i):
+                j = vml.find(closer, i + len(opener))
+                i = n if j < 0 else j + len(closer)
+                break
+        else:
+            j = vml.find(">", i)
+            if j < 0:
+                break
+            m = _SHAPE_OPEN.match(vml, i, j + 1)
+            if m and vml[j - 1] != "/":
+                close = f"</{m.group(1) or ''}shape>"
+                k = vml.find(close, j)
+                if k < 0:
+                    break
+                end = k + len(close)
+                if 'id="lagsheet_' in vml[i:end]:
+                    out.append(vml[pos:i])
+                    pos = end
+                i = end
+            else:
+                i = j + 1
+    out.append(vml[pos:])
+    return "".join(out)
 
-    return re.sub(r"<(\w+:)?shape\b[^>]*>.*?</\1?shape>", keep, vml, flags=re.S)
+
+_SHAPE_OPEN = re.compile(r"<(\w+:)?shape\b")
 
 
 def _add_vml(vml: str, wanted: dict[str, str]) -> str:
