@@ -285,8 +285,10 @@ SHEET_ROWS, SHEET_COLS = 1_048_576, 16_384  # the sheet limits of Excel and of L
 MAX_AREA = 4_000_000  # cells of that rectangle, at most (about 0.36 GB)
 SPARSE_AREA = 2_000_000  # ... and above this, a quarter of it must hold values (a stray far cell is refused)
 _CHUNK = 2**16
-_PATCHED_ROOTS = {"worksheet", "comments", "table", "Relationships", "Types", "styleSheet", "workbook",
-                  "sst", "document-content", "document-styles", "document"}
+# xlsx parts the writer patches with tag patterns: markup hidden in their comments is refused. The
+# .ods parts are not here: the ods writer walks content.xml with a linear scanner that steps over
+# comments, CDATA and processing instructions whole (io/xmlscan.py), so such a file is filled.
+_PATCHED_ROOTS = {"worksheet", "comments", "table", "Relationships", "Types", "styleSheet", "workbook", "sst"}
 
 
 @dataclass
