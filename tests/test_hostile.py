@@ -155,7 +155,7 @@ def build_hostile(tmp: Path) -> dict[str, tuple[Path, str]]:
     put("bomb: many 7 MiB parts at 1000:1", _raw_zip(tmp / "bomb-package.xlsx", many), "the mark of a zip bomb")
     liar = [m if m[0] != "xl/worksheets/sheet1.xml" else (m[0], mid, zlib.crc32(sheet.encode()), len(sheet), 8, 0)
             for m in members]
-    put("bomb: sizes that lie", _raw_zip(tmp / "bomb-liar.xlsx", liar), "damaged zip package")
+    put("bomb: sizes that lie", _raw_zip(tmp / "bomb-liar.xlsx", liar), "zip package is damaged")
     sheet_at = next(k for k, m in enumerate(members) if m[0] == "xl/worksheets/sheet1.xml")
     put("bomb: overlapping entries", _raw_zip(tmp / "bomb-overlap.xlsx", members,
                                               pointers=[*range(len(members)), *([sheet_at] * 50)]),

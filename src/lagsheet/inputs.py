@@ -122,6 +122,10 @@ def _us_units(t: Table | None) -> bool:
     return us > si
 
 
+class _SettingError(ValueError):
+    """A setting out of its range, in our own words (shown to the user as they are)."""
+
+
 def _settings(book: Book, notes: list[Note]) -> dict[str, object]:
     values = {k: v[3] for k, v in schema.SETTINGS.items()}
     values["_given"] = set()
@@ -174,22 +178,24 @@ def _settings(book: Book, notes: list[Note]) -> dict[str, object]:
             converted = float(to_si([number], unit, si, difference=kind == schema.DIFFERENCE)[0])
             lo, closed, hi = schema.SETTING_RANGES[key]
             if not (np.isfinite(converted) and (converted >= lo if closed else converted > lo) and converted <= hi):
-                raise ValueError(f"it must be {'from' if closed else 'above'} {_show_setting(lo, si, unit)} "
+                raise _SettingError(f"it must be {'from' if closed else 'above'} {_show_setting(lo, si, unit)} "
                                  f"{'to' if closed else 'and at most'} {_show_setting(hi, si, unit)}")
             if str(unit) == "percent" and 0 < number < 1:
                 words = (f"setting {title!r}: {value!r} % is read as {number / 100:g}, i.e. {number:g} %; "
                          f"a value under 1 in a % field is usually a fraction: write {number * 100:g} %, "
                          "or the fraction with the unit 1")
                 if key == "heating_efficiency":  # no plant runs at under 1 %: the costs would be 100 × off
-                    raise ValueError(words)
+                    raise _SettingError(words)
                 notes.append(Note("warning", "percent-fraction", words, name, where))
             values[key] = converted
             values["_given"].add(key)
             if currency and "currency" not in values["_given"]:
                 values["currency"] = currency
         except (TypeError, ValueError, OverflowError) as exc:
+            written = f"{value} {unit_text or ''}".strip()
+            why = f" ({exc})" if isinstance(exc, (_SettingError, UnitTextError)) else ""  # our words only
             notes.append(Note("error", "bad-setting",
-                              f"setting {title!r}: {value!r} {unit_text} cannot be used ({exc}); "
+                              f"setting {title!r}: '{written}' cannot be used{why}; "
                               f"write a number with a unit like {dim or 'none'}; the default is used",
                               name, where))
     return values

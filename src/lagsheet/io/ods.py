@@ -89,8 +89,8 @@ class OdsBook:
         except UnicodeDecodeError:
             raise WorkbookError(f"{path.name}: its content.xml is not UTF-8 text; open the file in LibreOffice "
                                 "and save it again as .ods") from None
-        except (zipfile.BadZipFile, OSError, EOFError) as exc:
-            raise WorkbookError(f"{path.name}: the zip package is damaged ({type(exc).__name__}); open the file "
+        except (zipfile.BadZipFile, OSError, EOFError):
+            raise WorkbookError(f"{path.name}: the zip package is damaged; open the file "
                                 "in LibreOffice and save it again as .ods") from None
         try:
             try:

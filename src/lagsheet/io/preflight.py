@@ -118,8 +118,9 @@ def check_package(path: Path) -> Scan:
     except WorkbookError:
         raise
     except (zipfile.BadZipFile, zipfile.LargeZipFile, EOFError, ValueError, NotImplementedError,
-            RuntimeError, OSError, UnicodeDecodeError, struct.error) as exc:
-        raise WorkbookError(f"{name}: damaged zip package ({exc}); re-save it in a spreadsheet program") from None
+            RuntimeError, OSError, UnicodeDecodeError, struct.error):
+        raise WorkbookError(f"{name}: the zip package is damaged and cannot be read; open it in a spreadsheet "
+                            "program and save it again") from None
     return scan
 
 

@@ -285,8 +285,9 @@ def verify_workbook(path: Path, *, required: str = "[Content_Types].xml"):
         reopened.sheet_names  # noqa: B018
     except WorkbookError:
         raise
-    except Exception as exc:  # any failure to reopen means the file must not replace anything
-        raise WorkbookError(f"the written file failed its check ({type(exc).__name__}: {exc})") from None
+    except Exception:  # any failure to reopen means the file must not replace anything
+        raise WorkbookError("the written file failed its check: it could not be reopened as a "
+                            "spreadsheet; please report this with the workbook") from None
     return reopened
 
 
