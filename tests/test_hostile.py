@@ -747,6 +747,23 @@ def _shapes_in_a_vml_comment(tmp: Path) -> Path:
     return _zip(tmp / "vml-comment.xlsx", parts)
 
 
+def _self_closing_comments_in_extlst(tmp: Path) -> Path:
+    """A person's note whose comments part carries 20,000 self-closing 'x:comment' elements in an extLst."""
+    src = write_book(tmp / "noted2.xlsx", [pipe(), pipe("P-2", Insulation="unobtainium")])
+    wb = openpyxl.load_workbook(src)
+    wb["Lines"]["B1"].comment = openpyxl.comments.Comment("a person's note", "someone")
+    wb.save(src)
+    with zipfile.ZipFile(src) as z:
+        parts = {n: z.read(n) for n in z.namelist()}
+    part = next(n for n in parts if "comments" in n and n.endswith(".xml"))
+    text = parts[part].decode()
+    at = text.rindex("</")
+    ext = ('<extLst xmlns:x="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><ext uri="{0}">'
+           + '<x:comment ref="A1" authorId="0"/>' * 20_000 + "</ext></extLst>")
+    parts[part] = (text[:at] + ext + text[at:]).encode()
+    return _zip(tmp / "extlst-comments.xlsx", parts)
+
+
 def _excel_style_ods(tmp: Path) -> Path:
     """An .ods whose Lines table ends, as Excel writes it, with styled empty cells repeated to the sheet's end."""
     return _ods_with(tmp, "excel-style.ods", (
@@ -756,6 +773,7 @@ def _excel_style_ods(tmp: Path) -> Path:
 
 READABLE = {"a 200,000-character single-quoted attribute": _long_attribute,
             "100,000 '<v:shape>' openings in a VML comment": _shapes_in_a_vml_comment,
+            "20,000 self-closing comments in an extLst": _self_closing_comments_in_extlst,
             "an ods with empty cells repeated to the sheet end": _excel_style_ods}
 
 

@@ -38,6 +38,7 @@ from .table import (
     post_write_check,
     sheet_name_for,
 )
+from .xmlscan import START, Scanner
 
 AUTHOR = "lagsheet"
 MARK = "lagsheet: "  # our comments start with this, so that a later run replaces them
@@ -1350,24 +1351,45 @@ def fonts_in_schema_order(styles_xml: bytes) -> bytes:
 
 
 def _strip_our_comments(cxml: str) -> tuple[set[str], set[str], str]:
-    """Remove lagsheet's comments; return the refs of people's comments, of ours, and the XML."""
+    """Remove lagsheet's comments; return the refs of people's comments, of ours, and the XML.
+
+    Walked with the linear scanner (:mod:`.xmlscan`): only the ``comment`` children of
+    ``commentList`` are looked at, each skipped whole, so elements of the same name
+    elsewhere (an ``extLst``) or in a comment cost nothing and are never taken.
+    """
     if not cxml:
         return set(), set(), cxml
-    authors = re.findall(r"<(?:\w+:)?author>(.*?)</(?:\w+:)?author>", cxml, re.S)
+    sc = Scanner(cxml)
+    _, _, root_end = sc.root()
+
+    def local(name: str) -> str:
+        return name.rpartition(":")[2]
+
+    authors: list[str] = []
+    spans: list[tuple[int, int, int]] = []  # (start, start-tag end, element end) of each comment
+    for kind, name, _start, head_end, _stop in sc.children(root_end):
+        if local(name) == "authors" and kind == START:
+            authors = [cxml[e:cxml.rfind("<", e, z)] if k == START else ""
+                       for k, n, _, e, z in sc.children(head_end) if local(n) == "author"]
+        elif local(name) == "commentList" and kind == START:
+            spans = [(s0, e, z) for k, n, s0, e, z in sc.children(head_end) if local(n) == "comment"]
     our_ids = {str(i) for i, a in enumerate(authors) if _unescape(a) == AUTHOR}
     theirs, ours = set(), set()
-
-    def keep(m):
-        a = _attrs(re.match(r"<[^>]*>", m.group(0)).group(0))
-        text = re.sub(r"<[^>]+>", "", m.group(0))
+    out, pos = [], 0
+    for start, head_end, stop in spans:
+        a = _attrs(cxml[start:head_end])
+        text = _TAGS.sub("", cxml[head_end:stop])
         if a.get("authorId") in our_ids or _unescape(text).startswith(MARK):
             ours.add(a.get("ref"))
-            return ""
-        theirs.add(a.get("ref"))
-        return m.group(0)
+            out.append(cxml[pos:start])
+            pos = stop
+        else:
+            theirs.add(a.get("ref"))
+    out.append(cxml[pos:])
+    return theirs, ours, "".join(out)
 
-    cxml = re.sub(r"<(\w+:)?comment\b[^>]*>.*?</\1?comment>", keep, cxml, flags=re.S)
-    return theirs, ours, cxml
+
+_TAGS = re.compile(r"<[^<>]*+>")
 
 
 def _add_comments(cxml: str, wanted: dict[str, str]) -> str:
