@@ -747,6 +747,14 @@ def _shapes_in_a_vml_comment(tmp: Path) -> Path:
     return _zip(tmp / "vml-comment.xlsx", parts)
 
 
+def _foreign_c_elements_in_a_row(tmp: Path) -> Path:
+    """A data row holding 20,000 empty elements of another namespace whose prefix is 'c' ('<c:a></c:a>')."""
+    xml = _sheet_xml(tmp)
+    junk = '<c:a xmlns:c="urn:example"></c:a>' * 20_000
+    at = xml.index("</row>", xml.index('<row r="2"'))
+    return _with_sheet(tmp, "foreign-c.xlsx", (xml[:at] + junk + xml[at:]).encode())
+
+
 def _self_closing_comments_in_extlst(tmp: Path) -> Path:
     """A person's note whose comments part carries 20,000 self-closing 'x:comment' elements in an extLst."""
     src = write_book(tmp / "noted2.xlsx", [pipe(), pipe("P-2", Insulation="unobtainium")])
@@ -774,6 +782,7 @@ def _excel_style_ods(tmp: Path) -> Path:
 READABLE = {"a 200,000-character single-quoted attribute": _long_attribute,
             "100,000 '<v:shape>' openings in a VML comment": _shapes_in_a_vml_comment,
             "20,000 self-closing comments in an extLst": _self_closing_comments_in_extlst,
+            "20,000 foreign 'c:' elements in a row": _foreign_c_elements_in_a_row,
             "an ods with empty cells repeated to the sheet end": _excel_style_ods}
 
 

@@ -365,7 +365,7 @@ def _calamine_fixes(zf: zipfile.ZipFile, sheet_parts: Iterable[str]) -> dict[str
         kind = rels.get(rid, {}).get("Type", "").rsplit("/", 1)[-1]
         return m.group(0) if kind in _CALAMINE_KINDS else ""
 
-    mended = re.sub(r"<(?:\w+:)?sheet\b[^>]*?(?:/>|>.*?</(?:\w+:)?sheet>)", keep, xml, flags=re.S)
+    mended = re.sub(r"<(?:\w+:)?sheet(?=[\s/>])[^>]*?(?:/>|>.*?</(?:\w+:)?sheet>)", keep, xml, flags=re.S)
     if mended != xml:
         out[wb_part] = mended.encode("utf-8")
 
@@ -396,7 +396,9 @@ def _calamine(path: Path, zf: zipfile.ZipFile, fixes: dict[str, bytes]):
     return python_calamine.CalamineWorkbook.from_filelike(buf)
 
 
-_CELL = re.compile(r"<(\w+:)?c\b([^>]*?)(?:/>|>(.*?)</\1?c>)", re.S)
+# an element's name ends at a space, '/' or '>' (not '\b', which would take '<c:x>' for a cell and
+# then look for '</c>' to the end of the text: quadratic on a hostile row)
+_CELL = re.compile(r"<(\w+:)?c(?=[\s/>])([^>]*?)(?:/>|>(.*?)</\1?c>)", re.S)
 
 
 def _reraise_interrupt(exc: BaseException) -> None:
@@ -736,7 +738,7 @@ class _SheetPatch:
         pos = 0
         todo = sorted(by_row)  # rows to write, in order
         k = 0
-        row_re = re.compile(rf"<{p}row\b([^>]*?)(/>|>(.*?)</{p}row>)", re.S)
+        row_re = re.compile(rf"<{p}row(?=[\s/>])([^>]*?)(/>|>(.*?)</{p}row>)", re.S)
         last_r = -1
         for rm in row_re.finditer(inner):
             if k >= len(todo):
@@ -1020,7 +1022,7 @@ class _SheetPatch:
         pos = None
         tail = self.tail  # it starts with </sheetData>; every element after sheetData follows it
         for name in after[after.index("sheetData") + 1:]:
-            for m in re.finditer(rf"<{re.escape(self.p)}{name}\b[^>]*?(?:/>|>.*?</{re.escape(self.p)}{name}>)",
+            for m in re.finditer(rf"<{re.escape(self.p)}{name}(?=[\s/>])[^>]*?(?:/>|>.*?</{re.escape(self.p)}{name}>)",
                                  tail, re.S):
                 pos = m.end()
         if pos is None:
