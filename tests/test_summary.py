@@ -273,3 +273,102 @@ def test_fill_closing_table_and_report_say_how_many_lines_the_totals_cover(tmp_p
     assert rep["summary"]["lines_in_totals"] == {"heat_loss_W": 5, "bare_heat_loss_W": 5, "annual_cost": 5,
                                                  "annual_saving": 5}
     assert r.output.count("(5 of 6 lines)") >= 4, r.output
+
+
+# --------------------------------------------------------------------------- one material in both slots
+
+SAME_HEAD = ["Tag", "Shape", "Size", "Length [m]", "Surface area [m²]", "Operating temperature [°C]", "Insulation",
+             "Outer insulation", "Min thickness [mm]", "Fixed thickness [mm]"]
+SAME_ROWS = [  # Q-1 mineral wool in both slots, Q-2 plain mineral wool, Q-3 calcium silicate under mineral wool
+    {"Tag": "Q-1", "Shape": "pipe", "Size": "DN 50", "Length [m]": 10, "Operating temperature [°C]": 60,
+     "Insulation": "mineral wool", "Outer insulation": "mineral wool", "Min thickness [mm]": 40},
+    {"Tag": "Q-2", "Shape": "pipe", "Size": "DN 50", "Length [m]": 10, "Operating temperature [°C]": 60,
+     "Insulation": "mineral wool", "Fixed thickness [mm]": 20},
+    {"Tag": "Q-3", "Shape": "pipe", "Size": "DN 50", "Length [m]": 10, "Operating temperature [°C]": 60,
+     "Insulation": "calcium silicate", "Outer insulation": "mineral wool", "Min thickness [mm]": 80},
+]
+
+
+def _sheet_rows(path, name="Quantities"):
+    import openpyxl
+
+    ws = openpyxl.load_workbook(path)[name]
+    return [[c.value for c in r] for r in ws.iter_rows()]
+
+
+def test_a_line_with_one_material_in_both_slots_is_counted_once(tmp_path):
+    """Q-1 (mineral wool 20 + 20 mm) is one line of 10 m in its own row '20 + 20 mm' of the written
+    Quantities sheet; the '20 mm' row holds Q-2 alone and the mineral-wool total is 3 lines and 30 m,
+    with the volume of all four mineral-wool slots and the jacket of all three lines."""
+    src = write_book(tmp_path / "same.xlsx", SAME_ROWS, SAME_HEAD)
+    out = fill(src, tmp_path / "same-out.xlsx")
+    res = out.results
+    assert res.status == ["ok"] * 3, res.notes
+    # the thinnest sold builds that meet each floor: the thicknesses the rows are labelled by
+    np.testing.assert_allclose(res.chosen, [[0.02, 0.02], [0.02, 0.0], [0.04, 0.04]], rtol=0, atol=1e-12)
+    rows = _sheet_rows(tmp_path / "same-out.xlsx")
+    head = next(r for r in rows if r and r[0] == "Material")
+    c = {h: head.index(h) for h in head}
+    mw = {r[2]: r for r in rows if r and r[0] == "mineral wool"}
+    assert list(mw) == ["20 mm", "20 + 20 mm", "40 mm"]  # thin to thick
+    assert [mw[b][c["Lines"]] for b in mw] == [1, 1, 1]
+    assert [mw[b][c["Pipe length [m]"]] for b in mw] == [10, 10, 10]
+    assert all(r[c["Size"]] == "DN 50" for r in mw.values())
+    vol, jacket = res.quantities.volume[:, 0, :], res.quantities.jacket_area[:, 0]
+    assert mw["20 + 20 mm"][c["Insulation volume [m³]"]] == pytest.approx(vol[0, 0] + vol[0, 1], rel=1e-12)
+    assert mw["20 + 20 mm"][c["Jacket area [m²]"]] == pytest.approx(jacket[0], rel=1e-12)
+    total = next(r for r in rows if r and r[0] == "mineral wool total")
+    assert total[c["Lines"]] == 3 and total[c["Pipe length [m]"]] == 30
+    assert total[c["Insulation volume [m³]"]] == pytest.approx(vol[0, 0] + vol[0, 1] + vol[1, 0] + vol[2, 1], rel=1e-12)
+    assert total[c["Jacket area [m²]"]] == pytest.approx(jacket.sum(), rel=1e-12)
+    cs = next(r for r in rows if r and r[0] == "calcium silicate total")
+    assert (cs[c["Lines"]], cs[c["Pipe length [m]"]], cs[c["Jacket area [m²]"]]) == (1, 10, 0)
+    assert cs[c["Insulation volume [m³]"]] == pytest.approx(vol[2, 0], rel=1e-12)
+
+
+@pytest.mark.parametrize("floors", [(40, 40, 40), (60, 40, 40), (80, 80, 60), (100, 80, 80)])
+def test_quantities_of_shared_materials_are_the_sums_over_the_lines(tmp_path, floors):
+    """With mineral wool in both slots of two pipes and a wall, every row and every material total
+    counts each line once (lines, pipe length, wall area, jacket) and adds every slot's volume."""
+    q1, q3, wall = floors  # Min thickness of Q-1, Q-3 and W-1; Q-4 is Q-1 at 40 mm
+    rows = [dict(SAME_ROWS[0], **{"Min thickness [mm]": q1}), SAME_ROWS[1],
+            dict(SAME_ROWS[2], **{"Min thickness [mm]": q3}), dict(SAME_ROWS[0], Tag="Q-4"),
+            {"Tag": "W-1", "Shape": "wall", "Length [m]": 2, "Surface area [m²]": 12, "Operating temperature [°C]": 60,
+             "Insulation": "mineral wool", "Outer insulation": "mineral wool", "Min thickness [mm]": wall}]
+    inputs, res = run(tmp_path, rows, SAME_HEAD)
+    assert res.status == ["ok"] * 5, res.notes
+    q = quantities_table(inputs, res)
+    vol, jacket = res.quantities.volume[:, 0, :], res.quantities.jacket_area[:, 0]
+    expect: dict[tuple, dict] = {}  # (material, size, its slots' thicknesses [mm]) -> the lines' sums
+    for i, L in enumerate(res.lines):
+        slots = [j for j in range(len(L.materials)) if res.chosen[i, j] > 0]
+        for name in {L.materials[j].name for j in slots}:
+            mine = [j for j in slots if L.materials[j].name == name]
+            key = (name, "DN 50" if L.word == "pipe" else L.word, tuple(round(res.chosen[i, j] * 1000, 6) for j in mine))
+            e = expect.setdefault(key, {"lines": 0, "length": 0.0, "area": 0.0, "volume": 0.0, "jacket": 0.0})
+            e["lines"] += 1
+            e["length" if L.word == "pipe" else "area"] += L.length if L.word == "pipe" else L.area
+            e["volume"] += float(vol[i, mine].sum())
+            e["jacket"] += float(jacket[i]) if slots[-1] in mine else 0.0
+    got = [r for r in q.rows if r and r[0] in ("mineral wool", "calcium silicate")]
+    assert len(got) == len(expect)
+    by_material: dict[str, dict] = {}
+    for r in got:
+        parts = [x.split("×") for x in r[2].replace(" mm", "").split("+")]  # '2 × 40 + 20': slots of 80 and 20
+        slot_mm = tuple(round(float(x[0]) * float(x[1]) if len(x) == 2 else float(x[0]), 6) for x in parts)
+        e = expect[(r[0], r[1], slot_mm)]
+        assert (r[col(q, "Lines")], r[col(q, "Pipe length")], r[col(q, "Surface area")]) == \
+            (e["lines"], e["length"], e["area"])
+        assert r[col(q, "Insulation volume")] == pytest.approx(e["volume"], rel=1e-12)
+        assert r[col(q, "Jacket area")] == pytest.approx(e["jacket"], rel=1e-12)
+        t = by_material.setdefault(r[0], {k: 0.0 for k in e})
+        for k in e:
+            t[k] += e[k]
+    for name, t in by_material.items():
+        row = next(r for r in q.rows if r and r[0] == f"{name} total")
+        assert (row[col(q, "Lines")], row[col(q, "Pipe length")], row[col(q, "Surface area")]) == \
+            (t["lines"], t["length"], t["area"])
+        assert row[col(q, "Insulation volume")] == pytest.approx(t["volume"], rel=1e-12)
+        assert row[col(q, "Jacket area")] == pytest.approx(t["jacket"], rel=1e-12)
+    mw = next(r for r in q.rows if r and r[0] == "mineral wool total")
+    assert (mw[col(q, "Lines")], mw[col(q, "Pipe length")], mw[col(q, "Surface area")]) == (5, 40, 12)

@@ -171,7 +171,9 @@ def quantities_table(inputs: Inputs, res: Results) -> SheetTable:
 
     One row per outside diameter, whatever it was typed as (``NPS 2``, ``2"``, ``DN 50`` and
     ``Outside diameter`` 60.3 mm are one size), labelled as the sheet labels its sizes
-    (:func:`size_style`). Pipes give their length, flats and spheres their surface area.
+    (:func:`size_style`). Pipes give their length, flats and spheres their surface area. A line
+    is one line of each material it holds: one material in both slots is one row of it
+    (:func:`_build`), so lines, length, area and jacket count once and the volume is both slots'.
     """
     us = inputs.us_units
     t = inputs.lines
@@ -197,14 +199,15 @@ def quantities_table(inputs: Inputs, res: Results) -> SheetTable:
             size, order = f"{L.word}, OD {show(od, 'radius', us)}", round(od, 4)
         else:
             size, order = size_label(od, style, us)
-        for j, m in enumerate(L.materials):
-            th = res.chosen[i, j]
-            if th <= 0:
-                continue
-            count = int(q.layers[i, 0, j])
-            build = (f"{count} × {show(th / count, 'thickness', us)}" if count > 1
-                     else show(th, "thickness", us))
-            g = groups.setdefault((m.name, order, size, build, th),
+        # a line is one line of each material it holds: slots of one material (Insulation and
+        # Outer insulation alike) make one row of that line, their layers shown inner first
+        laid = [j for j in range(len(L.materials)) if res.chosen[i, j] > 0]
+        by_name: dict[str, list[int]] = {}
+        for j in laid:
+            by_name.setdefault(L.materials[j].name, []).append(j)
+        for name, slots in by_name.items():
+            th = float(sum(res.chosen[i, j] for j in slots))
+            g = groups.setdefault((name, order, size, th, _build(res.chosen[i], q.layers[i, 0], slots, us)),
                                   {"lines": 0, "length": 0.0, "area": 0.0, "volume": 0.0, "jacket": 0.0})
             g["lines"] += 1
             if L.geometry == CYLINDER:
@@ -213,12 +216,12 @@ def quantities_table(inputs: Inputs, res: Results) -> SheetTable:
                 g["area"] += L.area
             elif L.geometry == SPHERE:
                 g["area"] += math.pi * od**2  # the sphere's own surface, to be covered
-            g["volume"] += float(q.volume[i, 0, j])
-            if j == len([x for x in res.chosen[i] if x > 0]) - 1:  # the jacket goes on the outer material
+            g["volume"] += float(sum(q.volume[i, 0, j] for j in slots))
+            if laid[-1] in slots:  # the jacket goes on the outer material
                 g["jacket"] += float(q.jacket_area[i, 0])
     fm = {4: "#,##0.0", 5: "#,##0.0", 6: "#,##0.00", 7: "#,##0.0"}
     by_material: dict[str, list] = {}
-    for key in sorted(groups):
+    for key in sorted(groups):  # per material and size, thin to thick
         by_material.setdefault(key[0], []).append(key)
     for mat, keys in by_material.items():
         tot = {"lines": 0, "length": 0.0, "area": 0.0, "volume": 0.0, "jacket": 0.0}
@@ -226,7 +229,7 @@ def quantities_table(inputs: Inputs, res: Results) -> SheetTable:
             g = groups[key]
             for k in tot:
                 tot[k] += g[k]
-            s.add(_q_row(mat, key[2], key[3], g, us), fm)
+            s.add(_q_row(mat, key[2], key[4], g, us), fm)
         s.add(_q_row(f"{mat} total", "", "", tot, us), fm, bold=True)
     s.add([])
     s.add([{"NPS": "Sizes as NPS, the way most lines of the sheet give them; ",
@@ -237,6 +240,19 @@ def quantities_table(inputs: Inputs, res: Results) -> SheetTable:
            "Pipe length for pipes and risers (a vessel's height), surface area for flats and spheres."])
     s.widths = {0: 26, 1: 14, 2: 22, 3: 8, 4: 16, 5: 16, 6: 18, 7: 16}
     return s
+
+
+def _build(chosen, layers, slots: list[int], us: bool) -> str:
+    """The layer build of one material on one line, inner slot first: ``20 mm``, ``2 × 40 mm``,
+    and for a material in both slots ``20 + 20 mm`` (``2 × 40 mm + 20 mm`` when a slot has layers)."""
+    parts = []
+    for j in slots:
+        th, count = float(chosen[j]), int(layers[j])
+        parts.append(f"{count} × {show(th / count, 'thickness', us)}" if count > 1 else show(th, "thickness", us))
+    units = {p.rsplit(" ", 1)[-1] for p in parts}
+    if len(parts) > 1 and len(units) == 1 and not any("×" in p for p in parts):
+        return " + ".join(p.rsplit(" ", 1)[0] for p in parts) + " " + units.pop()
+    return " + ".join(parts)
 
 
 def _q_row(mat, size, build, g, us) -> list:
