@@ -206,3 +206,16 @@ def test_options_that_cannot_apply_are_one_plain_sentence(tmp_path, cli, args, w
     r = cli("audit", _filled(tmp_path, cli), *args)
     assert r.exit_code == 2 and words in r.output
     assert "Traceback" not in r.output and "Error" not in r.output
+
+
+def test_a_column_mapped_onto_text_is_not_counted_as_compared(tmp_path, cli):
+    """--map 'Tag=Thickness' compares no thickness: the summary says so instead of counting the column."""
+    r = cli("audit", _their_sheet(tmp_path, "Heat loss [W]", [1000, 500, 2000]), "--map", "Tag=Thickness")
+    assert "nothing compared in 'Tag' (read as Thickness" in r.output
+    assert "on 1 column" in r.output and "'Tag' as Thickness" not in r.output
+
+
+def test_a_mapped_column_that_clashes_with_another_is_one_sentence(tmp_path, cli):
+    """Mapping a column onto a result the sheet already has a column for is exit 2, naming both."""
+    r = cli("audit", _filled(tmp_path, cli), "--map", "Heat loss [W]=Heat loss per length")
+    assert r.exit_code == 2 and "two columns would be read as Heat loss per length" in r.output

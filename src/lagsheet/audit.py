@@ -16,7 +16,7 @@ compared. Their values are shown as they wrote them, in their column's unit.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -79,13 +79,17 @@ class Audit:
     """What was compared (lines and columns) and what differs."""
 
     findings: list[Finding]
-    columns: list[TheirColumn]
+    columns: list[TheirColumn]  # the columns that had values to compare
     lines_compared: int
+    idle: list[TheirColumn] = field(default_factory=list)  # found, but no value in them could be compared
 
     def summary(self) -> str:
         cols = ", ".join(f"{c.header!r} as {RESULTS[c.key][0]}" for c in self.columns)
         what = f"compared {self.lines_compared} line{'s' * (self.lines_compared != 1)} on " \
                f"{len(self.columns)} column{'s' * (len(self.columns) != 1)} ({cols})"
+        if self.idle:
+            what += "; nothing compared in " + ", ".join(
+                f"{c.header!r} (read as {RESULTS[c.key][0]}: no number on any line)" for c in self.idle)
         if self.findings:
             return f"{what}: {len(self.findings)} result{'s' * (len(self.findings) != 1)} differ beyond tolerance"
         return f"{what}: every audited result agrees"
@@ -122,7 +126,12 @@ def their_columns(raw: RawSheet, header_row: int, mapping: dict[str, str]) -> li
             continue
         name, unit_text = split_header(text)
         key = wanted.get(fold(name))
-        if key is None or key in found:
+        if key is None:
+            continue
+        if key in found:
+            if fold(name) in mapped or fold(split_header(found[key].header)[0]) in mapped:
+                raise AuditError(f"two columns would be read as {RESULTS[key][0]}: {found[key].header!r} and "
+                                 f"{text.strip()!r}; map only one of them (--map 'Their header={RESULTS[key][0]}')")
             continue
         si = RESULTS[key][1]
         written = unit_text if unit_text else _default_unit(key)
@@ -173,8 +182,12 @@ def audit(inputs: Inputs, raw: RawSheet, res: Results, mapping: dict[str, str] |
         written[tc.key] = vals
     v = res.values
     compared = np.zeros(res.n, dtype=bool)
+    idle = []  # columns holding no value to compare (text, blanks): not counted as compared
     for key, their in theirs.items():
-        compared |= np.isfinite(their) & np.isfinite(v[key])
+        here = np.isfinite(their) & np.isfinite(v[key])
+        compared |= here
+        if not here.any():
+            idle.append(key)
     if not compared.any():
         raise AuditError(f"the columns {', '.join(repr(c.header) for c in cols)} hold no value that lagsheet "
                          f"can compare on any line of {raw.name} (blank, text, or lines in error): fill them "
@@ -213,7 +226,8 @@ def audit(inputs: Inputs, raw: RawSheet, res: Results, mapping: dict[str, str] |
                                                     "; no single usual slip reproduces their value"))
             findings.append(Finding(t.rows[i] + 1, res.tags[i], RESULTS[key][0], float(theirs[key][i]),
                                     float(v[key][i]), cause, msg, as_written))
-    return Audit(findings, cols, int(compared.sum()))
+    return Audit(findings, [c for c in cols if c.key not in idle], int(compared.sum()),
+                 [c for c in cols if c.key in idle])
 
 
 def _other_unit_factor(unit) -> float:
