@@ -137,3 +137,20 @@ def test_check_and_fill_find_the_same_input_errors_in_random_workbooks(sheets):
             return
         event("compared")
         assert input_errors(rep["notes"] + [n for line in rep["lines"] for n in line["notes"]]) == found
+
+
+@pytest.mark.parametrize("column, value", [("Operating hours [h]", 9000), ("Wind speed [m/s]", -3),
+                                           ("Relative humidity [%]", 101)])
+def test_one_bad_condition_cell_is_one_error_where_it_is(tmp_path, column, value):
+    """A condition row with one cell out of range: that cell's error, and lines naming the condition point
+    to it; no false 'needs an Ambient temperature', no 'not defined', no built-in set of that name used."""
+    head = ["Name", "Ambient temperature [°C]", "Wind speed [m/s]", "Relative humidity [%]", "Operating hours [h]"]
+    row = {"Name": "outdoor", "Ambient temperature [°C]": 5, "Wind speed [m/s]": 2, "Relative humidity [%]": 70,
+           "Operating hours [h]": 8000, column: value}
+    src = write_book(tmp_path / "in.xlsx", [pipe(Condition="outdoor")],
+                     sheets={"Conditions": [head, [row[h] for h in head]]})
+    notes = check(src).notes
+    messages = " | ".join(n.message for n in notes)
+    assert "needs an 'Ambient temperature'" not in messages and "is not defined" not in messages
+    line = [n for n in notes if n.code == "bad-condition"]
+    assert line and "Conditions!A2" in line[0].message

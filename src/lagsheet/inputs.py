@@ -59,6 +59,7 @@ class Inputs:
     us_units: bool = False
     fluids: dict[str, UserFluid] = field(default_factory=dict)  # folded name -> fluid
     unusable: dict[str, str] = field(default_factory=dict)  # material key -> its Materials cell in error
+    bad_conditions: dict[str, str] = field(default_factory=dict)  # folded condition name -> its row's cell
 
 
 def _find(book: Book, wanted: str) -> str | None:
@@ -75,7 +76,8 @@ def read_inputs(book: Book, lines_sheet: str = "Lines", header_map: dict[str, st
     notes: list[Note] = []
     columns: list[dict] = []
     settings = _settings(book, notes)
-    conditions = _conditions(book, notes, columns)
+    bad_conditions: dict[str, str] = {}
+    conditions = _conditions(book, notes, columns, bad_conditions)
     unusable: dict[str, str] = {}
     materials = _materials(book, notes, columns, unusable)
     fluids = _fluids(book, notes, columns)
@@ -103,7 +105,7 @@ def read_inputs(book: Book, lines_sheet: str = "Lines", header_map: dict[str, st
                                   address(lines.header_row, 0)))
     us = _us_units(lines)
     return Inputs(lines, conditions, materials, dict(library.finishes()), settings, notes, columns, us,
-                  fluids, unusable)
+                  fluids, unusable, bad_conditions)
 
 
 def _us_units(t: Table | None) -> bool:
@@ -211,7 +213,9 @@ def _show_setting(x: float, si: str, unit) -> str:
     return f"{v:g}" if label == "1" else f"{v:g} {label}"
 
 
-def _conditions(book: Book, notes: list[Note], columns: list[dict]) -> dict[str, Condition]:
+def _conditions(book: Book, notes: list[Note], columns: list[dict], bad: dict[str, str]) -> dict[str, Condition]:
+    """The Conditions sheet over the built-in sets; a row with a cell in error is left out and its
+    name goes to ``bad``, so that lines naming it say where the error is."""
     out = dict(BUILTIN_CONDITIONS)
     name = _find(book, "Conditions")
     if name is None:
@@ -233,10 +237,12 @@ def _conditions(book: Book, notes: list[Note], columns: list[dict]) -> dict[str,
         if not label:
             continue
         ta = _num(t, "ambient_temperature", i)
-        if not np.isfinite(ta) or t.bad[i]:
+        if not np.isfinite(ta) and not t.bad[i]:
             notes.append(Note("error", "bad-condition",
                               f"condition {label!r} is not usable: it needs an 'Ambient temperature'",
                               name, t.cell(i, "ambient_temperature")))
+        if not np.isfinite(ta) or t.bad[i]:  # the cell in error has its own note; lines naming it point here
+            bad[fold(label)] = f"{name}!{t.cell(i, 'name')}"
             continue
         tsur = _num(t, "surroundings_temperature", i)
         base = BUILTIN_CONDITIONS.get(fold(label), BUILTIN_CONDITIONS["indoor"])

@@ -305,7 +305,10 @@ def _conditions(L: Line, inputs: Inputs, cname: str, err) -> None:
     names = split_conditions(cname)
     for name in names or ["indoor"]:
         cond = inputs.conditions.get(fold(name))
-        if cond is None:
+        if fold(name) in inputs.bad_conditions:  # before a built-in set of that name could stand in for it
+            err("bad-condition", "condition", f"condition {name!r} has a cell in error on its row "
+                f"({inputs.bad_conditions[fold(name)]}); fix it there")
+        elif cond is None:
             err("unknown-condition", "condition", f"condition {name!r} is not defined; add it to the "
                 "Conditions sheet or use one of: "
                 f"{', '.join(sorted(c.name for c in inputs.conditions.values()))}")
