@@ -7,6 +7,7 @@ the number format '0%', so the percentage is marked the way spreadsheet programs
 from __future__ import annotations
 
 import json
+import zipfile
 from pathlib import Path
 
 import openpyxl
@@ -115,11 +116,12 @@ def test_a_number_format_is_a_percentage_only_when_it_scales_by_100(code, percen
     assert is_percent_format(code) is percent
 
 
-@pytest.mark.parametrize(("unit", "value", "fmt", "want"), [
-    ("%", 0.8, True, 0.8), ("%", 0.8, False, 0.008), ("%", 80, False, 0.8), ("1", 0.8, True, 0.8),
+@pytest.mark.parametrize(("unit", "value", "fmt", "want", "code"), [
+    ("%", 0.8, True, 0.8, "percent-cell"), ("%", 80, False, 0.8, None), ("1", 0.8, True, 0.8, "percent-cell"),
+    ("1", 0.8, False, 0.8, None), ("%", 0.8, False, float("nan"), "percent-as-fraction"),
 ])
-def test_a_percentage_cell_is_read_as_the_fraction_it_holds_in_any_dimensionless_unit(unit, value, fmt, want):
-    """In a % column a percentage-formatted 0.8 is 80 %; in a column of fractions it stays 0.8; unformatted 0.8 % stays 0.8 %."""
+def test_a_percentage_cell_is_read_as_the_fraction_it_holds_in_any_dimensionless_unit(unit, value, fmt, want, code):
+    """A percentage-formatted 0.8 is 80 % in a % column and 0.8 in a column of fractions; a plain 0.8 in % is an error."""
     from lagsheet import schema
     from lagsheet.check import read_table
     from lagsheet.io.table import RawSheet
@@ -127,8 +129,8 @@ def test_a_percentage_cell_is_read_as_the_fraction_it_holds_in_any_dimensionless
     raw = RawSheet("Conditions", [["Name", "Ambient temperature [°C]", f"Relative humidity [{unit}]"],
                                   ["humid", 20, value]], percent={(1, 2)} if fmt else set())
     t = read_table(raw, schema.CONDITION_FIELDS, "Name")
-    assert t.get("relative_humidity")[0] == pytest.approx(want, rel=1e-12)
-    assert ("percent-cell" in [n.code for n in t.cell_notes.get(0, [])]) is fmt
+    assert t.get("relative_humidity")[0] == pytest.approx(want, rel=1e-12, nan_ok=True)
+    assert [n.code for n in t.cell_notes.get(0, [])] == ([code] if code else [])
 
 
 def test_a_percentage_format_on_a_temperature_changes_nothing():
@@ -141,3 +143,35 @@ def test_a_percentage_format_on_a_temperature_changes_nothing():
     t = read_table(raw, schema.CONDITION_FIELDS, "Name")
     assert t.get("ambient_temperature")[0] == pytest.approx(293.15, abs=1e-9)
     assert not t.cell_notes.get(0)
+
+
+@pytest.mark.parametrize("ext", ["xlsx", "ods"])
+def test_a_plain_fraction_in_a_percent_humidity_column_is_an_error_never_sized(tmp_path, cli, ext):
+    """RH 0.8 typed (no percentage format) in a % column: an error on the cell saying to type 80, the cold line not sized."""
+    src = _saved_by_libreoffice(_book(tmp_path / "plain.xlsx", 0.8, None), ext, tmp_path)
+    code, rep = _fill(cli, src, tmp_path)
+    assert code == 1
+    errors = [n for n in _notes(rep) if n["level"] == "error"]
+    cell = next(n for n in errors if n["code"] == "percent-as-fraction")
+    assert (cell["sheet"], cell["cell"]) == ("Conditions", "C2") and cell["message"].endswith("; type 80")
+    cond = next(n for n in errors if n["code"] == "bad-condition")
+    assert "C2" in cond["message"] and "Ambient temperature" not in cond["message"]
+    cold = rep["lines"][0]
+    assert cold["status"] == "error" and cold["results"]["thickness_m"] is None
+
+
+def test_the_built_in_and_custom_percentage_formats_mark_their_cells(tmp_path):
+    """Built-in '0%' and '0.00%' (numFmtId 9, 10) and a custom '0.0%' mark their cells; '0.0" %"' and General do not."""
+    from lagsheet.io import open_book
+
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "Conditions"
+    formats = ["0%", "0.00%", "0.0%", '0.0" %"', "General"]
+    for col, fmt in enumerate(formats, start=1):
+        ws.cell(row=2, column=col, value=0.5).number_format = fmt
+    wb.save(tmp_path / "formats.xlsx")
+    with zipfile.ZipFile(tmp_path / "formats.xlsx") as z:
+        styles = z.read("xl/styles.xml").decode()
+    assert 'numFmtId="9"' in styles and 'numFmtId="10"' in styles  # written as the built-in formats
+    assert open_book(tmp_path / "formats.xlsx").sheet("Conditions").percent == {(1, 0), (1, 1), (1, 2)}

@@ -502,6 +502,13 @@ def _plausibility(sheet: RawSheet, t: Table, c: Column, raw, nums) -> None:
         c.status = "warning" if c.status == "ok" else c.status
         c.message = f"{c.field.header!r} is labelled {unit_label(c.unit)} but its values suggest {hint}; check the header"
         t.notes.append(Note("warning", "likely-mislabelled", c.message, sheet.name, address(t.header_row, c.col)))
+        if key == "relative_humidity" and str(c.unit) == "percent":  # sized on it, too dry: never silently
+            for i in np.flatnonzero((written > 0) & (written <= 1)).tolist():
+                t.add(i, Note("error", "percent-as-fraction",
+                              f"{c.field.header!r} {_fmt(written[i])} % looks like {_fmt(written[i] * 100)} % "
+                              f"stored as a fraction (as a cell formatted as a percentage stores it); type "
+                              f"{_fmt(written[i] * 100)}", sheet.name, address(t.rows[i], c.col)))
+                nums[i] = np.nan
     rng = plausibility.PLAUSIBLE.get(key)
     if rng is None:
         return

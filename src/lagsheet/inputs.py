@@ -244,9 +244,11 @@ def _conditions(book: Book, notes: list[Note], columns: list[dict]) -> dict[str,
             continue
         ta = _num(t, "ambient_temperature", i)
         if not np.isfinite(ta) or t.bad[i]:
-            notes.append(Note("error", "bad-condition",
-                              f"condition {label!r} is not usable: it needs an 'Ambient temperature'",
-                              name, t.cell(i, "ambient_temperature")))
+            bad_cells = [n.cell for n in t.cell_notes.get(i, []) if n.level == "error"]
+            why = ("it needs an 'Ambient temperature'" if not np.isfinite(ta) or not bad_cells else
+                   f"its row has a cell in error ({', '.join(dict.fromkeys(bad_cells))}); correct it")
+            notes.append(Note("error", "bad-condition", f"condition {label!r} is not usable: {why}",
+                              name, t.cell(i, "ambient_temperature" if not np.isfinite(ta) else "name")))
             continue
         tsur = _num(t, "surroundings_temperature", i)
         base = BUILTIN_CONDITIONS.get(fold(label), BUILTIN_CONDITIONS["indoor"])
