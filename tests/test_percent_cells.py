@@ -175,3 +175,26 @@ def test_the_built_in_and_custom_percentage_formats_mark_their_cells(tmp_path):
         styles = z.read("xl/styles.xml").decode()
     assert 'numFmtId="9"' in styles and 'numFmtId="10"' in styles  # written as the built-in formats
     assert open_book(tmp_path / "formats.xlsx").sheet("Conditions").percent == {(1, 0), (1, 1), (1, 2)}
+
+
+@pytest.mark.parametrize("unit", ["%", None, "1"])
+def test_a_percentage_formatted_setting_is_its_fraction_whatever_the_unit_cell_says(unit):
+    """'Heating efficiency' shown as '88%' is 0.88 with Unit %, no unit, or the unit 1, with one note and no error."""
+    from lagsheet.inputs import _settings
+    from lagsheet.io.table import RawSheet
+
+    class OneSheet:
+        def __init__(self, raw):
+            self.raw = raw
+
+        def sheet_names(self):
+            return [self.raw.name]
+
+        def sheet(self, name):
+            return self.raw
+
+    raw = RawSheet("Settings", [["Setting", "Value", "Unit"], ["Heating efficiency", 0.88, unit]], percent={(1, 1)})
+    notes = []
+    values = _settings(OneSheet(raw), notes)
+    assert values["heating_efficiency"] == pytest.approx(0.88, rel=1e-12)
+    assert [(n.code, n.cell) for n in notes] == [("percent-cell", "B2")]
