@@ -59,12 +59,13 @@ def test_an_odd_value_is_an_error_on_its_cell_in_check_and_fill(tmp_path, cli, r
 
 
 def test_a_percent_efficiency_under_one_says_it_looks_like_a_fraction(tmp_path, cli):
-    """'Heating efficiency 0.85 %' is refused, telling the user to write 85 % (costs would be 100 × too high)."""
+    """'Heating efficiency 0.85 %' is refused in one sentence telling the user to write 85 % (costs would be 100 × off)."""
     src = write_book(tmp_path / "in.xlsx", [pipe()], HEADERS,
                      sheets={"Settings": [SETTINGS, ["Heating efficiency", 0.85, "%"]]})
     _, notes, _, _ = run_both(tmp_path, cli, src)
     msg = next(n["message"] for n in notes if n["code"] == "bad-setting")
     assert "write 85 %" in msg and "fraction" in msg
+    assert msg.count("setting") == 1 and msg.startswith("setting 'Heating efficiency': '0.85 %' cannot be used: ")
 
 
 def test_a_percent_setting_under_one_without_a_unit_is_a_fraction(tmp_path, cli):

@@ -18,7 +18,15 @@ import numpy as np
 from . import schema
 from .errors import InputError, Note
 from .io.table import RawSheet, address, fold
-from .units import UnitTextError, is_unit, parse_quantity_text, parse_unit, to_si, unit_label
+from .units import (
+    UnitTextError,
+    from_si,
+    is_unit,
+    parse_quantity_text,
+    parse_unit,
+    to_si,
+    unit_label,
+)
 
 _HEADER_UNIT = re.compile(r"^(.*?)\s*[\[(]\s*([^\[\]()]*(?:\([^()]*\)[^\[\]()]*)*)\s*[\])]\s*$")
 
@@ -379,6 +387,8 @@ def _convert(sheet: RawSheet, t: Table, c: Column) -> None:
     nums = np.array([v if type(v) is float else float(v) if type(v) is int else nan for v in raw], dtype=float)
     plain = [i for i, v in enumerate(raw) if type(v) is float or type(v) is int]
     others = [i for i, v in enumerate(raw) if v is not None and type(v) is not float and type(v) is not int]
+    if sheet.percent and plain:
+        raw = _percent_cells(sheet, t, c, plain, raw, nums)
     for i in others:
         v = raw[i]
         if isinstance(v, (dt.date, dt.time, dt.timedelta)):
@@ -458,6 +468,28 @@ def _convert(sheet: RawSheet, t: Table, c: Column) -> None:
     _plausibility(sheet, t, c, raw, nums)
 
 
+def _percent_cells(sheet: RawSheet, t: Table, c: Column, plain: list[int], raw: list, nums) -> list:
+    """Read a number cell formatted as a percentage as the fraction it holds: a typed '80%' is
+    stored as 0.8, so in a % column it is 80 (an info note says so). Gives ``raw`` with those
+    cells as read, for the plausibility checks; a column of another kind is left as it is."""
+    if not is_unit(c.unit, "1"):
+        return raw
+    hits = [i for i in plain if (t.rows[i], c.col) in sheet.percent]
+    if not hits:
+        return raw
+    raw = list(raw)
+    label = unit_label(c.unit)
+    for i, x in zip(hits, from_si([nums[i] for i in hits], "1", str(c.unit)).tolist(), strict=True):
+        shown_as = f"{_fmt(nums[i] * 100)}%"
+        read = f"the fraction {_fmt(x)}" if label == "1" else f"{_fmt(x)} {label}"
+        t.add(i, Note("info", "percent-cell",
+                      f"{c.field.header!r} is formatted as a percentage ({shown_as}, stored as "
+                      f"{_fmt(nums[i])}): read as {read}", sheet.name, address(t.rows[i], c.col)))
+        nums[i] = x
+        raw[i] = x
+    return raw
+
+
 def _plausibility(sheet: RawSheet, t: Table, c: Column, raw, nums) -> None:
     """Column-level: do the values suggest another unit? Cell-level: outside the plausible range?"""
     from . import plausibility
@@ -470,6 +502,13 @@ def _plausibility(sheet: RawSheet, t: Table, c: Column, raw, nums) -> None:
         c.status = "warning" if c.status == "ok" else c.status
         c.message = f"{c.field.header!r} is labelled {unit_label(c.unit)} but its values suggest {hint}; check the header"
         t.notes.append(Note("warning", "likely-mislabelled", c.message, sheet.name, address(t.header_row, c.col)))
+        if key == "relative_humidity" and str(c.unit) == "percent":  # sized on it, too dry: never silently
+            for i in np.flatnonzero((written > 0) & (written <= 1)).tolist():
+                t.add(i, Note("error", "percent-as-fraction",
+                              f"{c.field.header!r} {_fmt(written[i])} % looks like {_fmt(written[i] * 100)} % "
+                              f"stored as a fraction (as a cell formatted as a percentage stores it); type "
+                              f"{_fmt(written[i] * 100)}", sheet.name, address(t.rows[i], c.col)))
+                nums[i] = np.nan
     rng = plausibility.PLAUSIBLE.get(key)
     if rng is None:
         return

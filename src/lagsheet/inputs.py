@@ -166,8 +166,11 @@ def _settings(book: Book, notes: list[Note]) -> dict[str, object]:
             values["_given"].add(key)
             continue
         unit_text = str(raw.value(r, cu)).strip() if cu is not None and raw.value(r, cu) is not None else dim
+        # a cell formatted as a percentage holds the fraction: a typed '88%' is stored as 0.88
+        percent_cell = (cv is not None and (r, cv) in raw.percent and isinstance(value, (int, float))
+                        and not isinstance(value, bool))
         if (dim == "%" and (cu is None or raw.value(r, cu) is None) and isinstance(value, (int, float))
-                and not isinstance(value, bool) and 0 < value < 1):
+                and not isinstance(value, bool) and 0 < value < 1 and not percent_cell):
             unit_text = "1"  # no unit written and under 1: a fraction (0.85), not 0.85 %
             notes.append(Note("info", "percent-fraction", f"setting {title!r}: {value!r} has no unit and is "
                               f"read as the fraction {value:g} ({value * 100:g} %)", name, where))
@@ -177,29 +180,36 @@ def _settings(book: Book, notes: list[Note]) -> dict[str, object]:
             unit = parse_unit(unit_text if unit_text else "1")
             if not is_unit(unit, dim):
                 raise UnitTextError(f"unit {unit_text!r} is not like {dim}")
+            if percent_cell and is_unit(unit, "1"):
+                number = float(from_si([number], "1", str(unit))[0])
+                label = unit_label(unit)
+                notes.append(Note("info", "percent-cell", f"setting {title!r} is formatted as a percentage "
+                                  f"({value * 100:g}%, stored as {value:g}): read as "
+                                  + (f"the fraction {number:g}" if label == "1" else f"{number:g} {label}"),
+                                  name, where))
             converted = float(to_si([number], unit, si, difference=kind == schema.DIFFERENCE)[0])
             lo, closed, hi = schema.SETTING_RANGES[key]
             if not (np.isfinite(converted) and (converted >= lo if closed else converted > lo) and converted <= hi):
                 raise _SettingError(f"it must be {'from' if closed else 'above'} {_show_setting(lo, si, unit)} "
                                  f"{'to' if closed else 'and at most'} {_show_setting(hi, si, unit)}")
             if str(unit) == "percent" and 0 < number < 1:
-                words = (f"setting {title!r}: {value!r} % is read as {number / 100:g}, i.e. {number:g} %; "
-                         f"a value under 1 in a % field is usually a fraction: write {number * 100:g} %, "
-                         "or the fraction with the unit 1")
+                words = (f"{number:g} % looks like {number * 100:g} % stored as a fraction (as a cell formatted "
+                         f"as a percentage stores it); write {number * 100:g} %, or the fraction with the unit 1")
                 if key == "heating_efficiency":  # no plant runs at under 1 %: the costs would be 100 × off
                     raise _SettingError(words)
-                notes.append(Note("warning", "percent-fraction", words, name, where))
+                notes.append(Note("warning", "percent-fraction", f"setting {title!r}: {words}", name, where))
             values[key] = converted
             values["_given"].add(key)
             if currency and "currency" not in values["_given"]:
                 values["currency"] = currency
         except (TypeError, ValueError, OverflowError) as exc:
             written = f"{value} {unit_text or ''}".strip()
-            why = f" ({exc})" if isinstance(exc, (_SettingError, UnitTextError)) else ""  # our words only
-            notes.append(Note("error", "bad-setting",
-                              f"setting {title!r}: '{written}' cannot be used{why}; "
-                              f"write a number with a unit like {dim or 'none'}; the default is used",
-                              name, where))
+            if isinstance(exc, _SettingError):  # our words, with the fix in them
+                fix = f"cannot be used: {exc}; the default is used"
+            else:
+                why = f" ({exc})" if isinstance(exc, UnitTextError) else ""  # our words only
+                fix = f"cannot be used{why}; write a number with a unit like {dim or 'none'}; the default is used"
+            notes.append(Note("error", "bad-setting", f"setting {title!r}: '{written}' {fix}", name, where))
     return values
 
 

@@ -134,7 +134,8 @@ class OdsBook:
         if name not in self._raw:
             grid = calamine_grid(self._values, name, self.path)
             a, b = _span(self._content, name, self.n)
-            self._raw[name] = RawSheet(name, grid, _uncached(self._content[a:b], self.n))
+            table = self._content[a:b]
+            self._raw[name] = RawSheet(name, grid, _uncached(table, self.n), percent=_percent(table, self.n))
         return self._raw[name]
 
     def save(self, edits: list[SheetEdits], out: Path, new_sheets=(), allow_loss: bool = False) -> list[str]:
@@ -443,6 +444,32 @@ def _cells(sc: Scanner, n: _Names, head_end: int, end: int) -> Iterator[tuple[in
         if name in names:
             tag = sc.text[s:e]
             yield s, e, stop, (_count(tag, repeated) if repeated in tag else 1)
+
+
+_MAX_MARKED = 1 << 20  # percentage cells marked per table at most (repeats of a styled cell are bounded)
+
+
+def _percent(table_xml: str, n: _Names) -> set[tuple[int, int]]:
+    """0-based (row, col) of the table's percentage cells (office:value-type="percentage": a
+    typed '80%' is stored as the value 0.8)."""
+    out: set[tuple[int, int]] = set()
+    kind = f"{n.office}:value-type"
+    if "percentage" not in table_xml:
+        return out
+    r = 0
+    sc = Scanner(table_xml)
+    for rs, re_, rstop, rep in _rows(sc, n):
+        if table_xml.find("percentage", rs, rstop) >= 0:
+            c = 0
+            for s, e, _, crep in _cells(sc, n, re_, rstop):
+                if _attr(table_xml[s:e], kind) == "percentage" and len(out) < _MAX_MARKED:
+                    for k in range(min(rep, _MAX_MARKED)):  # a repeated row or cell: each copy is one
+                        out.update((r + k, c + j) for j in range(min(crep, _MAX_MARKED)))
+                        if len(out) >= _MAX_MARKED:
+                            break
+                c += crep
+        r += rep
+    return out
 
 
 def _uncached(table_xml: str, n: _Names) -> set[tuple[int, int]]:

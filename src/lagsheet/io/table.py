@@ -46,6 +46,7 @@ class RawSheet:
     grid: list[list[Any]]  # rows from row 1, columns from A; '' or None for empty
     uncached: set[tuple[int, int]] = field(default_factory=set)  # formula cells with no cached value
     totals_rows: set[int] = field(default_factory=set)  # rows that are a table's totals row, never lines
+    percent: set[tuple[int, int]] = field(default_factory=set)  # number cells formatted as a percentage (0.8 shown 80%)
 
     def value(self, row: int, col: int) -> Any:
         if row < len(self.grid) and col < len(self.grid[row]):

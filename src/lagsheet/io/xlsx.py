@@ -188,9 +188,24 @@ class XlsxBook:
                 self._values = _calamine(self.path, self._zip, _calamine_fixes(self._zip, self._fixed))
             grid = calamine_grid(self._values, name, self.path)
             uncached = _uncached_formulas(data) if b"<f" in data or b":f" in data else set()
+            xfs = self._percent_xfs()
+            percent = _percent_cells(data, xfs) if xfs and any(b's="%d"' % x in data for x in xfs) else set()
             del data
-            self._raw[name] = RawSheet(name, grid, uncached, self._totals_rows(part))
+            self._raw[name] = RawSheet(name, grid, uncached, self._totals_rows(part), percent)
         return self._raw[name]
+
+    def _percent_xfs(self) -> frozenset[int]:
+        """Indices of the cell formats (the ``s`` of a cell) that show a number as a percentage."""
+        if not hasattr(self, "_pct_xfs"):
+            try:
+                wb_part = _workbook_part(self._zip)
+                target = next((r.get("Target", "") for r in _read_rels(self._zip, wb_part)
+                               if r.get("Type") == REL_STYLES and r.get("TargetMode") != "External"), None)
+                part = _member(self._zip, _rel_target(wb_part, target)) if target else None
+                self._pct_xfs = _percent_styles(self._zip.read(part)) if part else frozenset()
+            except Exception:  # a styles part that cannot be read: no cell is known to be a percentage
+                self._pct_xfs = frozenset()
+        return self._pct_xfs
 
     def _totals_rows(self, part: str) -> set[int]:
         """0-based rows that are the totals rows of the sheet's tables (not schedule lines)."""
@@ -446,6 +461,82 @@ def _uncached_formulas(data: bytes) -> set[tuple[int, int]]:
     p = expat.ParserCreate()
     p.buffer_text = True
     p.StartElementHandler, p.EndElementHandler, p.CharacterDataHandler = start, end, text
+    p.Parse(data, True)
+    return out
+
+
+_PERCENT_BUILTIN = {9, 10}  # the built-in number formats '0%' and '0.00%' (ECMA-376 Part 1, 18.8.30)
+_FORMAT_LITERALS = re.compile(r'"[^"]*"|\\.|\[[^\]]*\]|[_*].')  # quoted text, escapes, [colour]/[>0], padding
+
+
+def is_percent_format(code: str) -> bool:
+    """Whether a number format code shows the value times 100 with a '%' ('0%', '0.0%', '#,##0.00%;[Red]-0%').
+
+    >>> [is_percent_format(c) for c in ('0%', '0.0" %"', '0.0\\%', '[Red]0.00%', 'General')]
+    [True, False, False, True, False]
+    """
+    return "%" in _FORMAT_LITERALS.sub("", code)
+
+
+def _percent_styles(data: bytes) -> frozenset[int]:
+    """The indices of the styles part's cell formats (cellXfs) whose number format is a percentage."""
+    from xml.parsers import expat
+
+    codes: dict[int, str] = {}
+    xfs: list[int] = []
+    where: list[str] = []
+
+    def start(tag, attrs):
+        local = tag.rpartition(" ")[2]
+        if local == "numFmt" and where[-1:] == ["numFmts"]:
+            fid = attrs.get("numFmtId", "")
+            if fid.isdigit():
+                codes[int(fid)] = attrs.get("formatCode", "")
+        elif local == "xf" and where[-1:] == ["cellXfs"]:
+            fid = attrs.get("numFmtId", "0")
+            xfs.append(int(fid) if fid.isdigit() else 0)
+        where.append(local)
+
+    def end(tag):
+        where.pop()
+
+    def no_dtd(*_args):
+        raise ValueError("a document type declaration")
+
+    p = expat.ParserCreate(encoding="utf-8", namespace_separator=" ")
+    p.StartElementHandler, p.EndElementHandler = start, end
+    p.StartDoctypeDeclHandler = no_dtd
+    p.Parse(data, True)
+    return frozenset(i for i, fid in enumerate(xfs)
+                     if (is_percent_format(codes[fid]) if fid in codes else fid in _PERCENT_BUILTIN))
+
+
+def _percent_cells(data: bytes, xfs: frozenset[int]) -> set[tuple[int, int]]:
+    """0-based (row, col) of the sheet's cells whose format (``s``) is one of ``xfs``, by one expat pass."""
+    from xml.parsers import expat
+
+    out: set[tuple[int, int]] = set()
+    state = {"row": 0, "col": -1}
+
+    def start(tag, attrs):
+        local = tag[tag.find(":") + 1:]
+        if local == "c":
+            ref = attrs.get("r")
+            state["col"] = _col_index(ref) if ref else state["col"] + 1
+            if ref:
+                digits = ref.lstrip("$ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz").lstrip("$")
+                if digits.isdigit():
+                    state["row"] = int(digits) - 1
+            s = attrs.get("s", "")
+            if s.isdigit() and int(s) in xfs:
+                out.add((state["row"], state["col"]))
+        elif local == "row":
+            r = attrs.get("r")
+            state["row"] = int(r) - 1 if r and r.isdigit() else state["row"] + 1
+            state["col"] = -1
+
+    p = expat.ParserCreate()
+    p.StartElementHandler = start
     p.Parse(data, True)
     return out
 
