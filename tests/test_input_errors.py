@@ -153,4 +153,5 @@ def test_one_bad_condition_cell_is_one_error_where_it_is(tmp_path, column, value
     messages = " | ".join(n.message for n in notes)
     assert "needs an 'Ambient temperature'" not in messages and "is not defined" not in messages
     line = [n for n in notes if n.code == "bad-condition"]
-    assert line and "Conditions!A2" in line[0].message
+    cell = {"Operating hours [h]": "E2", "Wind speed [m/s]": "C2", "Relative humidity [%]": "D2"}[column]
+    assert line and f"Conditions!{cell}" in line[0].message

@@ -252,7 +252,9 @@ def _conditions(book: Book, notes: list[Note], columns: list[dict], bad: dict[st
                               f"condition {label!r} is not usable: it needs an 'Ambient temperature'",
                               name, t.cell(i, "ambient_temperature")))
         if not np.isfinite(ta) or t.bad[i]:  # the cell in error has its own note; lines naming it point here
-            bad[fold(label)] = f"{name}!{t.cell(i, 'name')}"
+            cells = [n.cell for n in t.cell_notes.get(i, []) if n.level == "error" and n.cell]
+            bad[fold(label)] = ", ".join(f"{name}!{c}" for c in dict.fromkeys(cells)) or \
+                f"{name}!{t.cell(i, 'name')}"
             continue
         tsur = _num(t, "surroundings_temperature", i)
         base = BUILTIN_CONDITIONS.get(fold(label), BUILTIN_CONDITIONS["indoor"])
