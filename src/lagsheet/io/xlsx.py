@@ -421,6 +421,23 @@ def _reraise_interrupt(exc: BaseException) -> None:
         raise exc
 
 
+def _cell_position(attrs: dict, state: dict) -> None:
+    """Move ``state`` ('row', 'col', 0-based) to the cell whose start tag has ``attrs`` (its ``r`` or the next column)."""
+    ref = attrs.get("r")
+    state["col"] = _col_index(ref) if ref else state["col"] + 1
+    if ref:
+        digits = ref.lstrip("$ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz").lstrip("$")
+        if digits.isdigit():
+            state["row"] = int(digits) - 1
+
+
+def _row_position(attrs: dict, state: dict) -> None:
+    """Move ``state`` to the row whose start tag has ``attrs`` (its ``r`` or the next row), before its first cell."""
+    r = attrs.get("r")
+    state["row"] = int(r) - 1 if r and r.isdigit() else state["row"] + 1
+    state["col"] = -1
+
+
 def _uncached_formulas(data: bytes) -> set[tuple[int, int]]:
     """0-based (row, col) of formula cells with no cached value, by one expat pass (linear time)."""
     from xml.parsers import expat
@@ -431,21 +448,14 @@ def _uncached_formulas(data: bytes) -> set[tuple[int, int]]:
     def start(tag, attrs):
         local = tag[tag.find(":") + 1:]
         if local == "c":
-            ref = attrs.get("r")
-            state["col"] = _col_index(ref) if ref else state["col"] + 1
-            if ref:
-                digits = ref.lstrip("$ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz").lstrip("$")
-                if digits.isdigit():
-                    state["row"] = int(digits) - 1
+            _cell_position(attrs, state)
             state["f"] = state["v"] = False
         elif local == "f":
             state["f"] = True
         elif local == "v":
             state["in_v"] = True
         elif local == "row":
-            r = attrs.get("r")
-            state["row"] = int(r) - 1 if r and r.isdigit() else state["row"] + 1
-            state["col"] = -1
+            _row_position(attrs, state)
 
     def text(data):
         if state["in_v"] and data:
@@ -521,19 +531,12 @@ def _percent_cells(data: bytes, xfs: frozenset[int]) -> set[tuple[int, int]]:
     def start(tag, attrs):
         local = tag[tag.find(":") + 1:]
         if local == "c":
-            ref = attrs.get("r")
-            state["col"] = _col_index(ref) if ref else state["col"] + 1
-            if ref:
-                digits = ref.lstrip("$ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz").lstrip("$")
-                if digits.isdigit():
-                    state["row"] = int(digits) - 1
+            _cell_position(attrs, state)
             s = attrs.get("s", "")
             if s.isdigit() and int(s) in xfs:
                 out.add((state["row"], state["col"]))
         elif local == "row":
-            r = attrs.get("r")
-            state["row"] = int(r) - 1 if r and r.isdigit() else state["row"] + 1
-            state["col"] = -1
+            _row_position(attrs, state)
 
     p = expat.ParserCreate()
     p.StartElementHandler = start
