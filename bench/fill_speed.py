@@ -3,14 +3,14 @@
     python bench/fill_speed.py --lines 50000 [--ods-lines 10000] [--sample 200] [--repeat 3]
                                [--keep DIR] [--profile 25]
 
-1. Writes a deterministic schedule workbook of N lines (the headers of ``lagsheet.demo``).
+1. Writes a deterministic schedule workbook of N lines (the headers of ``lagsheet.commands.demo``).
 2. Engine: ``lagsheet.physics.balance.solve`` on all N lines at one thickness, and
-   ``lagsheet.spec.specify`` (the full sizing: every sold thickness of every line), against
+   ``lagsheet.design.select.specify`` (the full sizing: every sold thickness of every line), against
    a plain per-line loop on a sample (scipy ``brentq`` on the surface temperature, CoolProp
    ``PropsSI`` air properties at the film temperature on every iteration, the ``ht``
    correlations, k at the mean temperature by ``np.interp``). Checks both agree on the
    sample's heat loss.
-3. ``lagsheet.pipeline.fill`` end to end against openpyxl's bare ``load_workbook`` + ``save``
+3. ``lagsheet.commands.fill.fill`` end to end against openpyxl's bare ``load_workbook`` + ``save``
    of the same workbook, with the peak memory of each in a fresh subprocess.
 4. The same for .ods: the schedule of ``--ods-lines`` lines (LibreOffice converts the xlsx
    when it is installed, as the round-trip corpus does; odfpy writes it otherwise), ``fill``
@@ -105,7 +105,7 @@ def _pick(rng, options):
 
 def make_lines(n: int, seed: int) -> list[Line]:
     """N lines: NPS ½-24, 40-450 °C hot lines and 5 °C chilled ones, three conditions."""
-    from lagsheet import library
+    from lagsheet.workbook import library
 
     rng = np.random.default_rng(seed)
     sizes = []  # (nps text, dn, od m), from the built-in table
@@ -162,7 +162,7 @@ def write_schedule(path: Path, lines: list[Line]) -> None:
     import openpyxl
     from openpyxl.styles import Font
 
-    from lagsheet.demo import CONDITIONS, HEADERS, SETTINGS
+    from lagsheet.commands.demo import CONDITIONS, HEADERS, SETTINGS
 
     wb = openpyxl.Workbook()
     ws = wb.active
@@ -207,7 +207,7 @@ def write_schedule_ods(path: Path, lines: list[Line], xlsx: Path) -> str:
     from odf.table import Table, TableCell, TableRow
     from odf.text import P
 
-    from lagsheet.demo import CONDITIONS, HEADERS, SETTINGS
+    from lagsheet.commands.demo import CONDITIONS, HEADERS, SETTINGS
 
     def row(values):
         tr = TableRow()
@@ -247,17 +247,17 @@ def write_schedule_ods(path: Path, lines: list[Line], xlsx: Path) -> str:
 
 def _conditions() -> dict[str, tuple[float, float, float]]:
     """name -> (air K, surroundings K, wind m/s), from the demo's Conditions sheet."""
-    from lagsheet.demo import CONDITIONS
+    from lagsheet.commands.demo import CONDITIONS
 
     return {r[0]: (r[1] + 273.15, r[2] + 273.15, float(r[3])) for r in CONDITIONS[1:]}
 
 
 def build_system(lines: list[Line], thickness: float):
     """All lines as one engine System at one thickness (one layer of each line's material)."""
-    from lagsheet import library
     from lagsheet.physics.balance import System
     from lagsheet.physics.layers import CYLINDER, MaterialTable
     from lagsheet.physics.surface import PIPE, RISER
+    from lagsheet.workbook import library
 
     mats = library.materials()
     table = MaterialTable.build({m.name: (np.array(m.mean_temperatures), np.array(m.conductivities))
@@ -356,7 +356,7 @@ def loop_line(line: Line, thickness: float, air_cond, eps: float, t_pts, k_pts,
 
 
 def run_loop(lines: list[Line], idx: np.ndarray, thickness: float, k_mode: str = "mean"):
-    from lagsheet import library
+    from lagsheet.workbook import library
 
     mats = library.materials()
     fin = library.finishes()
@@ -411,7 +411,7 @@ def bare_odfpy(src: Path, out: Path) -> None:
 
 
 def run_fill(src: Path, out: Path):
-    from lagsheet.pipeline import fill
+    from lagsheet.commands.fill import fill
 
     return fill(src, out)
 
@@ -439,7 +439,7 @@ def peak_memory(job: str, src: Path, out: Path) -> tuple[float, float, float]:
 
 def _job(job: str, src: Path, out: Path) -> None:
     if job == "small":  # the start-up floor: whatever fill imports and builds on first use
-        import lagsheet.pipeline  # noqa: F401
+        import lagsheet.commands.fill  # noqa: F401
         t0 = time.perf_counter()
         run_fill(src, out)
     elif job == "openpyxl":
@@ -451,7 +451,7 @@ def _job(job: str, src: Path, out: Path) -> None:
         t0 = time.perf_counter()
         bare_odfpy(src, out)
     elif job == "fill":
-        import lagsheet.pipeline  # noqa: F401
+        import lagsheet.commands.fill  # noqa: F401
         t0 = time.perf_counter()
         run_fill(src, out)
     else:
@@ -579,11 +579,11 @@ def _bench(a, folder: Path) -> int:
 
 def _engine_part(a, lines: list[Line], src: Path, say) -> dict:
     """2. engine solve and specify against the per-line loop; figures only are returned."""
-    from lagsheet.inputs import read_inputs
+    from lagsheet.design.select import specify
     from lagsheet.io import open_book
     from lagsheet.physics.balance import solve
-    from lagsheet.physics.sizing import heat_rate
-    from lagsheet.spec import specify
+    from lagsheet.physics.candidates import heat_rate
+    from lagsheet.workbook.inputs import read_inputs
 
     n = len(lines)
     system, table = build_system(lines, BENCH_THICKNESS)

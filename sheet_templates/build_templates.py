@@ -14,7 +14,7 @@ Both files hold the same sheets: ``Instructions`` (plain words), ``Lines`` (ever
 header of the contract with its unit, dropdowns, a frozen header row and two example
 rows of an invented plant), ``Conditions`` (the built-in sets), ``Materials`` (headers
 only) and ``Settings`` (every setting with its default and unit). The content comes
-from ``lagsheet.schema``, ``lagsheet.library`` and ``lagsheet.inputs``, so it cannot
+from ``lagsheet.workbook.fields``, ``lagsheet.workbook.library`` and ``lagsheet.workbook.inputs``, so it cannot
 drift from what ``fill`` reads.
 
 The output is deterministic: fixed timestamps (:data:`STAMP`), fixed member order and
@@ -38,10 +38,11 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from xml.sax.saxutils import escape, quoteattr
 
-from lagsheet import library, schema
-from lagsheet.inputs import BUILTIN_CONDITIONS
 from lagsheet.io.xlsx import fonts_in_schema_order
-from lagsheet.units import from_si
+from lagsheet.workbook import fields as schema
+from lagsheet.workbook import library
+from lagsheet.workbook.inputs import BUILTIN_CONDITIONS
+from lagsheet.workbook.units import from_si
 
 HERE = Path(__file__).resolve().parent
 SHIPPED = HERE.parent / "src" / "lagsheet" / "templates_data"

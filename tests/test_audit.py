@@ -9,13 +9,13 @@ import numpy as np
 import openpyxl
 import pytest
 
-from lagsheet.audit import audit
-from lagsheet.inputs import read_inputs
+from lagsheet.commands.audit import audit
+from lagsheet.design.select import specify
 from lagsheet.io import open_book
 from lagsheet.physics.balance import solve
+from lagsheet.physics.candidates import heat_rate
 from lagsheet.physics.layers import MaterialTable
-from lagsheet.physics.sizing import heat_rate
-from lagsheet.spec import specify
+from lagsheet.workbook.inputs import read_inputs
 
 from conftest import write_book
 

@@ -5,9 +5,9 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from lagsheet import schema
-from lagsheet.check import read_table, split_header
 from lagsheet.io.table import RawSheet
+from lagsheet.workbook import fields as schema
+from lagsheet.workbook.tables import read_table, split_header
 
 
 def sheet(rows, uncached=()):

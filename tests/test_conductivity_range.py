@@ -11,8 +11,8 @@ import numpy as np
 import pytest
 from scipy.integrate import quad
 
-from lagsheet.library import materials
-from lagsheet.pipeline import fill
+from lagsheet.commands.fill import fill
+from lagsheet.workbook.library import materials
 
 from conftest import write_book
 

@@ -6,7 +6,7 @@ import doctest
 
 import pytest
 
-from lagsheet import economics
+from lagsheet.design import economics
 from lagsheet.physics import correlations, radiation
 
 

@@ -10,8 +10,8 @@ import numpy as np
 import pytest
 from ht.conv_free_immersed import Nu_horizontal_cylinder_Churchill_Chu, Nu_vertical_plate_Churchill
 
-from lagsheet.pipeline import fill
-from lagsheet.plot import figure
+from lagsheet.commands.fill import fill
+from lagsheet.outputs.plot import figure
 
 from conftest import BASE_HEADERS, pipe, write_book
 

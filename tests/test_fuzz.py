@@ -35,10 +35,10 @@ from hypothesis import strategies as st
 from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
 from typer.testing import CliRunner
 
-from lagsheet import schema
 from lagsheet.cli import app
+from lagsheet.commands.fill import fill
 from lagsheet.errors import LagsheetError
-from lagsheet.pipeline import fill
+from lagsheet.workbook import fields as schema
 
 FUZZ = settings.get_profile("lagsheet-fuzz")
 
@@ -290,7 +290,7 @@ def test_fill_through_the_cli_always_ends_with_an_exit_code_and_a_message(sheets
 @settings(FUZZ)
 @given(workbooks())
 def test_the_pipeline_returns_an_outcome_or_raises_a_lagsheet_error(sheets):
-    """lagsheet.pipeline.fill gives exit 0 or 1, or raises a LagsheetError with a message; nothing else."""
+    """lagsheet.commands.fill.fill gives exit 0 or 1, or raises a LagsheetError with a message; nothing else."""
     with tempfile.TemporaryDirectory() as d:
         src = write(sheets, Path(d) / "in.xlsx")
         try:

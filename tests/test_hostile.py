@@ -246,7 +246,7 @@ def _ods_with(tmp: Path, name: str, rows: str) -> Path:
     """A LibreOffice-style .ods (lagsheet's own template) with ``rows`` added at the end of its Lines table."""
     import io
 
-    from lagsheet.templates import template_bytes
+    from lagsheet.commands.template import template_bytes
 
     with zipfile.ZipFile(io.BytesIO(template_bytes(".ods"))) as z:
         parts = {n: z.read(n) for n in z.namelist()}
@@ -351,7 +351,7 @@ MEASURE = r"""
 import json, os, resource, sys, time
 from pathlib import Path
 from lagsheet.errors import LagsheetError
-from lagsheet.pipeline import fill
+from lagsheet.commands.fill import fill
 from lagsheet.io import open_book
 for job in json.loads(sys.argv[1]):
     r, w = os.pipe()
@@ -502,7 +502,7 @@ def test_the_limits_pass_a_filled_50000_line_schedule():
 
 def test_a_large_schedule_and_the_demo_pass_the_checks(tmp_path, cli):
     """A 5,000-line schedule and the demo's filled workbook pass preflight unchanged."""
-    from lagsheet.demo import HEADERS, LINES
+    from lagsheet.commands.demo import HEADERS, LINES
 
     wb = openpyxl.Workbook(write_only=True)
     ws = wb.create_sheet("Lines")
@@ -625,7 +625,7 @@ def test_an_extreme_value_is_an_error_on_its_line(tmp_path, cli, header, value, 
 
 def test_a_huge_temperature_raises_no_numpy_warning(tmp_path):
     """1e308 °C is a line error and nothing else: no numpy warning (an error under pytest) escapes."""
-    from lagsheet.pipeline import fill
+    from lagsheet.commands.fill import fill
 
     src = write_book(tmp_path / "in.xlsx", [pipe(**{"Operating temperature [°C]": 1e308})])
     assert fill(src, tmp_path / "out.xlsx").exit_code == 1
@@ -633,7 +633,7 @@ def test_a_huge_temperature_raises_no_numpy_warning(tmp_path):
 
 def test_two_out_of_range_temperatures_are_line_errors(tmp_path):
     """Two lines at 3000 °C: both are line errors (exit 1), not a crash."""
-    from lagsheet.pipeline import fill
+    from lagsheet.commands.fill import fill
 
     src = write_book(tmp_path / "in.xlsx", [pipe("P-1", **{"Operating temperature [°C]": 3000}),
                                             pipe("P-2", **{"Operating temperature [°C]": 3000})])

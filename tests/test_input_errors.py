@@ -10,9 +10,9 @@ import pytest
 from hypothesis import event, given, settings
 from hypothesis import strategies as st
 
-from lagsheet.checking import COMPUTED, check
+from lagsheet.commands.check import COMPUTED, check
+from lagsheet.commands.fill import fill
 from lagsheet.errors import WorkbookError
-from lagsheet.pipeline import fill
 from test_fuzz import FUZZ, workbooks, write
 
 from conftest import pipe, write_book

@@ -6,8 +6,8 @@ import numpy as np
 import openpyxl
 import pytest
 
-from lagsheet.pipeline import load
-from lagsheet.spec import specify
+from lagsheet.commands.fill import load
+from lagsheet.design.select import specify
 
 from conftest import pipe, write_book
 

@@ -7,7 +7,8 @@ import json
 import openpyxl
 import pytest
 
-from lagsheet import demo, schema
+from lagsheet.commands import demo
+from lagsheet.workbook import fields as schema
 
 from conftest import pipe, write_book
 

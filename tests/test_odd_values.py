@@ -19,8 +19,8 @@ from hypothesis import example, given, settings
 from hypothesis import strategies as st
 from typer.testing import CliRunner
 
-from lagsheet import schema
 from lagsheet.cli import app
+from lagsheet.workbook import fields as schema
 
 ODD = [0, -4, 1e-320, 5e-324, 1e308, -1e308, math.inf, -math.inf, math.nan, "1e308", "1e-320", "x" * 5000,
        "5 furlongs", "0.85", "-4", "1e400", ""]

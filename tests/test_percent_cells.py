@@ -122,9 +122,9 @@ def test_a_number_format_is_a_percentage_only_when_it_scales_by_100(code, percen
 ])
 def test_a_percentage_cell_is_read_as_the_fraction_it_holds_in_any_dimensionless_unit(unit, value, fmt, want, code):
     """A percentage-formatted 0.8 is 80 % in a % column and 0.8 in a column of fractions; a plain 0.8 in % is an error."""
-    from lagsheet import schema
-    from lagsheet.check import read_table
     from lagsheet.io.table import RawSheet
+    from lagsheet.workbook import fields as schema
+    from lagsheet.workbook.tables import read_table
 
     raw = RawSheet("Conditions", [["Name", "Ambient temperature [°C]", f"Relative humidity [{unit}]"],
                                   ["humid", 20, value]], percent={(1, 2)} if fmt else set())
@@ -135,9 +135,9 @@ def test_a_percentage_cell_is_read_as_the_fraction_it_holds_in_any_dimensionless
 
 def test_a_percentage_format_on_a_temperature_changes_nothing():
     """A temperature cell that happens to be formatted as a percentage is read as the number it holds."""
-    from lagsheet import schema
-    from lagsheet.check import read_table
     from lagsheet.io.table import RawSheet
+    from lagsheet.workbook import fields as schema
+    from lagsheet.workbook.tables import read_table
 
     raw = RawSheet("Conditions", [["Name", "Ambient temperature [°C]"], ["humid", 20]], percent={(1, 1)})
     t = read_table(raw, schema.CONDITION_FIELDS, "Name")
@@ -180,8 +180,8 @@ def test_the_built_in_and_custom_percentage_formats_mark_their_cells(tmp_path):
 @pytest.mark.parametrize("unit", ["%", None, "1"])
 def test_a_percentage_formatted_setting_is_its_fraction_whatever_the_unit_cell_says(unit):
     """'Heating efficiency' shown as '88%' is 0.88 with Unit %, no unit, or the unit 1, with one note and no error."""
-    from lagsheet.inputs import _settings
     from lagsheet.io.table import RawSheet
+    from lagsheet.workbook.inputs import _settings
 
     class OneSheet:
         def __init__(self, raw):

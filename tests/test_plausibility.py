@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import pytest
 
-from lagsheet.inputs import read_inputs
 from lagsheet.io import open_book
+from lagsheet.workbook.inputs import read_inputs
 
 from conftest import write_book
 

@@ -488,7 +488,7 @@ SERVER = r"""
 import json, os, sys
 from pathlib import Path
 from lagsheet import cli
-from lagsheet.pipeline import fill
+from lagsheet.commands.fill import fill
 fill(Path(sys.argv[1]), Path(sys.argv[2]))  # load every library once, so each run below is only the work
 print("ready", flush=True)
 for line in sys.stdin:
@@ -519,8 +519,8 @@ LINES = 2000
 
 def big_schedule(path: Path) -> Path:
     """The demo workbook with its line shapes repeated to LINES lines (fresh tags)."""
-    from lagsheet.demo import LINES as DEMO
-    from lagsheet.demo import write_demo
+    from lagsheet.commands.demo import LINES as DEMO
+    from lagsheet.commands.demo import write_demo
 
     write_demo(path)
     wb = openpyxl.load_workbook(path)
@@ -621,7 +621,7 @@ def test_kill_9_during_a_large_save_never_leaves_a_partial_output(tmp_path):
     """
     from concurrent.futures import ThreadPoolExecutor
 
-    from lagsheet.demo import write_demo
+    from lagsheet.commands.demo import write_demo
 
     env = dict(os.environ, OPENBLAS_NUM_THREADS="1", OMP_NUM_THREADS="1")
     schedule = big_schedule(tmp_path / "plant.xlsx")

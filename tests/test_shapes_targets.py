@@ -6,7 +6,7 @@ import json
 
 import pytest
 
-from lagsheet.pipeline import fill
+from lagsheet.commands.fill import fill
 
 from conftest import write_book
 

@@ -7,8 +7,8 @@ import re
 
 import pytest
 
-from lagsheet.library import materials
-from lagsheet.pipeline import fill
+from lagsheet.commands.fill import fill
+from lagsheet.workbook.library import materials
 
 from conftest import pipe, write_book
 
@@ -71,8 +71,8 @@ def _listed(m, us: bool) -> tuple[float, ...]:
 @pytest.mark.parametrize("m", MATERIALS, ids=lambda m: m.name)
 def test_every_sold_total_is_built_of_listed_layers(m, us):
     """Each total the sizing may choose is one listed layer, or 2–3 listed layers no thicker than Max layer."""
-    from lagsheet.library import build
-    from lagsheet.resolve import layer_series, sold
+    from lagsheet.design.lines import layer_series, sold
+    from lagsheet.workbook.library import build
 
     listed, max_layer = layer_series(m, {}, us)
     totals = sold(m, {}, us)

@@ -6,8 +6,8 @@ import json
 
 import pytest
 
-from lagsheet.library import materials
-from lagsheet.pipeline import fill
+from lagsheet.commands.fill import fill
+from lagsheet.workbook.library import materials
 
 from conftest import pipe, write_book
 

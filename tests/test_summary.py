@@ -5,8 +5,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from lagsheet.pipeline import fill
-from lagsheet.summary import quantities_table, summary
+from lagsheet.commands.fill import fill
+from lagsheet.outputs.summary import quantities_table, summary
 
 from conftest import write_book
 

@@ -21,11 +21,12 @@ from xml.etree import ElementTree as ET
 import openpyxl
 import pytest
 
-from lagsheet import library, schema
-from lagsheet.check import read_table
-from lagsheet.inputs import BUILTIN_CONDITIONS, read_inputs
+from lagsheet.commands.template import TEMPLATES, template_bytes
 from lagsheet.io import open_book
-from lagsheet.templates import TEMPLATES, template_bytes
+from lagsheet.workbook import fields as schema
+from lagsheet.workbook import library
+from lagsheet.workbook.inputs import BUILTIN_CONDITIONS, read_inputs
+from lagsheet.workbook.tables import read_table
 
 ROOT = Path(__file__).resolve().parents[1]
 SOURCE = ROOT / "sheet_templates"

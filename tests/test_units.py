@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from lagsheet.units import (
+from lagsheet.workbook.units import (
     UnitTextError,
     dimensionality,
     parse_quantity_text,

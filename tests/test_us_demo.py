@@ -7,7 +7,8 @@ import json
 import openpyxl
 import pytest
 
-from lagsheet import demo, library
+from lagsheet.commands import demo
+from lagsheet.workbook import library
 
 # exact definitions (NIST SP 811): 1 in = 25.4 mm, 1 ft = 0.3048 m; Btu/(h·ft) = 0.9615194 W/m
 US_HEADERS = {

@@ -29,7 +29,7 @@ import openpyxl
 import pytest
 
 from lagsheet.io.save import TMP_SUFFIX, atomic_write, remove_stale_temps
-from lagsheet.writeback import CELL_LIMIT, fit_cell
+from lagsheet.outputs.columns import CELL_LIMIT, fit_cell
 
 from conftest import pipe, sha256, write_book
 
@@ -280,7 +280,7 @@ def test_a_report_into_a_read_only_folder_writes_no_workbook(tmp_path, cli, read
 
 def test_a_disk_full_while_writing_the_report_leaves_the_previous_workbook(tmp_path, cli, monkeypatch):
     """The disk fills while the report is written: the previous output is still there, whole."""
-    from lagsheet import report
+    from lagsheet.outputs import report
 
     src = write_book(tmp_path / "in.xlsx", [pipe()])
     (tmp_path / "out.xlsx").write_bytes(b"previous output")

@@ -95,7 +95,7 @@ def fill(
     quiet: bool = typer.Option(False, "--quiet", "-q", help="Print errors only."),
     map_: list[str] = typer.Option([], "--map", help=_MAP_HELP),
 ):
-    from .pipeline import fill as run
+    from .commands.fill import fill as run
 
     mapping = _map_pairs(map_, "Insulation")
     with _progress(quiet) as stage:
@@ -165,9 +165,9 @@ def demo(
     directory: Path = typer.Argument(Path("lagsheet-demo"), file_okay=False, help="Folder for the demo files."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="Print errors only."),
 ):
-    from .demo import write_demo
+    from .commands.demo import write_demo
+    from .commands.fill import fill as run
     from .errors import WorkbookError
-    from .pipeline import fill as run
 
     src = directory / "demo-plant.xlsx"
     out = directory / "demo-plant-filled.xlsx"
@@ -193,9 +193,9 @@ def demo(
 
 @app.command(help="List the built-in insulation materials and finishes with their sources.")
 def materials():
-    from .display import show
-    from .library import finishes
-    from .library import materials as mats
+    from .workbook.display import show
+    from .workbook.library import finishes
+    from .workbook.library import materials as mats
 
     for m in mats().values():
         pts = ", ".join(f"{show(t, 'temperature')}: {k:.4f}" for t, k in
@@ -219,7 +219,7 @@ def new(
     file: Path = typer.Argument(..., help="The workbook to write: a name ending in .xlsx or .ods."),
     force: bool = typer.Option(False, "--force", help="Replace FILE if it already exists."),
 ):
-    from .templates import write_new
+    from .commands.template import write_new
 
     _guarded(lambda: write_new(file, force=force))
     typer.echo(f"written: {file}")
@@ -244,8 +244,8 @@ def _refuse_unsafe(file: Path, *targets: tuple[Path | None, str]) -> None:
 
 
 def _open_and_specify(file: Path, sheet: str):
-    from .pipeline import load
-    from .spec import specify
+    from .commands.fill import load
+    from .design.select import specify
 
     book, inputs = load(file, sheet)
     return book, inputs, specify(inputs)
@@ -265,7 +265,7 @@ def check(
     from rich.markup import escape
     from rich.table import Table
 
-    from .checking import check as run
+    from .commands.check import check as run
 
     mapping = _map_pairs(map_, "Insulation")
     from .io.save import writing
@@ -277,7 +277,7 @@ def check(
         with writing(inputs=[file], deferred=True):
             outcome = run(file, sheet, annotate, mapping)
             if report is not None:
-                from .report import write_json
+                from .outputs.report import write_json
 
                 errors = sum(n.level == "error" for n in outcome.notes)
                 warnings = sum(n.level == "warning" for n in outcome.notes)
@@ -312,8 +312,8 @@ def explain(
     plot: Path = typer.Option(None, "--plot", dir_okay=False, help="Also draw the line's curves to this PNG."),
     sheet: str = typer.Option("Lines", "--sheet", help="The sheet holding the lines."),
 ):
-    from .explain import explain as words
-    from .explain import find_line
+    from .commands.explain import explain as words
+    from .commands.explain import find_line
 
     _refuse_unsafe(file, (plot, "plot"))
     book, inputs, res = _guarded(lambda: _open_and_specify(file, sheet))
@@ -326,7 +326,7 @@ def explain(
         if not (res.lines[i].ok and res.lines[i].materials):
             typer.echo("lagsheet: this line has no computed insulated system to plot", err=True)
             raise typer.Exit(1)
-        from .plot import plot_line
+        from .outputs.plot import plot_line
 
         _guarded(lambda: plot_line(inputs, res, i, plot, never=[file]))
         typer.echo(f"plot: {plot}")
@@ -346,7 +346,7 @@ def audit(
 ):
     from dataclasses import asdict
 
-    from .audit import audit as run
+    from .commands.audit import audit as run
 
     mapping = _map_pairs(map_, "Thickness")
     _refuse_unsafe(file, (report, "report"))
@@ -360,7 +360,7 @@ def audit(
             typer.echo(f"warning: {c.header!r} has no unit in its header; read as {c.unit_text}", err=True)
     typer.echo(result.summary())
     if report is not None:
-        from .report import write_json
+        from .outputs.report import write_json
 
         _guarded(lambda: write_json({"input": str(file), "lines_compared": result.lines_compared,
                                      "columns": [{"header": c.header, "result": c.key, "unit": c.unit_text}

@@ -15,9 +15,9 @@ import numpy as np
 import openpyxl
 import pytest
 
-from lagsheet import library
-from lagsheet.economics import capital_recovery_factor
-from lagsheet.pipeline import fill
+from lagsheet.commands.fill import fill
+from lagsheet.design.economics import capital_recovery_factor
+from lagsheet.workbook import library
 
 # ---------------------------------------------------------------- capital recovery factor
 

@@ -21,9 +21,9 @@ import pytest
 from CoolProp.CoolProp import PropsSI
 from scipy.integrate import solve_ivp
 
+from lagsheet.commands.fill import fill
 from lagsheet.physics.balance import solve
-from lagsheet.physics.sizing import heat_rate, per_line
-from lagsheet.pipeline import fill
+from lagsheet.physics.candidates import heat_rate, per_line
 
 from conftest import BASE_HEADERS, pipe, write_book
 
@@ -203,7 +203,7 @@ def test_the_economic_thickness_of_a_flowing_line_prices_the_heat_the_fluid_give
     """An 'Economic' water line picks the sold thickness of least capital × a + annual cost, where each
     candidate's annual cost is that of the same line at that fixed thickness, which fill writes from the
     marched heat (held to solve_ivp above); a = i(1+i)ⁿ/((1+i)ⁿ − 1) at 5 %, 20 years (REFERENCES.md)."""
-    from lagsheet import library
+    from lagsheet.workbook import library
 
     sheets = {"Conditions": CONDITIONS,
               "Materials": [["Name", "Cost per volume [EUR/m³]"], ["mineral wool", 300]],

@@ -14,7 +14,6 @@ import pytest
 from scipy.integrate import quad
 from scipy.optimize import brentq
 
-from lagsheet.library import materials
 from lagsheet.physics.layers import (
     CYLINDER,
     FLAT,
@@ -24,6 +23,7 @@ from lagsheet.physics.layers import (
     march,
     outer_radius,
 )
+from lagsheet.workbook.library import materials
 
 # Linear k(T) = A + B T [W/(m K)], T in K; given on knots that lie on the line.
 A, B = 0.02, 1.0e-4

@@ -13,7 +13,7 @@ from importlib.resources import files
 import pytest
 from fluids.piping import nearest_pipe
 
-from lagsheet.library import pipe_outside_diameter, pipe_wall_thickness
+from lagsheet.workbook.library import pipe_outside_diameter, pipe_wall_thickness
 
 
 def _rows():

@@ -31,8 +31,9 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from scipy.integrate import simpson, solve_ivp
 
-from lagsheet.limits import CP_KNOTS
+from lagsheet.design.process import CP_KNOTS
 from lagsheet.physics.balance import System
+from lagsheet.physics.candidates import per_line
 from lagsheet.physics.layers import CYLINDER, MaterialTable
 from lagsheet.physics.process import (
     H_FUSION_ICE,
@@ -49,7 +50,6 @@ from lagsheet.physics.process import (
     temperature_profile,
     vessel_cooldown,
 )
-from lagsheet.physics.sizing import per_line
 from lagsheet.physics.surface import PIPE, VESSEL
 
 C0 = 273.15

@@ -1,7 +1,7 @@
 """Process limits of workbook lines (Flow rate, Fluid, steam, Freeze protection, Hold time)
 against outside references.
 
-Every line here is read from a workbook and sized by :func:`lagsheet.spec.specify`; the
+Every line here is read from a workbook and sized by :func:`lagsheet.design.select.specify`; the
 expected values are computed in the test from outside sources:
 
 - steam latent heat from CoolProp ``PropsSI('H', 'P', p, 'Q', 1/0, 'Water')`` and from
@@ -26,11 +26,11 @@ from CoolProp.CoolProp import PropsSI
 from fluids.piping import nearest_pipe
 from scipy.integrate import solve_ivp
 
-from lagsheet import library
+from lagsheet.commands.fill import load
+from lagsheet.design.select import specify
 from lagsheet.physics.balance import solve
-from lagsheet.physics.sizing import heat_rate, per_line
-from lagsheet.pipeline import load
-from lagsheet.spec import specify
+from lagsheet.physics.candidates import heat_rate, per_line
+from lagsheet.workbook import library
 
 from conftest import BASE_HEADERS, pipe, write_book
 

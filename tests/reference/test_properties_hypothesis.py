@@ -15,10 +15,10 @@ from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 from scipy.constants import Stefan_Boltzmann as SIGMA
 
-from lagsheet.library import materials, nominal_sizes
 from lagsheet.physics.balance import System, solve
 from lagsheet.physics.layers import CYLINDER, FLAT, SPHERE, MaterialTable
 from lagsheet.physics.surface import PIPE, RISER, SPHERE_SHAPE, TOP, UNDERSIDE, VESSEL, WALL
+from lagsheet.workbook.library import materials, nominal_sizes
 
 SETTINGS = settings(max_examples=50, derandomize=True, deadline=None, database=None,
                     suppress_health_check=[HealthCheck.filter_too_much])

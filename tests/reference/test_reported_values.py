@@ -77,7 +77,7 @@ DK = 0.01
 
 def run_fill(tmp_path, rows: list[dict]) -> dict[str, dict]:
     """Fill a workbook of ``rows`` with our Materials, Conditions and Settings; the report's lines by tag."""
-    from lagsheet.pipeline import fill
+    from lagsheet.commands.fill import fill
 
     src = write_book(tmp_path / "in.xlsx", rows, HEAD,
                      sheets={"Materials": MATERIALS, "Conditions": CONDITIONS, "Settings": SETTINGS})
@@ -248,7 +248,7 @@ def _reported_interface(res) -> float:
 
 def _finish_eps(name: str) -> float:
     """The finish's emissivity as the built-in table gives it (data, not computation)."""
-    from lagsheet.library import finishes
+    from lagsheet.workbook.library import finishes
 
     return finishes()[name].emissivity
 

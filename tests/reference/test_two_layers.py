@@ -1,7 +1,7 @@
 """A two-material pipe: the engine's interface temperature against a series solve written here.
 
 Inner layer calcium silicate, outer layer mineral wool, each with the piecewise-linear
-k(T) of its points in ``lagsheet.library.materials()``. The series solve has two
+k(T) of its points in ``lagsheet.workbook.library.materials()``. The series solve has two
 unknowns, the surface and interface temperatures, and asks that one heat rate per
 length pass each layer, q' = 2 pi int k dT / ln(r2/r1) (ASTM C680 approach,
 REFERENCES.md), with int k dT by ``scipy.integrate.quad`` of ``np.interp`` over the
@@ -31,10 +31,10 @@ from scipy.constants import g as GRAVITY
 from scipy.integrate import quad
 from scipy.optimize import brentq
 
-from lagsheet import library
 from lagsheet.physics.balance import System, solve
 from lagsheet.physics.layers import CYLINDER, MaterialTable
 from lagsheet.physics.surface import PIPE
+from lagsheet.workbook import library
 
 P_ATM = 101325.0
 C0 = 273.15

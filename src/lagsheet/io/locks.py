@@ -8,7 +8,7 @@ later a UTF-16 copy of the name (preceded by the same length). LibreOffice keeps
 empty, short, binary or unreadable still counts as a lock, with no name.
 
 This module only finds and reads locks; what a command does about them is policy
-(see :mod:`lagsheet.pipeline`). Lagsheet never creates, changes or removes them.
+(see :mod:`lagsheet.commands.fill`). Lagsheet never creates, changes or removes them.
 """
 
 from __future__ import annotations

@@ -43,9 +43,9 @@ from typing import NamedTuple
 import numpy as np
 
 from .balance import System, solve
+from .candidates import heat_rate
 from .layers import MaterialTable
 from .properties import P_ATM, FluidProperties, Saturation, fluid_properties, saturation
-from .sizing import heat_rate
 
 __all__ = ["FluidProperties", "Saturation", "fluid_properties", "saturation"]  # re-exported
 
@@ -540,7 +540,7 @@ def loss_coefficient(system: System, table: MaterialTable, scale=1.0,
         U′ = scale × heat_rate(T) / (T − T_air),
 
     heat_rate per metre for cylinders, per m² for flats, whole for spheres
-    (:func:`lagsheet.physics.sizing.heat_rate`).
+    (:func:`lagsheet.physics.candidates.heat_rate`).
 
     Parameters
     ----------

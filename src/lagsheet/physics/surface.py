@@ -16,7 +16,7 @@ from . import correlations as cr
 from .properties import air
 from .radiation import h_radiation, q_radiation
 
-# Shape codes of the engine (the workbook's words map onto them in lagsheet.spec).
+# Shape codes of the engine (the workbook's words map onto them in lagsheet.design.select).
 PIPE, RISER, VESSEL, WALL, TOP, UNDERSIDE, SPHERE_SHAPE = 0, 1, 2, 3, 4, 5, 6
 
 

@@ -8,9 +8,9 @@ from pathlib import Path
 
 import numpy as np
 
-from . import __version__
-from .inputs import Inputs
-from .spec import Results
+from .. import __version__
+from ..design.select import Results
+from ..workbook.inputs import Inputs
 
 _KEYS = {
     "thickness": "thickness_m", "layers": "layers", "governing": "governing",
@@ -95,7 +95,7 @@ def write_json(data: dict, path: Path, *, inputs=()) -> None:
 
 
 def write(report: dict, path: Path, *, inputs=()) -> None:
-    from .io.save import atomic_write
+    from ..io.save import atomic_write
 
     def w(tmp):
         Path(tmp).write_text(json.dumps(report, indent=1, ensure_ascii=False), encoding="utf-8")

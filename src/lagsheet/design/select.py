@@ -1,6 +1,6 @@
 """Targets -> the chosen insulation system of every line.
 
-Each line is resolved (:mod:`lagsheet.resolve`), then expanded into one *case* per
+Each line is resolved (:mod:`lagsheet.design.lines`), then expanded into one *case* per
 design condition it names. The engine solves every candidate system of every case in
 one call. Each target is judged at the case that is worst for it; the chosen system
 is the thinnest that meets every target (or, for ``Economic`` lines, the one with the
@@ -16,16 +16,18 @@ from functools import lru_cache
 
 import numpy as np
 
-from . import economics, library, limits
-from .display import show
-from .errors import Note
-from .inputs import Condition, Inputs
-from .physics.balance import System, solve
-from .physics.layers import CYLINDER, FLAT, SPHERE, MaterialTable
-from .physics.properties import dew_point
-from .physics.sizing import evaluate, heat_rate, per_line, whole_factor
-from .physics.surface import CORRELATION_NAMES, linearised_h
-from .resolve import Line, resolve_lines
+from ..errors import Note
+from ..physics.balance import System, solve
+from ..physics.candidates import evaluate, heat_rate, per_line, whole_factor
+from ..physics.layers import CYLINDER, FLAT, SPHERE, MaterialTable
+from ..physics.properties import dew_point
+from ..physics.surface import CORRELATION_NAMES, linearised_h
+from ..workbook import library
+from ..workbook.display import show
+from ..workbook.inputs import Condition, Inputs
+from . import economics
+from . import process as limits
+from .lines import Line, resolve_lines
 
 THINNEST = "thinnest sold"  # Governing word when the thinnest sold system meets every target
 GOVERNING_ORDER = ("surface temperature", "condensation", "heat loss", "temperature drop",

@@ -12,14 +12,16 @@ import math
 
 import numpy as np
 
-from . import __version__, library, schema
-from .display import show
-from .inputs import Inputs
-from .io.table import NewSheet as SheetTable
-from .physics.layers import CYLINDER, FLAT, SPHERE
+from .. import __version__
+from ..design.select import Results
+from ..io.table import NewSheet as SheetTable
+from ..physics.layers import CYLINDER, FLAT, SPHERE
+from ..workbook import fields as schema
+from ..workbook import library
+from ..workbook.display import show
+from ..workbook.inputs import Inputs
+from ..workbook.units import from_si
 from .report import CAUTIONS
-from .spec import Results
-from .units import from_si
 
 # (key, SI unit, US unit) of the quantity columns
 _UNITS = {

@@ -16,15 +16,15 @@ import os
 from dataclasses import dataclass
 from pathlib import Path
 
-from . import report
-from .errors import Note, WorkbookError
-from .inputs import Inputs, read_inputs
-from .io import open_book
-from .io.locks import find_lock
-from .io.save import atomic_copy, refuse_unsafe, remove_stale_temps, same_file, writing
-from .spec import Results, specify
-from .summary import quantities_table, summary
-from .writeback import lines_edits
+from ..design.select import Results, specify
+from ..errors import Note, WorkbookError
+from ..io import open_book
+from ..io.locks import find_lock
+from ..io.save import atomic_copy, refuse_unsafe, remove_stale_temps, same_file, writing
+from ..outputs import report
+from ..outputs.columns import lines_edits
+from ..outputs.summary import quantities_table, summary
+from ..workbook.inputs import Inputs, read_inputs
 
 
 @dataclass

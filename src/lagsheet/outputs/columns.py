@@ -9,11 +9,11 @@ from __future__ import annotations
 
 import numpy as np
 
-from . import schema
-from .check import Table, split_header
-from .io.table import RawSheet, SheetEdits, fold
-from .spec import Results
-from .units import from_si
+from ..design.select import Results
+from ..io.table import RawSheet, SheetEdits, fold
+from ..workbook import fields as schema
+from ..workbook.tables import Table, split_header
+from ..workbook.units import from_si
 
 _SI_BASE = {"mm": "m", "in": "m", "°C": "K", "°F": "K", "W/m²": "W/m**2", "Btu/(h·ft²)": "W/m**2",
             "W/m": "W/m", "Btu/(h·ft)": "W/m", "W": "W", "Btu/h": "W", "kWh": "kWh", "MMBtu": "kWh",

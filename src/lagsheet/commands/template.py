@@ -10,7 +10,7 @@ import os
 from importlib.resources import files
 from pathlib import Path
 
-from .errors import WorkbookError
+from ..errors import WorkbookError
 
 TEMPLATES = {".xlsx": "lagsheet.xlsx", ".ods": "lagsheet.ods"}
 
@@ -26,7 +26,7 @@ def template_bytes(suffix: str) -> bytes:
 
 def write_new(path: Path, *, force: bool = False) -> Path:
     """Write the blank workbook to ``path`` (its type by suffix); refuse to replace a file unless ``force``."""
-    from .io.save import atomic_write, refuse_unsafe
+    from ..io.save import atomic_write, refuse_unsafe
 
     path = Path(path)
     suffix = path.suffix.lower()

@@ -10,15 +10,15 @@ from __future__ import annotations
 
 import numpy as np
 
-from .display import show
-from .inputs import Inputs
-from .io.table import RawSheet, address, fold
-from .physics.balance import solve
-from .physics.layers import CYLINDER, FLAT, SPHERE
-from .physics.radiation import SIGMA
-from .physics.sizing import per_line
-from .physics.surface import CORRELATION_NAMES
-from .spec import Results
+from ..design.select import Results
+from ..io.table import RawSheet, address, fold
+from ..physics.balance import solve
+from ..physics.candidates import per_line
+from ..physics.layers import CYLINDER, FLAT, SPHERE
+from ..physics.radiation import SIGMA
+from ..physics.surface import CORRELATION_NAMES
+from ..workbook.display import show
+from ..workbook.inputs import Inputs
 
 
 def find_line(res: Results, tag: str) -> int | None:

@@ -17,15 +17,16 @@ from functools import lru_cache
 
 import numpy as np
 
-from . import library, schema
-from .check import Table
-from .display import show
-from .errors import Note
-from .inputs import Condition, Inputs
-from .io.table import fold
-from .limits import Process, resolve_process
-from .physics.layers import CYLINDER, FLAT, SPHERE
-from .physics.surface import PIPE, RISER, SPHERE_SHAPE, TOP, UNDERSIDE, VESSEL, WALL
+from ..errors import Note
+from ..io.table import fold
+from ..physics.layers import CYLINDER, FLAT, SPHERE
+from ..physics.surface import PIPE, RISER, SPHERE_SHAPE, TOP, UNDERSIDE, VESSEL, WALL
+from ..workbook import fields as schema
+from ..workbook import library
+from ..workbook.display import show
+from ..workbook.inputs import Condition, Inputs
+from ..workbook.tables import Table
+from .process import Process, resolve_process
 
 # shape word -> (convection code, conduction geometry)
 SHAPE_CODES = {

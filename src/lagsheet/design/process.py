@@ -1,7 +1,7 @@
 """Process limits of lines: temperature drop of flowing lines, steam condensate, time to
 freeze of stagnant water, cool-down of vessel contents.
 
-Three steps, called by :mod:`lagsheet.resolve` and :mod:`lagsheet.spec`:
+Three steps, called by :mod:`lagsheet.design.lines` and :mod:`lagsheet.design.select`:
 
 - :func:`resolve_process` reads a line's process columns (``Flow rate``, ``Fluid``,
   ``Operating pressure``, ``Inside diameter``/``Schedule``, ``Max temperature drop``,
@@ -50,15 +50,15 @@ from functools import lru_cache
 
 import numpy as np
 
-from . import library
-from .display import show
-from .errors import Note
-from .io.table import fold
-from .physics import process as pp
-from .physics.balance import System
-from .physics.layers import CYLINDER, MaterialTable
-from .physics.properties import P_ATM, coolprop_name, fluid_properties, saturation
-from .physics.sizing import per_line, whole_factor
+from ..errors import Note
+from ..io.table import fold
+from ..physics import process as pp
+from ..physics.balance import System
+from ..physics.candidates import per_line, whole_factor
+from ..physics.layers import CYLINDER, MaterialTable
+from ..physics.properties import P_ATM, coolprop_name, fluid_properties, saturation
+from ..workbook import library
+from ..workbook.display import show
 
 STEAM_WORDS = {"steam", "saturated steam", "wet steam", "dry steam"}
 STEEL_DENSITY = 7850.0  # kg/m³, carbon steel (handbook value, from memory)
@@ -253,7 +253,7 @@ def _freeze_inputs(t, i, L, num, text, err, warn) -> None:
 
 
 def _factor(lines, rows) -> np.ndarray:
-    """Heat rate -> whole line for the lines ``rows`` (:func:`~lagsheet.physics.sizing.whole_factor`)."""
+    """Heat rate -> whole line for the lines ``rows`` (:func:`~lagsheet.physics.candidates.whole_factor`)."""
     return whole_factor(*(np.array([getattr(lines[i], a) for i in rows], dtype=float)
                           for a in ("geometry", "length", "area")))
 

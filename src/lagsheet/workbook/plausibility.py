@@ -29,8 +29,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..physics.properties import air
 from .library import nominal_sizes
-from .physics.properties import air
 
 SHARE = 0.6  # share of a column's values that must support a rule
 

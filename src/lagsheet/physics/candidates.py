@@ -4,7 +4,7 @@ A candidate is a set of layer thicknesses (one per material slot: inner, outer);
 line's candidates form a padded array (lines × candidates × slots), NaN where a line
 has fewer. The engine solves all (line, candidate) pairs as one flat
 :class:`~lagsheet.physics.balance.System` and returns matrices; choosing among them is
-the job of :mod:`lagsheet.spec`.
+the job of :mod:`lagsheet.design.select`.
 """
 
 from __future__ import annotations

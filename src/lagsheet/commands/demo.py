@@ -16,7 +16,7 @@ from __future__ import annotations
 import zipfile
 from pathlib import Path
 
-from .io.xlsx import fonts_in_schema_order
+from ..io.xlsx import fonts_in_schema_order
 
 HEADERS = ["Tag", "Area", "Service", "Shape", "Size", "Outside diameter [mm]", "Length [m]",
            "Operating temperature [°C]", "Condition", "Insulation", "Finish",
@@ -182,7 +182,7 @@ def write_demo(path: Path) -> None:
         s.page_setup.orientation = "landscape"
         s.sheet_properties.pageSetUpPr = PageSetupProperties(fitToPage=True)
         s.page_setup.fitToWidth, s.page_setup.fitToHeight = 1, 0
-    from .io.save import atomic_write
+    from ..io.save import atomic_write
 
     def write(tmp: str) -> None:
         wb.save(tmp)

@@ -15,9 +15,9 @@ from typing import Any
 
 import numpy as np
 
-from . import schema
-from .errors import InputError, Note
-from .io.table import RawSheet, address, fold
+from ..errors import InputError, Note
+from ..io.table import RawSheet, address, fold
+from . import fields as schema
 from .units import (
     UnitTextError,
     from_si,

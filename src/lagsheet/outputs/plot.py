@@ -11,13 +11,13 @@ from pathlib import Path
 
 import numpy as np
 
-from .display import show
-from .inputs import Inputs
-from .physics.balance import solve
-from .physics.layers import CYLINDER, FLAT
-from .physics.sizing import heat_rate, per_line
-from .spec import Results
-from .units import from_si
+from ..design.select import Results
+from ..physics.balance import solve
+from ..physics.candidates import heat_rate, per_line
+from ..physics.layers import CYLINDER, FLAT
+from ..workbook.display import show
+from ..workbook.inputs import Inputs
+from ..workbook.units import from_si
 
 
 def curve(res: Results, i: int, condition=None, top: float | None = None, points: int = 120):
@@ -104,14 +104,14 @@ def plot_line(inputs: Inputs, res: Results, i: int, out: Path, *, never=()) -> P
     """Draw line ``i``'s curves into ``out`` (a PNG) through the one safe save; never onto a file of ``never``."""
     import matplotlib.pyplot as plt
 
-    from .io.save import atomic_write
+    from ..io.save import atomic_write
 
     fig = figure(inputs, res, i)
     out = Path(out)
     fmt = out.suffix[1:].lower() or "png"  # the temporary file's name says nothing of the format
     if fmt not in fig.canvas.get_supported_filetypes():
         plt.close(fig)
-        from .errors import WorkbookError
+        from ..errors import WorkbookError
 
         raise WorkbookError(f"{out.name}: a plot is drawn as .png, .svg or .pdf; give a name ending in one of them")
 

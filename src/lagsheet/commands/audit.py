@@ -20,16 +20,16 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from .check import split_header
-from .display import show
-from .errors import LagsheetError
-from .inputs import Inputs
-from .io.table import RawSheet, address, fold
-from .physics.balance import System, solve
-from .physics.layers import CYLINDER, MaterialTable
-from .physics.sizing import heat_rate, per_line
-from .spec import Results, _whole
-from .units import UnitTextError, is_unit, parse_unit, to_si, unit_label
+from ..design.select import Results, _whole
+from ..errors import LagsheetError
+from ..io.table import RawSheet, address, fold
+from ..physics.balance import System, solve
+from ..physics.candidates import heat_rate, per_line
+from ..physics.layers import CYLINDER, MaterialTable
+from ..workbook.display import show
+from ..workbook.inputs import Inputs
+from ..workbook.tables import split_header
+from ..workbook.units import UnitTextError, is_unit, parse_unit, to_si, unit_label
 
 # our result headers, and the SI unit each is compared in
 RESULTS = {
@@ -329,7 +329,7 @@ def _causes(inputs: Inputs, res: Results, theirs, rows: np.ndarray, surface_k: f
 
 def _nps_number(size) -> float | None:
     """'NPS 4' or '4"' -> 4.0 (the nominal number, not the OD); DN sizes -> None."""
-    from .library import _NPS, _fraction
+    from ..workbook.library import _NPS, _fraction
 
     if not size or str(size).strip().lower().startswith("dn"):
         return None

@@ -13,11 +13,11 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from .errors import Note, WorkbookError
-from .inputs import Inputs, read_inputs
-from .io import open_book
-from .io.table import SheetEdits
-from .resolve import resolve_lines
+from ..design.lines import resolve_lines
+from ..errors import Note, WorkbookError
+from ..io import open_book
+from ..io.table import SheetEdits
+from ..workbook.inputs import Inputs, read_inputs
 
 # Error codes only the calculation can give (a target no sold thickness meets, a balance that
 # does not converge, a conductivity outside its data): `fill` reports them, `check` cannot.
@@ -48,12 +48,12 @@ def check(path: Path, sheet: str = "Lines", annotate: Path | None = None,
         e = SheetEdits(t.sheet, t.header_row)
         for n in out.notes:
             if n.sheet == t.sheet and n.cell and n.level in ("error", "warning"):
-                from .writeback import _parse_address
+                from ..outputs.columns import _parse_address
 
                 pos = _parse_address(n.cell)
                 if pos is not None:
                     e.comments[pos] = (e.comments[pos] + "\n" if pos in e.comments else "") + n.message
-        from .writeback import fit_comments
+        from ..outputs.columns import fit_comments
 
         fit_comments(e.comments, "check's printed list and its --report")
         book.save([e], Path(annotate))

@@ -11,11 +11,12 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from . import library, plausibility, schema
-from .check import Table, read_table, split_header, unused_columns
-from .check import header_map as check_header_map
-from .errors import Note
-from .io.table import Book, address, fold
+from ..errors import Note
+from ..io.table import Book, address, fold
+from . import fields as schema
+from . import library, plausibility
+from .tables import Table, read_table, split_header, unused_columns
+from .tables import header_map as check_header_map
 from .units import UnitTextError, from_si, is_unit, parse_unit, split_currency, to_si, unit_label
 
 
