@@ -34,7 +34,7 @@ from ..workbook.units import UnitTextError, is_unit, parse_unit, to_si, unit_lab
 # our result headers, and the SI unit each is compared in
 RESULTS = {
     "thickness": ("Thickness", "m"),
-    "t_surface": ("Surface temperature", "K"),
+    "surface_temperature": ("Surface temperature", "K"),
     "heat_loss_per_length": ("Heat loss per length", "W/m"),
     "heat_loss": ("Heat loss", "W"),
 }
@@ -150,7 +150,7 @@ def their_columns(raw: RawSheet, header_row: int, mapping: dict[str, str]) -> li
 
 
 def _default_unit(key: str) -> str:
-    return {"thickness": "mm", "t_surface": "°C", "heat_loss_per_length": "W/m", "heat_loss": "W"}[key]
+    return {"thickness": "mm", "surface_temperature": "°C", "heat_loss_per_length": "W/m", "heat_loss": "W"}[key]
 
 
 def _as_written(x: float, unit_text: str) -> str:
@@ -200,7 +200,7 @@ def audit(inputs: Inputs, raw: RawSheet, res: Results, mapping: dict[str, str] |
         both = np.isfinite(their) & np.isfinite(ours)
         if key == "thickness":  # the same sold size: within 0.5 mm, or an inch size and its metric twin (2 %)
             bad = both & (np.abs(their - ours) > np.maximum(0.0005, 0.02 * np.abs(ours)))
-        elif key == "t_surface":
+        elif key == "surface_temperature":
             bad = both & (np.abs(their - ours) > surface_k)
         else:
             bad = both & (np.abs(their - ours) > loss_rel * np.maximum(np.abs(ours), 1e-9))
@@ -212,7 +212,7 @@ def audit(inputs: Inputs, raw: RawSheet, res: Results, mapping: dict[str, str] |
         if differ.any() else {}
     us = inputs.us_units
     for key, bad in checks:
-        kind = {"thickness": "thickness", "t_surface": "temperature", "heat_loss_per_length": "per_length",
+        kind = {"thickness": "thickness", "surface_temperature": "temperature", "heat_loss_per_length": "per_length",
                 "heat_loss": "power"}[key]
         tc = by_key[key]
         for i in np.flatnonzero(bad):
@@ -304,16 +304,16 @@ def _causes(inputs: Inputs, res: Results, theirs, rows: np.ndarray, surface_k: f
     for name, (s, table) in variants.items():
         sol = solve(s, table)
         rate = heat_rate(geometry, sol.q, sol.r_outer)
-        got = {"t_surface": sol.t_surface, "heat_loss_per_length": np.where(geometry == CYLINDER, rate, np.nan),
+        got = {"surface_temperature": sol.t_surface, "heat_loss_per_length": np.where(geometry == CYLINDER, rate, np.nan),
                "heat_loss": _whole(geometry, rate, lengths, areas)}
         err = np.zeros(len(rows))
         n_cmp = np.zeros(len(rows))
-        for key in ("t_surface", "heat_loss_per_length", "heat_loss"):
+        for key in ("surface_temperature", "heat_loss_per_length", "heat_loss"):
             if key not in theirs:
                 continue
             their = theirs[key][rows]
             ok = np.isfinite(their) & np.isfinite(got[key])
-            scale = surface_k if key == "t_surface" else loss_rel * np.maximum(np.abs(their), 1e-9)
+            scale = surface_k if key == "surface_temperature" else loss_rel * np.maximum(np.abs(their), 1e-9)
             err = err + np.where(ok, np.abs(got[key] - their) / scale, 0.0)
             n_cmp = n_cmp + ok
         errors[name] = np.where(n_cmp > 0, err / np.maximum(n_cmp, 1), np.inf)

@@ -22,25 +22,19 @@ from ..workbook.display import show
 from ..workbook.inputs import Inputs
 from ..workbook.units import from_si
 from .report import CAUTIONS
+from .totals import covered, total
 
 # (key, SI unit, US unit) of the quantity columns
 _UNITS = {
     "power": ("kW", "MBtu/h"), "energy": ("MWh", "MMBtu"), "co2": ("t/yr", "t/yr"),
     "length": ("m", "ft"), "area": ("m²", "ft²"), "volume": ("m³", "ft³"),
 }
-_PINT = {"kW": "kW", "MBtu/h": "MBtu/hour", "MWh": "MWh", "MMBtu": "MMBtu", "t/yr": "t/year",
-         "m": "m", "ft": "foot", "m²": "m**2", "ft²": "foot**2", "m³": "m**3", "ft³": "foot**3"}
 _SI = {"power": "W", "energy": "kWh", "co2": "kg/year", "length": "m", "area": "m**2", "volume": "m**3"}
 
 
 def _conv(values, kind: str, us: bool):
     unit = _UNITS[kind][1 if us else 0]
-    return from_si(np.asarray(values, dtype=float), _SI[kind], _PINT[unit])
-
-
-def _fin(x) -> float:
-    x = float(x)
-    return x if math.isfinite(x) else 0.0
+    return from_si(np.asarray(values, dtype=float), _SI[kind], unit)
 
 
 def summary(inputs: Inputs, res: Results, today: _dt.date | None = None) -> SheetTable:
@@ -61,8 +55,6 @@ def summary(inputs: Inputs, res: Results, today: _dt.date | None = None) -> Shee
             f"Bare heat loss [{p}]", f"Annual energy [{e}]", f"Annual cost [{cur}]",
             f"Annual saving [{cur}]", "CO2 [t/yr]", f"Installed cost [{cur}]", "Payback [yr]", "Totals cover"]
     header_row = s.add(head, bold=True)
-    loss = np.nan_to_num(v["heat_loss"])
-    energy = np.nan_to_num(v["annual_energy"])
     fm = {4: "#,##0.0", 5: "#,##0.0", 6: "#,##0.0", 7: "#,##0.0", 8: "#,##0", 9: "#,##0", 10: "#,##0.0",
           11: "#,##0", 12: "0.0"}
     first = None
@@ -70,22 +62,8 @@ def summary(inputs: Inputs, res: Results, today: _dt.date | None = None) -> Shee
     for name, idx in groups:
         idx = np.array(idx, dtype=int)
         st = [res.status[i] for i in idx]
-        gain = loss[idx][loss[idx] < 0].sum()
-        lost = loss[idx][loss[idx] > 0].sum()
-        inst = v["installed_cost"][idx]
-        saving = sum(_fin(v["annual_saving"][i]) for i in idx)
-        installed = float(inst[np.isfinite(inst)].sum()) if np.isfinite(inst).any() else None
-        both = np.isfinite(inst) & np.isfinite(v["annual_saving"][idx])  # payback: lines with both
-        saving_known = float(v["annual_saving"][idx][both].sum()) if both.any() else 0.0
-        payback = float(inst[both].sum()) / saving_known if saving_known > 0 else None
-        r = s.add([name, len(idx), st.count("error"), st.count("warning"),
-                   float(_conv(lost, "power", us)),
-                   float(_conv(-gain, "power", us)),
-                   float(_conv(np.nansum(np.abs(np.nan_to_num(v["bare_heat_loss"][idx]))), "power", us)),
-                   float(_conv(np.abs(energy[idx]).sum(), "energy", us)),
-                   float(sum(_fin(v["annual_cost"][i]) for i in idx)), float(saving),
-                   float(np.nansum(v["co2"][idx])) / 1000, installed, payback,
-                   coverage(v, idx, both)], fm, bold=name == "Total")
+        r = s.add([name, len(idx), st.count("error"), st.count("warning"), *_totals(v, idx, us)], fm,
+                  bold=name == "Total")
         first = r if first is None else first
     s.chart = {"title": f"Heat loss by area, insulated and bare [{p}]", "categories": (0, first, first + len(order) - 1),
                "series": [((header_row, 4), 4, first, first + len(order) - 1),
@@ -117,6 +95,22 @@ def summary(inputs: Inputs, res: Results, today: _dt.date | None = None) -> Shee
     return s
 
 
+def _totals(v: dict, idx: np.ndarray, us: bool) -> list:
+    """A Summary row's totals over lines ``idx``: heat lost, heat gained, bare heat loss, energy (each
+    counted as a positive amount), cost, saving, CO2 [t/yr], installed cost, payback and coverage."""
+    inst = v["installed_cost"][idx]
+    installed = total(inst) if covered(inst) else None
+    both = np.isfinite(inst) & np.isfinite(v["annual_saving"][idx])  # payback: lines with both
+    saving_known = total(v["annual_saving"], idx[both])
+    payback = total(inst[both]) / saving_known if saving_known > 0 else None
+    return [float(_conv(total(v["heat_loss"], idx, sign=1), "power", us)),
+            float(_conv(-total(v["heat_loss"], idx, sign=-1), "power", us)),
+            float(_conv(total(np.abs(v["bare_heat_loss"]), idx), "power", us)),
+            float(_conv(total(np.abs(v["annual_energy"]), idx), "energy", us)),
+            total(v["annual_cost"], idx), total(v["annual_saving"], idx), total(v["co2"], idx) / 1000,
+            installed, payback, coverage(v, idx, both)]
+
+
 # Summary column -> the per-line result it adds up
 COVERED = (("Heat loss", "heat_loss"), ("Heat gain", "heat_loss"), ("Bare heat loss", "bare_heat_loss"),
            ("Annual energy", "annual_energy"), ("Annual cost", "annual_cost"),
@@ -127,7 +121,7 @@ def coverage(values: dict, idx: np.ndarray, payback_lines: np.ndarray) -> str | 
     """Which totals of a Summary row leave lines out, and how many they cover: 'Installed cost,
     Payback: 6 of 10 lines'. None when every total covers every line of the row."""
     n = len(idx)
-    counts = {name: int(np.isfinite(values[key][idx]).sum()) for name, key in COVERED}
+    counts = {name: covered(values[key], idx) for name, key in COVERED}
     counts["Payback"] = int(payback_lines.sum())
     by_count: dict[int, list[str]] = {}
     for name, k in counts.items():
