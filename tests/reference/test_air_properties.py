@@ -25,14 +25,15 @@ def _coolprop(t):
 
 
 @pytest.mark.parametrize("t", BETWEEN_KNOTS)
-def test_air_within_half_percent_of_coolprop(t):
-    """Conductivity, viscosities and Prandtl number lie within 0.5 % of CoolProp between knots."""
+def test_air_within_1e4_of_coolprop(t):
+    """Conductivity, viscosities and Prandtl number lie within 1e-4 of CoolProp between knots (measured 3.3e-5
+    at most, the Prandtl number; 4.7e-6 for k)."""
     k, nu, pr, _, mu = _coolprop(t)  # CoolProp PropsSI 'L', 'V', 'D', 'C' for Air at 101325 Pa
     a = air(np.array([t]))
-    assert a.k[0] == pytest.approx(k, rel=5e-3)
-    assert a.mu[0] == pytest.approx(mu, rel=5e-3)
-    assert a.nu[0] == pytest.approx(nu, rel=5e-3)
-    assert a.pr[0] == pytest.approx(pr, rel=5e-3)
+    assert a.k[0] == pytest.approx(k, rel=1e-4)
+    assert a.mu[0] == pytest.approx(mu, rel=1e-4)
+    assert a.nu[0] == pytest.approx(nu, rel=1e-4)
+    assert a.pr[0] == pytest.approx(pr, rel=1e-4)
 
 
 @pytest.mark.parametrize("t", [200.0, 300.0, 1000.0])
