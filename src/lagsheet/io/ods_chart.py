@@ -53,8 +53,8 @@ class Objects:
 
     def __init__(self, zf: zipfile.ZipFile | None):
         self.names = set(zf.namelist()) if zf is not None else set()
-        # without a manifest a reader cannot tell the folder is a chart: then no chart is added
-        self.possible = MANIFEST in self.names
+        # without a manifest we can extend, a reader cannot tell the folder is a chart: then no chart
+        self.possible = MANIFEST in self.names and _closing(zf.read(MANIFEST)) is not None
         self.parts: dict[str, bytes] = {}
         self.added: list[str] = []  # folder names
         self.gone: list[str] = []  # folder names of our earlier charts, dropped with their sheet
@@ -100,10 +100,10 @@ class Objects:
 
     def manifest(self, body: bytes) -> bytes:
         """The manifest without the dropped members and with the added ones."""
-        text = body.decode("utf-8")
-        m = re.search(r"</([\w.-]+:)?manifest\s*>", text)
-        if m is None:
+        m = _closing(body)
+        if m is None or not (self.added or self.removed):
             return body
+        text = body.decode("utf-8")
         p = m.group(1) or ""
         for member in sorted(self.removed) + [g + "/" for g in self.gone]:
             text = re.sub(rf'\s*<{p}file-entry\b[^>]*\b{p}full-path="{re.escape(escape(member))}"[^>]*/>', "", text)
@@ -114,6 +114,14 @@ class Objects:
             f'{p}media-type="{CHART_TYPE}"/>\n' for folder in self.added)
         m = re.search(r"</([\w.-]+:)?manifest\s*>", text)
         return (text[:m.start()] + entries + text[m.start():]).encode("utf-8")
+
+
+def _closing(body: bytes) -> re.Match | None:
+    """The manifest's closing tag, if the manifest is UTF-8 text that has one."""
+    try:
+        return re.search(r"</([\w.-]+:)?manifest\s*>", body.decode("utf-8"))
+    except UnicodeDecodeError:
+        return None
 
 
 def _ranges(sheet: str, chart: dict) -> list[str]:
