@@ -369,7 +369,6 @@ class _PartScan:
         p.CommentHandler = self._comment
         p.ProcessingInstructionHandler = self._pi
         p.StartCdataSectionHandler = self._cdata
-        self.in_cdata = False
 
     # -- the generic checks
     def _doctype(self, name, sysid, pubid, has_internal):
