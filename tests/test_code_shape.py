@@ -26,9 +26,7 @@ PENDING = {
     "design.select._specify": 257,
     "design.select._notes": 116,
     "design.process.resolve_process": 94,
-    "outputs.summary.summary": 71,
     "design.lines.resolve": 69,
-    "outputs.summary.quantities_table": 64,
     "design.process.flowing_lines": 61,
 }
 
