@@ -55,7 +55,7 @@ from ..io.table import fold
 from ..physics import process as pp
 from ..physics.balance import System
 from ..physics.candidates import per_line, whole_factor
-from ..physics.layers import CYLINDER, MaterialTable
+from ..physics.layers import CYLINDER
 from ..physics.properties import P_ATM, coolprop_name, fluid_properties, saturation
 from ..workbook import library
 from ..workbook.display import show
@@ -67,7 +67,6 @@ SELECT_NODES = 8  # Gauss–Legendre nodes when judging every candidate (24 for 
 STEAM_TOLERANCE_K = 2.0  # operating temperature vs saturation before a warning (our choice)
 DEFAULT_SCHEDULE = "40"
 
-TARGETS = ("temperature drop", "freeze protection", "hold time")
 
 
 @dataclass
@@ -263,63 +262,23 @@ def coldest(line) -> int:
     return int(np.argmin([c.t_air for c in line.conditions]))
 
 
-def _coldest(lines, idx, starts) -> np.ndarray:
+def coldest_cases(lines, idx, starts) -> np.ndarray:
     """Case index of the coldest named condition of each line ``idx``."""
     return np.array([starts[i] + coldest(lines[i]) for i in idx], dtype=int)
 
 
-def targets(lines, ok, cases: System, starts, case_line, cand, table: MaterialTable, c, all_cases,
-            settings, given, meets, worst, values) -> np.ndarray:
-    """Add the process targets to ``given``/``meets``/``worst`` and their measure per line
-    and candidate to ``values`` (lines × candidates); returns the lines with a hold time
-    (judged later by :func:`hold_targets`, once their parts are chosen)."""
-    n, m, _ = cand.shape
+def closed_drop(lines, cases: System, case_line, c) -> np.ndarray:
+    """Inlet-to-outlet temperature change [K] of every candidate of every case (cases ×
+    candidates), closed form with UA at the inlet: UA = the line's heat loss at the
+    operating temperature / (θ_in − θ_a), c_p at the inlet."""
     procs = [L.process for L in lines]
-    factor = _factor(lines, range(n))
-
-    drop_given = np.array([ok[i] and P.flowing and np.isfinite(P.max_drop) for i, P in enumerate(procs)])
-    if drop_given.any():
-        t_in = cases.t_operating[:, None]
-        ta = cases.t_air[:, None]
-        ua = c.heat_rate * factor[case_line][:, None] / np.where(t_in != ta, t_in - ta, np.nan)
-        m_dot = np.array([P.m_dot for P in procs])[case_line][:, None]
-        cp = np.array([P.cp for P in procs])[case_line][:, None]
-        drop = np.where(t_in == ta, 0.0, np.abs(t_in - pp.outlet_temperature_closed(t_in, ta, ua, 1.0, m_dot, cp)))
-        limit = np.array([P.max_drop for P in procs])[case_line][:, None]
-        given["temperature drop"] = drop_given
-        meets["temperature drop"] = all_cases(np.where(np.isfinite(drop), drop <= limit + 1e-9, False))
-        worst["temperature drop"] = drop
-        values["temperature drop"] = np.maximum.reduceat(np.nan_to_num(drop, nan=np.inf), starts, axis=0)
-
-    freeze_given = np.array([ok[i] and np.isfinite(P.freeze) and np.isfinite(P.bore)
-                             for i, P in enumerate(procs)])
-    if freeze_given.any():
-        idx = np.flatnonzero(freeze_given)
-        seconds = _freeze_time(lines, idx, _coldest(lines, idx, starts), cases, cand[idx], table,
-                               settings, SELECT_NODES)
-        met = np.zeros((n, m), dtype=bool)
-        met[idx] = seconds >= np.array([procs[i].freeze for i in idx])[:, None]
-        given["freeze protection"] = freeze_given
-        meets["freeze protection"] = met
-        values["freeze protection"] = np.full((n, m), np.nan)
-        values["freeze protection"][idx] = seconds
-    hold_given = np.array([ok[i] and np.isfinite(P.hold) and np.isfinite(P.volume) and np.isfinite(P.t_limit)
-                           for i, P in enumerate(procs)])
-    if hold_given.any():
-        given["hold time"] = hold_given
-    return np.flatnonzero(hold_given)
-
-
-def hold_targets(lines, idx, cases, starts, cand, table, chosen_th, parts, meets, values, n):
-    """``meets['hold time']`` for vessels ``idx``, their parts at their chosen systems."""
-    procs = [L.process for L in lines]
-    times = _cool_time(lines, idx, _coldest(lines, idx, starts), cases, starts, cand[idx], table,
-                       chosen_th, parts, SELECT_NODES)
-    met = np.zeros((n, cand.shape[1]), dtype=bool)
-    met[idx] = times >= np.array([procs[i].hold for i in idx])[:, None]
-    meets["hold time"] = met
-    values["hold time"] = np.full((n, cand.shape[1]), np.nan)
-    values["hold time"][idx] = times
+    factor = _factor(lines, range(len(lines)))
+    t_in = cases.t_operating[:, None]
+    ta = cases.t_air[:, None]
+    ua = c.heat_rate * factor[case_line][:, None] / np.where(t_in != ta, t_in - ta, np.nan)
+    m_dot = np.array([P.m_dot for P in procs])[case_line][:, None]
+    cp = np.array([P.cp for P in procs])[case_line][:, None]
+    return np.where(t_in == ta, 0.0, np.abs(t_in - pp.outlet_temperature_closed(t_in, ta, ua, 1.0, m_dot, cp)))
 
 
 def parts_of(lines, tags, res, t) -> dict[int, list[int]]:
@@ -358,7 +317,7 @@ def _pairs(cases: System, case_idx, thickness) -> System:
     return per_line(cases, rows, thickness=np.where(good[:, None], th, 0.0)), good
 
 
-def _freeze_time(lines, idx, case_idx, cases, thickness, table, settings, nodes) -> np.ndarray:
+def freeze_time(lines, idx, case_idx, cases, thickness, table, settings, nodes) -> np.ndarray:
     """Time to freeze [s] of lines ``idx`` for every candidate (len(idx) × candidates)."""
     k, m, _ = thickness.shape
     sysp, good = _pairs(cases, case_idx, thickness)
@@ -372,7 +331,7 @@ def _freeze_time(lines, idx, case_idx, cases, thickness, table, settings, nodes)
     return np.where(good, ft.total, np.nan).reshape(k, m)
 
 
-def _cool_time(lines, idx, case_idx, cases, starts, thickness, table, chosen_th, parts,
+def cool_time(lines, idx, case_idx, cases, starts, thickness, table, chosen_th, parts,
                nodes) -> np.ndarray:
     """Time to cool [s] of vessels ``idx`` for every candidate, their parts at ``chosen_th``."""
     k, m, _ = thickness.shape
@@ -604,8 +563,8 @@ def results(lines, put, first_sys: System, cases: System, starts, chosen_th, tab
                          for i, P in enumerate(procs)])
     if freezing.any():
         idx = np.flatnonzero(freezing)
-        cold = _coldest(lines, idx, starts)
-        times = _freeze_time(lines, idx, cold, cases, chosen_th[idx][:, None, :], table, settings,
+        cold = coldest_cases(lines, idx, starts)
+        times = freeze_time(lines, idx, cold, cases, chosen_th[idx][:, None, :], table, settings,
                              pp.NODES)[:, 0]
         fraction = float(settings["freeze_fraction"])
         for j, i in enumerate(idx):
@@ -627,8 +586,8 @@ def results(lines, put, first_sys: System, cases: System, starts, chosen_th, tab
                         and np.isfinite(P.t_limit) for i, P in enumerate(procs)])
     if holding.any():
         idx = np.flatnonzero(holding)
-        cold = _coldest(lines, idx, starts)
-        times = _cool_time(lines, idx, cold, cases, starts, chosen_th[idx][:, None, :], table, chosen_th,
+        cold = coldest_cases(lines, idx, starts)
+        times = cool_time(lines, idx, cold, cases, starts, chosen_th[idx][:, None, :], table, chosen_th,
                            parts, pp.NODES)[:, 0]
         for j, i in enumerate(idx):
             name = lines[i].conditions[cold[j] - starts[i]].name
@@ -642,15 +601,3 @@ def results(lines, put, first_sys: System, cases: System, starts, chosen_th, tab
                  "shell's own heat capacity left out" if np.isfinite(times[j]) else
                  f"the contents never reach {show(procs[i].t_limit, 'temperature', us)} at condition "
                  f"'{name}': the air is at or beyond it", "hold_time")
-
-
-def unmet_words(name: str, value: float, thick: str, names: str, us: bool) -> str:
-    """Why a process target is not met by the thickest sold system (for the error note)."""
-    if name == "temperature drop":
-        return (f"'Max temperature drop' is not met by any sold thickness: the temperature changes by "
-                f"{show(value, 'difference', us)} at {thick}, the thickest of {names}")
-    if name == "freeze protection":
-        return (f"'Freeze protection' is not met by any sold thickness: water freezes in "
-                f"{value / 3600:.1f} h at {thick}, the thickest of {names}; add heat tracing")
-    return (f"'Hold time' is not met by any sold thickness: the contents cool in {value / 3600:.1f} h at "
-            f"{thick}, the thickest of {names}")
