@@ -1,14 +1,15 @@
 """Process limits of lines: temperature drop of flowing lines, steam condensate, time to
 freeze of stagnant water, cool-down of vessel contents.
 
-Three steps, called by :mod:`lagsheet.design.lines` and :mod:`lagsheet.design.select`:
+Three steps, called by :mod:`lagsheet.design.lines`, :mod:`lagsheet.design.targets` and
+:mod:`lagsheet.design.select`:
 
 - :func:`resolve_process` reads a line's process columns (``Flow rate``, ``Fluid``,
   ``Operating pressure``, ``Inside diameter``/``Schedule``, ``Max temperature drop``,
   ``Freeze protection``, ``Contents volume``, ``Hold time``, ``Min temperature``,
   ``Part of``) into a :class:`Process`, with an error naming the cell for every gap;
-- :func:`targets` judges every candidate system against the process targets, so the
-  chosen system is the thinnest that meets them with the surface targets;
+- :func:`closed_drop`, :func:`freeze_time` and :func:`cool_time` measure every candidate
+  system for the process targets (:mod:`lagsheet.design.targets` judges them);
 - :func:`results` computes what is reported for the chosen systems (``Outlet
   temperature``, ``Condensate``, ``Time to freeze``, ``Time to cool``) and its notes.
 
@@ -332,52 +333,41 @@ def freeze_time(lines, idx, case_idx, cases, thickness, table, settings, nodes) 
 
 
 def cool_time(lines, idx, case_idx, cases, starts, thickness, table, chosen_th, parts,
-               nodes) -> np.ndarray:
-    """Time to cool [s] of vessels ``idx`` for every candidate, their parts at ``chosen_th``."""
+              nodes) -> np.ndarray:
+    """Time to cool [s] of vessels ``idx`` for every candidate, their parts at ``chosen_th``
+    (:func:`lagsheet.physics.process.vessel_cooldown`, the shell's heat capacity left out)."""
     k, m, _ = thickness.shape
     sysp, good = _pairs(cases, case_idx, thickness)
     rep = np.repeat(np.asarray(idx), m)
-    factor = _factor(lines, rep)
-    shell = pp.loss_coefficient(sysp, table, scale=factor)
-    owner = [j for j, v in enumerate(rep) for _ in parts.get(int(v), [])]
-    rows = [p for v in rep for p in parts.get(int(v), [])]
-    ua_parts = None
-    if rows:
-        rows_a, owner_a = np.array(rows), np.array(owner)
-        # each part at its chosen system, in the vessel's air (the condition the vessel is judged at)
-        psys = replace(per_line(cases, np.asarray(starts)[rows_a], thickness=np.nan_to_num(chosen_th[rows_a])),
-                       t_air=sysp.t_air[owner_a], t_surroundings=sysp.t_surroundings[owner_a],
-                       wind=sysp.wind[owner_a])
-        pf = _factor(lines, rows)
-        ua_p = pp.loss_coefficient(psys, table, scale=pf)
-
-        def ua_parts(tt):
-            return np.bincount(owner_a, weights=ua_p(np.asarray(tt)[owner_a]), minlength=len(rep))
-
-    def ua(tt):
-        total = shell(tt)
-        return total + ua_parts(tt) if ua_parts is not None else total
-
+    surfaces = [pp.loss_coefficient(sysp, table, scale=_factor(lines, rep))]
+    parts_ua = _parts_coefficient(lines, rep, sysp, cases, starts, table, chosen_th, parts)
+    if parts_ua is not None:
+        surfaces.append(parts_ua)
     procs = [lines[i].process for i in rep]
-    t_op, t_lim = sysp.t_operating, np.array([P.t_limit for P in procs])
-    cap = _capacity(procs, 0.5 * (t_op + t_lim))
-    time = pp.cooling_time(t_op, t_lim, sysp.t_air, cap, ua, nodes)
+    time = pp.vessel_cooldown(sysp.t_operating, np.array([P.t_limit for P in procs]), sysp.t_air, surfaces,
+                              np.array([P.volume for P in procs]), np.array([P.coolprop or "" for P in procs]),
+                              np.array([P.pressure if np.isfinite(P.pressure) else P_ATM for P in procs]),
+                              nodes=nodes, cp=np.array([P.user_cp for P in procs]),
+                              density=np.array([P.user_density for P in procs])).time
     return np.where(good, time, np.nan).reshape(k, m)
 
 
-def _capacity(procs, t_mean) -> np.ndarray:
-    """ρ V c_p [J/K] of the contents at the mean temperature (CoolProp or the Fluids sheet)."""
-    cap = np.full(len(procs), np.nan)
-    names = np.array([P.coolprop or "" for P in procs])
-    pressure = np.array([P.pressure if np.isfinite(P.pressure) else P_ATM for P in procs])
-    cool = names != ""
-    if cool.any():
-        props = fluid_properties(names[cool], t_mean[cool], pressure[cool])
-        cap[cool] = props.density * props.cp * np.array([P.volume for P, c in zip(procs, cool, strict=True) if c])
-    for j, P in enumerate(procs):
-        if not cool[j]:
-            cap[j] = P.user_density * P.user_cp * P.volume
-    return cap
+def _parts_coefficient(lines, rep, sysp: System, cases, starts, table, chosen_th, parts):
+    """UA(θ) [W/K] of the lines linked to each vessel ``rep`` ('Part of'), each at its chosen
+    system in the vessel's air (the condition the vessel is judged at); None when none is."""
+    owner = [j for j, v in enumerate(rep) for _ in parts.get(int(v), [])]
+    rows = [p for v in rep for p in parts.get(int(v), [])]
+    if not rows:
+        return None
+    rows_a, owner_a = np.array(rows), np.array(owner)
+    psys = replace(per_line(cases, np.asarray(starts)[rows_a], thickness=np.nan_to_num(chosen_th[rows_a])),
+                   t_air=sysp.t_air[owner_a], t_surroundings=sysp.t_surroundings[owner_a],
+                   wind=sysp.wind[owner_a])
+    ua_p = pp.loss_coefficient(psys, table, scale=_factor(lines, rows))
+
+    def ua_parts(tt):
+        return np.bincount(owner_a, weights=ua_p(np.asarray(tt)[owner_a]), minlength=len(rep))
+    return ua_parts
 
 
 # --------------------------------------------------------------------------- flowing lines
