@@ -99,10 +99,12 @@ class Process:
         return np.isfinite(self.m_dot) and not self.steam
 
 
-def resolve_process(t, inputs, i: int, L, num, text, err, warn) -> None:
-    """Fill ``L.process`` from the line's process columns; ``err``/``warn`` note problems."""
+def resolve_process(t, inputs, i: int, L, num, text, err, warn) -> bool:
+    """Fill ``L.process`` from the line's process columns; ``err``/``warn`` note problems.
+
+    True when its fluid and its state are known: the inputs of its process targets are
+    then checked by those targets (:meth:`lagsheet.design.targets.Target.check`)."""
     P = L.process
-    us = inputs.us_units
     P.part_of = text("part_of")
     label = text("fluid")
     flow = num("flow_rate")
@@ -116,8 +118,17 @@ def resolve_process(t, inputs, i: int, L, num, text, err, warn) -> None:
         if np.isfinite(flow) or np.isfinite(P.max_drop):
             err("no-fluid", "fluid", "'Flow rate' needs its 'Fluid' (water, steam, air, a CoolProp name "
                 "or a fluid of the Fluids sheet)")
-        return
+        return False
     P.label = label
+    if not _fluid(P, label, inputs, err) or not np.isfinite(L.t_op):
+        return False
+    if not _fluid_state(L, inputs.us_units, err, warn):
+        return False
+    return _mass_flow(t, i, P, flow, label, err)
+
+
+def _fluid(P: Process, label: str, inputs, err) -> bool:
+    """Which fluid ``label`` is: steam, a Fluids-sheet fluid or a CoolProp name."""
     user = inputs.fluids.get(fold(label))
     if fold(label) in STEAM_WORDS:
         P.steam, P.coolprop = True, "Water"
@@ -130,70 +141,96 @@ def resolve_process(t, inputs, i: int, L, num, text, err, warn) -> None:
             err("unknown-fluid", "fluid", f"fluid {label!r} is not known: use water, steam, air, another "
                 "CoolProp fluid name (e.g. Nitrogen, R134a, INCOMP::MEG[0.3]) or define it on a 'Fluids' "
                 "sheet (Name, Specific heat [kJ/(kg·K)], Density [kg/m³])" + (f"; defined: {known}" if known else ""))
-            return
-    if not np.isfinite(L.t_op):
-        return
+            return False
+    return True
+
+
+def _fluid_state(L, us: bool, err, warn) -> bool:
+    """The fluid at the operating state: saturation of steam, c_p and ρ of the others."""
+    P = L.process
     p = P.pressure if np.isfinite(P.pressure) else P_ATM
     if P.steam:
-        P.t_sat, P.h_fg = _saturation_p(P.pressure) if np.isfinite(P.pressure) else _saturation_t(L.t_op)
-        if not np.isfinite(P.h_fg):
-            err("steam-state", "operating_pressure" if np.isfinite(P.pressure) else "operating_temperature",
-                "saturated steam needs a temperature between 0.01 °C and 373.9 °C (or a pressure between "
-                "0.006 bar and 220 bar absolute); check the value and its unit")
-            return
-        if np.isfinite(P.pressure) and L.t_op < P.t_sat - STEAM_TOLERANCE_K:
-            gauge = _saturation_p(P.pressure + P_ATM)[0]
-            warn("steam-state", "operating_pressure",
-                 f"steam at {show(P.pressure, 'pressure', us)} (absolute) condenses at "
-                 f"{show(P.t_sat, 'temperature', us)}, above the operating temperature "
-                 f"{show(L.t_op, 'temperature', us)}; if the pressure is gauge, add the atmosphere "
-                 f"(saturation then {show(gauge, 'temperature', us)}). Condensate uses the pressure")
-        elif np.isfinite(P.pressure) and L.t_op > P.t_sat + STEAM_TOLERANCE_K:
-            warn("superheated", "operating_temperature",
-                 f"steam at {show(L.t_op, 'temperature', us)} is superheated (saturation "
-                 f"{show(P.t_sat, 'temperature', us)}): the heat lost first cools the steam, so the "
-                 "condensate shown is an upper bound")
-        if np.isfinite(P.max_drop):
-            err("steam-drop", "max_temperature_drop", "saturated steam stays at its saturation temperature "
-                "while it condenses: 'Max temperature drop' does not apply; limit 'Max heat loss' instead")
-    elif P.coolprop is not None:
+        return _steam_state(L, us, err, warn)
+    if P.coolprop is not None:
         if P.coolprop == "Water" and not np.isfinite(P.pressure) and L.t_op > 373.15:
             err("water-boils", "operating_pressure", f"water at {show(L.t_op, 'temperature', us)} boils at "
                 "1 atm: give its 'Operating pressure' (absolute), or 'Fluid' steam for a steam line")
-            return
+            return False
         P.cp, P.density = _state(P.coolprop, L.t_op, p)
         if not np.isfinite(P.cp):
             err("fluid-state", "fluid", f"CoolProp has no single-phase state of {P.coolprop} at "
                 f"{show(L.t_op, 'temperature', us)} and {show(p, 'pressure', us)}")
-            return
+            return False
     else:
         P.cp, P.density = P.user_cp, P.user_density
-    if np.isfinite(flow) and not P.steam:  # a steam line's condensate comes from its heat loss, not its flow
+    return True
+
+
+def _steam_state(L, us: bool, err, warn) -> bool:
+    """Saturation temperature and latent heat of a steam line, with a warning where the
+    operating temperature and the pressure disagree."""
+    P = L.process
+    P.t_sat, P.h_fg = _saturation_p(P.pressure) if np.isfinite(P.pressure) else _saturation_t(L.t_op)
+    if not np.isfinite(P.h_fg):
+        err("steam-state", "operating_pressure" if np.isfinite(P.pressure) else "operating_temperature",
+            "saturated steam needs a temperature between 0.01 °C and 373.9 °C (or a pressure between "
+            "0.006 bar and 220 bar absolute); check the value and its unit")
+        return False
+    if np.isfinite(P.pressure) and L.t_op < P.t_sat - STEAM_TOLERANCE_K:
+        gauge = _saturation_p(P.pressure + P_ATM)[0]
+        warn("steam-state", "operating_pressure",
+             f"steam at {show(P.pressure, 'pressure', us)} (absolute) condenses at "
+             f"{show(P.t_sat, 'temperature', us)}, above the operating temperature "
+             f"{show(L.t_op, 'temperature', us)}; if the pressure is gauge, add the atmosphere "
+             f"(saturation then {show(gauge, 'temperature', us)}). Condensate uses the pressure")
+    elif np.isfinite(P.pressure) and L.t_op > P.t_sat + STEAM_TOLERANCE_K:
+        warn("superheated", "operating_temperature",
+             f"steam at {show(L.t_op, 'temperature', us)} is superheated (saturation "
+             f"{show(P.t_sat, 'temperature', us)}): the heat lost first cools the steam, so the "
+             "condensate shown is an upper bound")
+    return True
+
+
+def _mass_flow(t, i: int, P: Process, flow: float, label: str, err) -> bool:
+    """``P.m_dot`` from 'Flow rate' (a volume flow × the density). A steam line's condensate
+    comes from its heat loss, not its flow."""
+    if np.isfinite(flow) and not P.steam:
         if t.columns["flow_rate"].si_of(i) == "m**3/s":  # a volume flow
             rho = P.density
             if not np.isfinite(rho):
                 err("no-density", "flow_rate", f"a volume flow needs the density of {label!r}: give "
                     "'Density' on the Fluids sheet, or the flow in kg/s")
-                return
+                return False
             flow = flow * rho
         P.m_dot = flow
-    elif np.isfinite(P.max_drop):
+    return True
+
+
+def drop_inputs(L, err) -> None:
+    """'Max temperature drop' needs a flowing fluid that is not condensing steam."""
+    P = L.process
+    if P.steam and np.isfinite(P.max_drop):
+        err("steam-drop", "max_temperature_drop", "saturated steam stays at its saturation temperature "
+            "while it condenses: 'Max temperature drop' does not apply; limit 'Max heat loss' instead")
+    if not np.isfinite(P.m_dot) and np.isfinite(P.max_drop):
         err("no-flow", "flow_rate", "'Max temperature drop' needs the line's 'Flow rate'")
-    if np.isfinite(P.freeze):
-        _freeze_inputs(t, i, L, num, text, err, warn)
-    if np.isfinite(P.hold):
-        P.volume, P.t_limit = num("contents_volume"), num("min_temperature")
-        if not np.isfinite(P.volume):
-            err("no-volume", "contents_volume", "'Hold time' needs the 'Contents volume' of the vessel")
-        if not np.isfinite(P.t_limit):
-            err("no-limit", "min_temperature", "'Hold time' needs the 'Min temperature' the contents may "
-                "cool to (for cold contents: the warmest they may reach)")
-        elif abs(P.t_limit - L.t_op) < 1e-9:
-            err("no-limit", "min_temperature", "'Min temperature' equals the operating temperature: "
-                "there is no time to hold")
-        if np.isfinite(P.user_cp) and not np.isfinite(P.user_density):
-            err("no-density", "fluid", f"'Contents volume' needs the density of {label!r}: give "
-                "'Density' on the Fluids sheet")
+
+
+def hold_inputs(L, num, err) -> None:
+    """'Hold time' needs the contents volume, the limit temperature and the fluid's density."""
+    P = L.process
+    P.volume, P.t_limit = num("contents_volume"), num("min_temperature")
+    if not np.isfinite(P.volume):
+        err("no-volume", "contents_volume", "'Hold time' needs the 'Contents volume' of the vessel")
+    if not np.isfinite(P.t_limit):
+        err("no-limit", "min_temperature", "'Hold time' needs the 'Min temperature' the contents may "
+            "cool to (for cold contents: the warmest they may reach)")
+    elif abs(P.t_limit - L.t_op) < 1e-9:
+        err("no-limit", "min_temperature", "'Min temperature' equals the operating temperature: "
+            "there is no time to hold")
+    if np.isfinite(P.user_cp) and not np.isfinite(P.user_density):
+        err("no-density", "fluid", f"'Contents volume' needs the density of {P.label!r}: give "
+            "'Density' on the Fluids sheet")
 
 
 # CoolProp once per distinct state of a schedule, not once per line
@@ -215,7 +252,8 @@ def _saturation_t(t: float) -> tuple[float, float]:
     return float(sat.t), float(sat.h_fg)
 
 
-def _freeze_inputs(t, i, L, num, text, err, warn) -> None:
+def freeze_inputs(t, i, L, num, text, err, warn) -> None:
+    """'Freeze protection' needs a water pipe and its bore ('Inside diameter', or 'Size' and 'Schedule')."""
     P = L.process
     if L.geometry != CYLINDER or L.word == "vessel":
         err("freeze-shape", "freeze_protection", "'Freeze protection' is for pipes and risers (water "

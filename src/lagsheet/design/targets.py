@@ -16,17 +16,19 @@ system never does worse, so a search over sorted thicknesses may bisect.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from ..physics.balance import System
-from ..physics.layers import MaterialTable
+from ..physics.layers import CYLINDER, MaterialTable
 from ..workbook.display import show
 from ..workbook.inputs import Condition
 from ..workbook.tables import Table
 from . import process
-from .lines import Line
+
+if TYPE_CHECKING:  # lines resolves each line's inputs and asks every target to check its own
+    from .lines import Cells, Line
 
 
 @dataclass
@@ -97,6 +99,10 @@ class Target:
     monotone = True  # a thicker system never does worse
     late = False  # judged once every line is chosen (its measure needs other lines' systems)
     coldest = False  # judged at the coldest named condition, not the worst of every one
+    needs_fluid = False  # its inputs are checked once the line's fluid and its state are known
+
+    def check(self, L: Line, cells: Cells) -> None:
+        """Note what is wrong with the inputs of line ``L`` this target reads (``check`` runs it)."""
 
     def given(self, ctx: Context) -> np.ndarray | None:
         """Per line: does it give this target? None when no line can (its column is absent)."""
@@ -176,6 +182,14 @@ class SurfaceTemperature(Target):
 
 class HeatLoss(Target):
     name, order, columns = "heat loss", 2, ("max_heat_loss",)
+
+    def check(self, L, cells):
+        q = cells.t.columns.get("max_heat_loss")
+        if (q is not None and np.isfinite(cells.num("max_heat_loss")) and q.si_of(cells.i) != "W/m**2"
+                and L.geometry != CYLINDER):
+            cells.err("heat-loss-unit", "max_heat_loss",
+                      "'Max heat loss' is per length (W/m) but this line is flat or a sphere; type its limit "
+                      "with its unit, e.g. '60 W/m²'")
 
     @staticmethod
     def per_area(ctx) -> np.ndarray:
@@ -288,6 +302,7 @@ class Interface(Target):
 class _ProcessTarget(Target):
     """A process target: its value per line and candidate against the line's requirement."""
 
+    needs_fluid = True
     need = ""  # the Process attribute it is held against
     sign = 1  # +1: the value must reach the need (times); -1: stay within it (a drop)
     kind = "hours"
@@ -306,6 +321,9 @@ class TemperatureDrop(_ProcessTarget):
 
     name, order, columns = "temperature drop", 3, ("max_temperature_drop", "flow_rate", "fluid")
     need, sign, kind = "max_drop", -1, "difference"
+
+    def check(self, L, cells):
+        process.drop_inputs(L, cells.err)
 
     def given(self, ctx):
         g = np.array([ctx.ok[i] and L.process.flowing and np.isfinite(L.process.max_drop)
@@ -332,6 +350,10 @@ class FreezeProtection(_ProcessTarget):
 
     name, order, columns = "freeze protection", 4, ("freeze_protection", "inside_diameter", "schedule")
     need, coldest = "freeze", True
+
+    def check(self, L, cells):
+        if np.isfinite(L.process.freeze):
+            process.freeze_inputs(cells.t, cells.i, L, cells.num, cells.text, cells.err, cells.warn)
 
     def given(self, ctx):
         g = np.array([ctx.ok[i] and np.isfinite(L.process.freeze) and np.isfinite(L.process.bore)
@@ -366,6 +388,10 @@ class HoldTime(FreezeProtection):
     name, order, columns = "hold time", 5, ("hold_time", "contents_volume", "min_temperature", "part_of")
     need, late = "hold", True
 
+    def check(self, L, cells):
+        if np.isfinite(L.process.hold):
+            process.hold_inputs(L, cells.num, cells.err)
+
     def given(self, ctx):
         g = np.array([ctx.ok[i] and np.isfinite(L.process.hold) and np.isfinite(L.process.volume)
                       and np.isfinite(L.process.t_limit) for i, L in enumerate(ctx.lines)])
@@ -395,6 +421,11 @@ TARGETS: tuple[Target, ...] = (SurfaceTemperature(), HeatLoss(), Minimum(), Cond
                                TemperatureDrop(), FreezeProtection(), HoldTime())
 BY_ORDER: tuple[Target, ...] = tuple(sorted(TARGETS, key=lambda x: x.order))
 GOVERNING_ORDER = tuple(x.name for x in BY_ORDER)
+
+
+# Inputs are checked in this order: the process targets once the fluid is known, then the others.
+CHECK_ORDER: tuple[Target, ...] = tuple(x for x in TARGETS if x.needs_fluid) + tuple(
+    x for x in TARGETS if not x.needs_fluid)
 
 
 def judge(ctx: Context) -> dict[str, Judgement]:
