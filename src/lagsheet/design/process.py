@@ -471,45 +471,54 @@ def flowing_lines(lines, put, first_sys: System, bare_sys: System, cases: System
     bare_loss[idx] = m_dot * (cp.enthalpy(t_in) - cp.enthalpy(bare_out))
     v["outlet_temperature"][idx] = out
 
-    def note(i, level, code, message, key="tag"):
-        res.notes[i].append(Note(level, code, message, t.sheet, t.cell(i, key)))
-
     reach = _reach(lines, idx, cases, starts, chosen_th, table, m_dot, cp)
     for j, i in enumerate(idx):
-        P, L = procs[i], lines[i]
-        freeze, approach = reach[j]
-        if freeze is not None:
-            x, name = freeze
-            note(i, "error", "fluid-freezes",
-                 f"the water reaches {show(pp.T_ICE, 'temperature', us)} {show(x, 'length', us)} from the inlet of this "
-                 f"{show(L.length, 'length', us)} line at condition '{name}' and would freeze before the "
-                 "outlet: give more flow, more insulation, or heat tracing", "flow_rate")
-            if out[j] < pp.T_ICE:  # at the first condition: no liquid outlet, no heat to report
-                v["outlet_temperature"][i] = np.nan
-                loss[i] = bare_loss[i] = np.nan
-                continue
-        elif approach is not None:
-            x, name = approach
-            note(i, "warning", "fluid-at-air",
-                 f"the {P.label} comes within {show(APPROACH_K, 'difference', us)} of the air temperature "
-                 f"{show(x, 'length', us)} from the inlet of this {show(L.length, 'length', us)} line at "
-                 f"condition '{name}': beyond that the line delivers air temperature; give more flow or "
-                 "more insulation if the outlet temperature matters", "flow_rate")
-        gives = "gives up" if given_up[j] >= 0 else "takes up"
-        note(i, "info", "flow-heat",
-             f"heat loss = the heat the {P.label} {gives} between inlet and outlet, ṁ ∫c_p dT along the "
-             f"marched profile: {show(abs(given_up[j]), 'power', us)} (the inlet rate × length would give "
-             f"{show(abs(inlet_rate[j]), 'power', us)}); heat loss per length, heat flux and surface "
-             "temperature are at the inlet", "flow_rate")
-        limit = P.max_drop
-        change = abs(L.t_op - out[j])
-        if np.isfinite(limit) and change > limit + 1e-9:
-            note(i, "warning", "temperature-drop",
-                 f"marched along the line with the heat-loss coefficient re-evaluated, the temperature "
-                 f"changes by {show(change, 'difference', us)}, more than 'Max temperature drop' "
-                 f"{show(limit, 'difference', us)} (the thickness was judged with the coefficient at "
-                 "the inlet); choose the next thickness up", "max_temperature_drop")
+        if not _flow_notes(lines[i], i, reach[j], out[j], given_up[j], inlet_rate[j], res, t, us):
+            v["outlet_temperature"][i] = np.nan  # frozen at the first condition: no liquid outlet, no heat
+            loss[i] = bare_loss[i] = np.nan
     return loss, bare_loss
+
+
+def _flow_notes(L, i: int, reach, out: float, given_up: float, inlet_rate: float, res, t, us: bool) -> bool:
+    """The notes of flowing line ``i``: water that freezes before the outlet, a fluid that
+    reaches the air temperature, the heat it gives up, a marched drop past the limit.
+    False when the water freezes at the first named condition (no outlet to report)."""
+    P = L.process
+
+    def note(level, code, message, key="tag"):
+        res.notes[i].append(Note(level, code, message, t.sheet, t.cell(i, key)))
+
+    freeze, approach = reach
+    if freeze is not None:
+        x, name = freeze
+        note("error", "fluid-freezes",
+             f"the water reaches {show(pp.T_ICE, 'temperature', us)} {show(x, 'length', us)} from the inlet of this "
+             f"{show(L.length, 'length', us)} line at condition '{name}' and would freeze before the "
+             "outlet: give more flow, more insulation, or heat tracing", "flow_rate")
+        if out < pp.T_ICE:  # at the first condition: no liquid outlet, no heat to report
+            return False
+    elif approach is not None:
+        x, name = approach
+        note("warning", "fluid-at-air",
+             f"the {P.label} comes within {show(APPROACH_K, 'difference', us)} of the air temperature "
+             f"{show(x, 'length', us)} from the inlet of this {show(L.length, 'length', us)} line at "
+             f"condition '{name}': beyond that the line delivers air temperature; give more flow or "
+             "more insulation if the outlet temperature matters", "flow_rate")
+    gives = "gives up" if given_up >= 0 else "takes up"
+    note("info", "flow-heat",
+         f"heat loss = the heat the {P.label} {gives} between inlet and outlet, ṁ ∫c_p dT along the "
+         f"marched profile: {show(abs(given_up), 'power', us)} (the inlet rate × length would give "
+         f"{show(abs(inlet_rate), 'power', us)}); heat loss per length, heat flux and surface "
+         "temperature are at the inlet", "flow_rate")
+    limit = P.max_drop
+    change = abs(L.t_op - out)
+    if np.isfinite(limit) and change > limit + 1e-9:
+        note("warning", "temperature-drop",
+             f"marched along the line with the heat-loss coefficient re-evaluated, the temperature "
+             f"changes by {show(change, 'difference', us)}, more than 'Max temperature drop' "
+             f"{show(limit, 'difference', us)} (the thickness was judged with the coefficient at "
+             "the inlet); choose the next thickness up", "max_temperature_drop")
+    return True
 
 
 def flowing_candidates(lines, use, cases: System, starts, cand, table, whole) -> np.ndarray:
