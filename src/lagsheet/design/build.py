@@ -6,6 +6,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 from functools import lru_cache
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -13,7 +14,9 @@ from ..physics.balance import System
 from ..physics.layers import CYLINDER, SPHERE
 from ..workbook import library
 from ..workbook.display import show
-from .lines import Line
+
+if TYPE_CHECKING:
+    from .lines import Line
 
 
 @dataclass(frozen=True)

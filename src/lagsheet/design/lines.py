@@ -168,12 +168,11 @@ def resolve(t: Table, inputs: Inputs, i: int, notes: list[Note], cols: Columns |
     def warn(code: str, key: str, message: str):
         notes.append(Note("warning", code, message, sheet, t.cell(i, key)))
 
-    cells = Cells(t, i, num, text, err, warn)
+    cells = Cells(t, i, num, text, err, warn, st)
     fluid_known = resolve_process(t, inputs, i, L, num, text, err, warn)
     for target in CHECK_ORDER:  # each target checks the inputs it reads
         if fluid_known or not target.needs_fluid:
             target.check(L, cells)
-    _costs(L, inputs, err)
     return L
 
 
@@ -222,20 +221,7 @@ class Cells:
     text: Callable
     err: Callable
     warn: Callable
-
-
-def _costs(L: Line, inputs: Inputs, err) -> None:
-    """'Economic' without the costs it needs."""
-    if L.economic and L.materials:
-        st = inputs.settings
-        missing = [f"'Cost per volume' of {m.name} (Materials sheet)" for m in L.materials
-                   if not np.isfinite(m.cost_per_volume)]
-        missing += [f"the setting {name!r}" for name, key in (("Jacket cost per area", "jacket_cost_per_area"),
-                                                           ("Labour per layer", "labour_per_layer"))
-                    if not np.isfinite(float(st[key]))]
-        if missing:
-            err("economic-costs", "economic", "'Economic' needs " + ", ".join(missing) + "; give them, or "
-                "leave 'Economic' blank")
+    settings: dict
 
 
 def resolve_lines(inputs: Inputs) -> tuple[list[Line], list[list[Note]]]:

@@ -17,7 +17,7 @@ import numpy as np
 
 from ..errors import Note
 from ..physics.balance import System, solve
-from ..physics.candidates import evaluate, heat_rate, per_line, whole_factor
+from ..physics.candidates import evaluate, heat_rate, per_line
 from ..physics.layers import CYLINDER, SPHERE, MaterialTable
 from ..physics.properties import dew_point
 from ..physics.surface import linearised_h
@@ -26,10 +26,10 @@ from ..workbook.inputs import Condition, Inputs
 from ..workbook.results import NUMBERS, WORDS
 from . import economics, notes, targets
 from . import process as limits
-from .build import Quantities, installed_cost, quantities
+from .build import Quantities, quantities
 from .lines import Line, resolve_lines
 from .notes import THINNEST
-from .targets import BY_ORDER, Context, Judgement
+from .targets import BY_ORDER, ECONOMIC, Context, Judgement
 
 
 @dataclass
@@ -100,7 +100,7 @@ def _specify(inputs: Inputs) -> Results:
     res.table = _material_table(lines)
     ctx, base = _context(inputs, lines, res.table)
     judged = targets.judge(ctx)
-    econ, annualised, cost, hours = _economics(ctx, base, res)
+    econ, annualised, cost, hours = _economics(ctx, base)
     ch = _select(ctx, judged, econ, annualised, res)
     rep = _solve_chosen(ctx, base, ch, res, hours)
     _values(ctx, ch, rep, res, cost[np.arange(n), ch.pick])
@@ -197,24 +197,15 @@ def _context(inputs: Inputs, lines: list[Line], table: MaterialTable) -> tuple[C
     return ctx, base
 
 
-def _economics(ctx: Context, base: System, res: Results):
-    """Installed and annualised cost of every candidate at the first condition; an
-    ``Economic`` line none of whose candidates can be priced is not computed.
-    Returns (economic lines, annualised, installed cost, hours per line)."""
-    lines, ok, st = ctx.lines, ctx.ok, ctx.settings
-    cost = installed_cost(lines, ctx.cand, base, st)
-    whole = _whole(base.geometry, ctx.c.heat_rate[ctx.starts], np.array([L.length for L in lines]),
-                   np.array([L.area for L in lines]))
-    whole = limits.flowing_candidates(lines, np.array([L.economic for L in lines]) & ok, ctx.cases, ctx.starts,
-                                      ctx.cand, ctx.table, whole)
-    hours = np.array([L.conditions[0].hours if ok[i] else 0.0 for i, L in enumerate(lines)])
-    energy_cost = _energy_cost(whole, hours[:, None], st)
-    crf = float(economics.capital_recovery_factor(float(st["discount_rate"]), float(st["service_life"])))
-    annualised = crf * cost + energy_cost
-    econ = np.array([L.economic for L in lines]) & ok
+def _economics(ctx: Context, base: System):
+    """The annualised cost of every candidate of the ``Economic`` lines; one none of whose
+    candidates can be priced is not computed. Returns (economic lines, annualised,
+    installed cost, hours per line)."""
+    annualised, cost, hours = ECONOMIC.annualised(ctx, base)
+    econ = ECONOMIC.given(ctx)
     for i in np.flatnonzero(econ & ~np.isfinite(annualised).any(axis=1)):
-        ok[i] = lines[i].ok = False
-    econ &= ok
+        ctx.ok[i] = ctx.lines[i].ok = False
+    econ &= ctx.ok
     return econ, annualised, cost, hours
 
 
@@ -248,8 +239,7 @@ def _choose(ctx: Context, judged: dict[str, Judgement], ch: Choice, annualised) 
             feasible &= j.meets | ~j.given[:, None]
     first_feasible = _first(feasible)
     econ = ch.econ
-    econ_idx = np.where(econ, np.argmin(np.where(feasible & np.isfinite(annualised), annualised, np.inf),
-                                        axis=1), -1)
+    econ_idx = np.where(econ, ECONOMIC.choose(feasible, annualised), -1)
     chosen = np.where(econ, econ_idx, first_feasible)
     chosen = np.where(ch.none_given, _first(ctx.valid), chosen)
     chosen = np.where(ch.fixed & ok, 0, chosen)
@@ -451,14 +441,4 @@ def _dew_matters(lines, prevent, t_surface, dew, margin) -> np.ndarray:
         return asked | (np.fmin(t_op, t_surface) < dew + margin)
 
 
-def _whole(geometry, rate, lengths, areas):
-    """Whole-line heat flow [W] from the heat rate: × length (cylinders), × area (flats)."""
-    extra = (1,) * (np.ndim(rate) - 1)
-    return rate * np.reshape(whole_factor(np.asarray(geometry), np.asarray(lengths), np.asarray(areas)),
-                             (-1,) + extra)
-
-
-def _energy_cost(whole, hours, st):
-    energy = economics.annual_energy_kwh(whole, hours)
-    bought = economics.energy_bought_kwh(energy, float(st["heating_efficiency"]), float(st["cooling_cop"]))
-    return bought * float(st["energy_price"])
+_whole = economics.whole_heat_flow  # the name ``audit`` imports

@@ -10,7 +10,8 @@ its words when no sold system meets it (:meth:`Target.unmet`).
 The selection (:mod:`lagsheet.design.select`) loops over :data:`TARGETS`; adding a target
 is one class here plus its place in that list. ``order`` breaks ties when several targets
 want the same thickness (the lowest names the governing one); ``monotone`` says a thicker
-system never does worse, so a search over sorted thicknesses may bisect.
+system of one material never does worse, so a search over its sorted thicknesses may
+bisect (two materials' candidates run by total thickness, not by either layer: no bisection).
 """
 
 from __future__ import annotations
@@ -25,7 +26,8 @@ from ..physics.layers import CYLINDER, MaterialTable
 from ..workbook.display import show
 from ..workbook.inputs import Condition
 from ..workbook.tables import Table
-from . import process
+from . import economics, process
+from .build import installed_cost
 
 if TYPE_CHECKING:  # lines resolves each line's inputs and asks every target to check its own
     from .lines import Cells, Line
@@ -96,7 +98,7 @@ class Target:
     name = ""  # its governing word
     order = 0  # ties: the lowest order governs
     columns: tuple[str, ...] = ()  # the Lines columns it reads
-    monotone = True  # a thicker system never does worse
+    monotone = True  # a thicker system of one material never does worse (a search may bisect)
     late = False  # judged once every line is chosen (its measure needs other lines' systems)
     coldest = False  # judged at the coldest named condition, not the worst of every one
     needs_fluid = False  # its inputs are checked once the line's fluid and its state are known
@@ -182,6 +184,7 @@ class SurfaceTemperature(Target):
 
 class HeatLoss(Target):
     name, order, columns = "heat loss", 2, ("max_heat_loss",)
+    monotone = False  # below the critical radius a thicker system loses more (the 'more-than-bare' note)
 
     def check(self, L, cells):
         q = cells.t.columns.get("max_heat_loss")
@@ -273,6 +276,7 @@ class Interface(Target):
     """The face between two materials stays within the outer material's service limit."""
 
     name, order, columns = "interface", 6, ("outer_insulation",)
+    monotone = False  # it follows the inner layer, not the total the candidates run by
 
     @staticmethod
     def limit(ctx) -> np.ndarray:
@@ -303,6 +307,7 @@ class _ProcessTarget(Target):
     """A process target: its value per line and candidate against the line's requirement."""
 
     needs_fluid = True
+    monotone = False  # each follows the heat loss, which is not monotone below the critical radius
     need = ""  # the Process attribute it is held against
     sign = 1  # +1: the value must reach the need (times); -1: stay within it (a drop)
     kind = "hours"
@@ -416,6 +421,52 @@ class HoldTime(FreezeProtection):
                 f"at {thick}, the thickest of {names}"), ctx.starts[i]
 
 
+class Economic:
+    """Not a limit but a choice: an ``Economic`` line takes, among the systems that meet
+    every target, the one with the lowest annualised cost: capital recovery factor ×
+    installed cost + the energy bought in a year at the first named condition (a flowing
+    line: the heat its fluid gives up along the line)."""
+
+    name, columns = "economic", ("economic",)
+    needs_fluid = False
+
+    def check(self, L, cells):
+        """'Economic' needs the cost per volume of its materials, the jacket and labour costs."""
+        if not (L.economic and L.materials):
+            return
+        st = cells.settings
+        missing = [f"'Cost per volume' of {m.name} (Materials sheet)" for m in L.materials
+                   if not np.isfinite(m.cost_per_volume)]
+        missing += [f"the setting {name!r}" for name, key in (("Jacket cost per area", "jacket_cost_per_area"),
+                                                           ("Labour per layer", "labour_per_layer"))
+                    if not np.isfinite(float(st[key]))]
+        if missing:
+            cells.err("economic-costs", "economic", "'Economic' needs " + ", ".join(missing) + "; give them, or "
+                      "leave 'Economic' blank")
+
+    def given(self, ctx: Context) -> np.ndarray:
+        return np.array([L.economic for L in ctx.lines]) & ctx.ok
+
+    def annualised(self, ctx: Context, base: System) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """(annualised cost, installed cost) of every candidate (lines × candidates) and the
+        operating hours of every line at its first named condition."""
+        lines, st = ctx.lines, ctx.settings
+        cost = installed_cost(lines, ctx.cand, base, st)
+        whole = economics.whole_heat_flow(base.geometry, ctx.c.heat_rate[ctx.starts],
+                                          np.array([L.length for L in lines]), np.array([L.area for L in lines]))
+        whole = process.flowing_candidates(lines, self.given(ctx), ctx.cases, ctx.starts, ctx.cand, ctx.table,
+                                           whole)
+        hours = np.array([L.conditions[0].hours if ctx.ok[i] else 0.0 for i, L in enumerate(lines)])
+        energy_cost = economics.energy_cost(whole, hours[:, None], st)
+        crf = float(economics.capital_recovery_factor(float(st["discount_rate"]), float(st["service_life"])))
+        return crf * cost + energy_cost, cost, hours
+
+    @staticmethod
+    def choose(feasible: np.ndarray, annualised: np.ndarray) -> np.ndarray:
+        """Per line: the feasible candidate of the lowest annualised cost."""
+        return np.argmin(np.where(feasible & np.isfinite(annualised), annualised, np.inf), axis=1)
+
+
 # The registry, in the order targets are judged and listed (``explain``); ties go by ``order``.
 TARGETS: tuple[Target, ...] = (SurfaceTemperature(), HeatLoss(), Minimum(), Condensation(), Interface(),
                                TemperatureDrop(), FreezeProtection(), HoldTime())
@@ -423,9 +474,10 @@ BY_ORDER: tuple[Target, ...] = tuple(sorted(TARGETS, key=lambda x: x.order))
 GOVERNING_ORDER = tuple(x.name for x in BY_ORDER)
 
 
+ECONOMIC = Economic()
 # Inputs are checked in this order: the process targets once the fluid is known, then the others.
-CHECK_ORDER: tuple[Target, ...] = tuple(x for x in TARGETS if x.needs_fluid) + tuple(
-    x for x in TARGETS if not x.needs_fluid)
+CHECK_ORDER: tuple[Target | Economic, ...] = (*(x for x in TARGETS if x.needs_fluid),
+                                              *(x for x in TARGETS if not x.needs_fluid), ECONOMIC)
 
 
 def judge(ctx: Context) -> dict[str, Judgement]:
