@@ -472,6 +472,7 @@ TARGETS: tuple[Target, ...] = (SurfaceTemperature(), HeatLoss(), Minimum(), Cond
                                TemperatureDrop(), FreezeProtection(), HoldTime())
 BY_ORDER: tuple[Target, ...] = tuple(sorted(TARGETS, key=lambda x: x.order))
 GOVERNING_ORDER = tuple(x.name for x in BY_ORDER)
+BY_NAME: dict[str, Target] = {x.name: x for x in TARGETS}
 
 
 ECONOMIC = Economic()
