@@ -11,7 +11,7 @@ from ..physics.layers import FLAT
 from ..physics.surface import CORRELATION_NAMES
 from ..workbook.display import show
 from .build import layers_text
-from .targets import BY_NAME, BY_ORDER, Context, Judgement
+from .targets import BY_NAME, Context, Judgement
 
 THINNEST = "thinnest sold"  # Governing word when the thinnest sold system meets every target
 PERSONNEL_LIMIT_K = 333.15  # 60 °C, the usual personnel-protection limit (common practice)
@@ -41,8 +41,8 @@ def _names(L) -> str:
 def _unmet(ctx: Context, judged, ch, res, i: int) -> None:
     """No sold system meets every target: one error naming each target missed, worst first."""
     last, start = ch.last[i], ctx.starts[i]
-    missed = [x for x in BY_ORDER if x.name in judged and judged[x.name].given[i]
-              and not judged[x.name].meets[i, last]]
+    missed = sorted((j.target for j in judged.values() if j.given[i] and not j.meets[i, last]),
+                    key=lambda x: x.order)
     thick = show(float(np.nansum(ctx.c.thickness[start, last])), "thickness", ctx.us)
     words, worst_j = [], []
     for target in missed:

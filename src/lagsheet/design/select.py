@@ -29,7 +29,7 @@ from . import process as limits
 from .build import Quantities, quantities
 from .lines import Line, resolve_lines
 from .notes import THINNEST
-from .targets import BY_ORDER, ECONOMIC, Context, Judgement
+from .targets import ECONOMIC, Context, Judgement
 
 
 @dataclass
@@ -279,13 +279,12 @@ def _select(ctx: Context, judged: dict[str, Judgement], econ, annualised, res: R
 
 def _governing(ctx: Context, judged: dict[str, Judgement], ch: Choice) -> dict[str, np.ndarray]:
     """The governing word per line: the target whose own thinnest is the chosen (earlier in
-    :data:`~lagsheet.design.targets.GOVERNING_ORDER` on a tie). Returns each target's own thinnest."""
+    :attr:`~lagsheet.design.targets.Target.order` on a tie). Returns each target's own thinnest."""
     ok, chosen, econ, fixed = ctx.ok, ch.chosen, ch.econ, ch.fixed
     own = {name: _first(j.meets & ctx.valid) for name, j in judged.items()}
     gov_name = np.full(ctx.n, None, dtype=object)
-    for target in reversed(BY_ORDER):  # earlier names win ties
-        if target.name in own:
-            gov_name[judged[target.name].given & (own[target.name] == chosen)] = target.name
+    for j in sorted(judged.values(), key=lambda j: j.target.order, reverse=True):  # earlier ones win ties
+        gov_name[j.given & (own[j.target.name] == chosen)] = j.target.name
     if econ.any():
         gov_name[econ & (chosen > ch.first_feasible)] = "economic"
         gov_name[econ & (gov_name == None)] = "economic"  # noqa: E711 (object array)
