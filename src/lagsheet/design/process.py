@@ -48,6 +48,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, replace
 from functools import lru_cache
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -60,6 +61,9 @@ from ..physics.layers import CYLINDER
 from ..physics.properties import P_ATM, coolprop_name, fluid_properties, saturation
 from ..workbook import library
 from ..workbook.display import show
+
+if TYPE_CHECKING:  # the selection's context (targets imports this module)
+    from .targets import Context
 
 STEAM_WORDS = {"steam", "saturated steam", "wet steam", "dry steam"}
 STEEL_DENSITY = 7850.0  # kg/m³, carbon steel (handbook value, from memory)
@@ -356,8 +360,11 @@ def _pairs(cases: System, case_idx, thickness) -> System:
     return per_line(cases, rows, thickness=np.where(good[:, None], th, 0.0)), good
 
 
-def freeze_time(lines, idx, case_idx, cases, thickness, table, settings, nodes) -> np.ndarray:
-    """Time to freeze [s] of lines ``idx`` for every candidate (len(idx) × candidates)."""
+def freeze_time(ctx: Context, idx, thickness, nodes) -> np.ndarray:
+    """Time to freeze [s] of lines ``idx`` for every candidate ``thickness`` (len(idx) ×
+    candidates × slots) at their coldest named condition: (len(idx) × candidates)."""
+    lines, cases, table, settings = ctx.lines, ctx.cases, ctx.table, ctx.settings
+    case_idx = coldest_cases(lines, idx, ctx.starts)
     k, m, _ = thickness.shape
     sysp, good = _pairs(cases, case_idx, thickness)
     rep = np.repeat(np.asarray(idx), m)
@@ -370,10 +377,12 @@ def freeze_time(lines, idx, case_idx, cases, thickness, table, settings, nodes) 
     return np.where(good, ft.total, np.nan).reshape(k, m)
 
 
-def cool_time(lines, idx, case_idx, cases, starts, thickness, table, chosen_th, parts,
-              nodes) -> np.ndarray:
-    """Time to cool [s] of vessels ``idx`` for every candidate, their parts at ``chosen_th``
+def cool_time(ctx: Context, idx, thickness, chosen_th, nodes) -> np.ndarray:
+    """Time to cool [s] of vessels ``idx`` for every candidate at their coldest named
+    condition, their parts (``ctx.parts``) at ``chosen_th``
     (:func:`lagsheet.physics.process.vessel_cooldown`, the shell's heat capacity left out)."""
+    lines, cases, starts, table, parts = ctx.lines, ctx.cases, ctx.starts, ctx.table, ctx.parts
+    case_idx = coldest_cases(lines, idx, starts)
     k, m, _ = thickness.shape
     sysp, good = _pairs(cases, case_idx, thickness)
     rep = np.repeat(np.asarray(idx), m)
@@ -440,14 +449,15 @@ def _specific_heat(lines, idx, cases: System, starts) -> pp.SpecificHeat:
     return pp.SpecificHeat(lo, hi, values)
 
 
-def flowing_lines(lines, put, first_sys: System, bare_sys: System, cases: System, starts, chosen_th,
-                  table, loss, bare_loss, res, t, us: bool) -> tuple[np.ndarray, np.ndarray]:
+def flowing_lines(ctx: Context, put, first_sys: System, bare_sys: System, chosen_th, loss, bare_loss,
+                  res) -> tuple[np.ndarray, np.ndarray]:
     """Heat loss and bare heat loss [W] of every line with a flow: the heat its fluid gives up
     between inlet and outlet, ṁ ∫ c_p dT over the marched profile (insulated and bare, at the
     first named condition), in place of the inlet heat rate × length. Writes ``Outlet
     temperature``; a water line that reaches 0 °C before its outlet at any named condition is
     an error naming the distance, a fluid that comes within :data:`APPROACH_K` of the air is a
     warning. Returns the new (loss, bare_loss)."""
+    lines, cases, starts, table, t, us = ctx.lines, ctx.cases, ctx.starts, ctx.table, ctx.t, ctx.us
     v = res.values
     procs = [L.process for L in lines]
     flowing = np.array([bool(put[i]) and P.flowing and np.isfinite(P.cp) for i, P in enumerate(procs)])
@@ -521,11 +531,12 @@ def _flow_notes(L, i: int, reach, out: float, given_up: float, inlet_rate: float
     return True
 
 
-def flowing_candidates(lines, use, cases: System, starts, cand, table, whole) -> np.ndarray:
+def flowing_candidates(ctx: Context, use, whole) -> np.ndarray:
     """``whole`` (lines × candidates, the heat flow [W] of every candidate at the first named
     condition) with the lines ``use`` that have a flow given the heat their fluid gives up
     along the line with each candidate (marched, as :func:`flowing_lines`): what the
     economic choice prices."""
+    lines, cases, starts, cand, table = ctx.lines, ctx.cases, ctx.starts, ctx.cand, ctx.table
     procs = [L.process for L in lines]
     sel = np.flatnonzero([bool(use[i]) and P.flowing and np.isfinite(P.cp) for i, P in enumerate(procs)])
     if not sel.size:
@@ -582,9 +593,10 @@ def _reach(lines, idx, cases: System, starts, chosen_th, table, m_dot, cp) -> li
 # --------------------------------------------------------------------------- results
 
 
-def results(lines, put, first_sys: System, cases: System, starts, chosen_th, table, loss, settings,
-            parts, res, t, us: bool) -> None:
-    """Outlet temperature, condensate, time to freeze and time to cool of the chosen systems."""
+def results(ctx: Context, put, chosen_th, loss, res) -> None:
+    """Condensate, time to freeze and time to cool of the chosen systems ``chosen_th``
+    (lines × slots) of the lines ``put``, whose heat loss [W] is ``loss``."""
+    lines, starts, settings, parts, t, us = ctx.lines, ctx.starts, ctx.settings, ctx.parts, ctx.t, ctx.us
     v = res.values
     procs = [L.process for L in lines]
 
@@ -601,8 +613,7 @@ def results(lines, put, first_sys: System, cases: System, starts, chosen_th, tab
     if freezing.any():
         idx = np.flatnonzero(freezing)
         cold = coldest_cases(lines, idx, starts)
-        times = freeze_time(lines, idx, cold, cases, chosen_th[idx][:, None, :], table, settings,
-                             pp.NODES)[:, 0]
+        times = freeze_time(ctx, idx, chosen_th[idx][:, None, :], pp.NODES)[:, 0]
         fraction = float(settings["freeze_fraction"])
         for j, i in enumerate(idx):
             name = lines[i].conditions[cold[j] - starts[i]].name
@@ -624,8 +635,7 @@ def results(lines, put, first_sys: System, cases: System, starts, chosen_th, tab
     if holding.any():
         idx = np.flatnonzero(holding)
         cold = coldest_cases(lines, idx, starts)
-        times = cool_time(lines, idx, cold, cases, starts, chosen_th[idx][:, None, :], table, chosen_th,
-                           parts, pp.NODES)[:, 0]
+        times = cool_time(ctx, idx, chosen_th[idx][:, None, :], chosen_th, pp.NODES)[:, 0]
         for j, i in enumerate(idx):
             name = lines[i].conditions[cold[j] - starts[i]].name
             if np.isfinite(times[j]):

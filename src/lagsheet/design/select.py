@@ -106,8 +106,7 @@ def _specify(inputs: Inputs) -> Results:
     _values(ctx, ch, rep, res, cost[np.arange(n), ch.pick])
     for i in np.flatnonzero(rep.put):
         notes.line_notes(ctx, judged, ch, rep, res, i)
-    limits.results(lines, rep.put, rep.first_sys, ctx.cases, ctx.starts, rep.chosen_th, res.table, rep.loss,
-                   ctx.settings, ctx.parts, res, t, ctx.us)
+    limits.results(ctx, rep.put, rep.chosen_th, rep.loss, res)
     for i in range(n):
         lv = {nt.level for nt in res.notes[i]}
         res.status.append("error" if "error" in lv or not lines[i].ok else
@@ -380,8 +379,7 @@ def _solve_chosen(ctx: Context, base: System, ch: Choice, res: Results, hours) -
     bare_loss = _whole(geometry, heat_rate(geometry, bare.q, bare.r_outer), lengths, areas)
     # a line with a flow loses the heat its fluid gives up along the line, not the inlet rate × length
     put = ctx.ok & (ch.chosen >= 0)
-    loss, bare_loss = limits.flowing_lines(lines, put, first_sys, bare_sys, ctx.cases, ctx.starts,
-                                           chosen_th, table, loss, bare_loss, res, ctx.t, ctx.us)
+    loss, bare_loss = limits.flowing_lines(ctx, put, first_sys, bare_sys, chosen_th, loss, bare_loss, res)
     rep = Solved(put, chosen_th, first_sys, sol, bare, loss, bare_loss, rate)
     rep.r_crit = _critical_radius(ctx, base, rep)
     rep.hours = hours

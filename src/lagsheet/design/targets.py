@@ -368,8 +368,7 @@ class FreezeProtection(_ProcessTarget):
     def measure(self, ctx, given):
         idx = np.flatnonzero(given)
         out = np.full(ctx.total.shape, np.nan)
-        out[idx] = process.freeze_time(ctx.lines, idx, process.coldest_cases(ctx.lines, idx, ctx.starts),
-                                       ctx.cases, ctx.cand[idx], ctx.table, ctx.settings, process.SELECT_NODES)
+        out[idx] = process.freeze_time(ctx, idx, ctx.cand[idx], process.SELECT_NODES)
         return out
 
     def meets(self, ctx, given, measure):
@@ -405,9 +404,7 @@ class HoldTime(FreezeProtection):
     def measure(self, ctx, given):
         idx = np.flatnonzero(given)
         out = np.full(ctx.total.shape, np.nan)
-        out[idx] = process.cool_time(ctx.lines, idx, process.coldest_cases(ctx.lines, idx, ctx.starts), ctx.cases,
-                                     ctx.starts, ctx.cand[idx], ctx.table, ctx.picked, ctx.parts,
-                                     process.SELECT_NODES)
+        out[idx] = process.cool_time(ctx, idx, ctx.cand[idx], ctx.picked, process.SELECT_NODES)
         return out
 
     def meets(self, ctx, given, measure):
@@ -454,8 +451,7 @@ class Economic:
         cost = installed_cost(lines, ctx.cand, base, st)
         whole = economics.whole_heat_flow(base.geometry, ctx.c.heat_rate[ctx.starts],
                                           np.array([L.length for L in lines]), np.array([L.area for L in lines]))
-        whole = process.flowing_candidates(lines, self.given(ctx), ctx.cases, ctx.starts, ctx.cand, ctx.table,
-                                           whole)
+        whole = process.flowing_candidates(ctx, self.given(ctx), whole)
         hours = np.array([L.conditions[0].hours if ctx.ok[i] else 0.0 for i, L in enumerate(lines)])
         energy_cost = economics.energy_cost(whole, hours[:, None], st)
         crf = float(economics.capital_recovery_factor(float(st["discount_rate"]), float(st["service_life"])))
