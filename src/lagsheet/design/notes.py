@@ -11,7 +11,7 @@ from ..physics.layers import FLAT
 from ..physics.surface import CORRELATION_NAMES
 from ..workbook.display import show
 from .build import layers_text
-from .targets import BY_NAME, Context, Judgement
+from .targets import BY_NAME, Context, Judgement, Target
 
 THINNEST = "thinnest sold"  # Governing word when the thinnest sold system meets every target
 PERSONNEL_LIMIT_K = 333.15  # 60 °C, the usual personnel-protection limit (common practice)
@@ -71,8 +71,7 @@ def _target_notes(ctx: Context, judged, ch, res, i: int) -> None:
               "no target on this line: the thinnest sold thickness is shown; give 'Max surface "
               "temperature', 'Max heat loss', 'Prevent condensation', 'Min thickness' or 'Economic'")
     if len(L.conditions) > 1 and gov_cond and governing not in ("fixed", "none", THINNEST):
-        coldest = governing in BY_NAME and BY_NAME[governing].coldest
-        where = "at the coldest named condition, " if coldest else "at every named condition; "
+        where = BY_NAME[governing].judged_at if governing in BY_NAME else Target.judged_at
         _note(ctx, res, i, "info", "governing-condition",
               f"{governing} judged {where}'{gov_cond}' governed. Results "
               f"are given at '{L.conditions[0].name}'", "condition")

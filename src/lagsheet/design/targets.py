@@ -102,6 +102,7 @@ class Target:
     late = False  # judged once every line is chosen (its measure needs other lines' systems)
     coldest = False  # judged at the coldest named condition, not the worst of every one
     needs_fluid = False  # its inputs are checked once the line's fluid and its state are known
+    judged_at = "at every named condition; "  # how the governing-condition note says where it was judged
 
     def check(self, L: Line, cells: Cells) -> None:
         """Note what is wrong with the inputs of line ``L`` this target reads (``check`` runs it)."""
@@ -354,7 +355,7 @@ class FreezeProtection(_ProcessTarget):
     """Time for standing water to freeze, at the coldest named condition."""
 
     name, order, columns = "freeze protection", 4, ("freeze_protection", "inside_diameter", "schedule")
-    need, coldest = "freeze", True
+    need, coldest, judged_at = "freeze", True, "at the coldest named condition, "
 
     def check(self, L, cells):
         if np.isfinite(L.process.freeze):
