@@ -12,6 +12,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..physics.candidates import whole_factor
+
 
 def annual_energy_kwh(heat_w, hours):
     return np.asarray(heat_w, dtype=float) * hours / 1000.0
@@ -34,3 +36,17 @@ def capital_recovery_factor(rate, years):
     with np.errstate(divide="ignore", invalid="ignore"):
         f = rate * (1 + rate) ** years / ((1 + rate) ** years - 1)
     return np.where(rate == 0, 1.0 / years, f)
+
+
+def whole_heat_flow(geometry, rate, lengths, areas):
+    """Whole-line heat flow [W] from the heat rate: × length (cylinders), × area (flats)."""
+    extra = (1,) * (np.ndim(rate) - 1)
+    return rate * np.reshape(whole_factor(np.asarray(geometry), np.asarray(lengths), np.asarray(areas)),
+                             (-1,) + extra)
+
+
+def energy_cost(whole, hours, st):
+    """Cost of the energy bought in a year [currency] for heat flows ``whole`` [W] over ``hours``."""
+    energy = annual_energy_kwh(whole, hours)
+    bought = energy_bought_kwh(energy, float(st["heating_efficiency"]), float(st["cooling_cop"]))
+    return bought * float(st["energy_price"])

@@ -10,7 +10,7 @@ from __future__ import annotations
 import itertools
 import math
 import re
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from functools import lru_cache
 
@@ -27,6 +27,7 @@ from ..workbook.inputs import Condition, Inputs
 from ..workbook.tables import Table
 from ..workbook.words import suggest
 from .process import Process, resolve_process
+from .targets import CHECK_ORDER
 
 # shape word -> (convection code, conduction geometry)
 SHAPE_CODES = {
@@ -158,16 +159,36 @@ def resolve(t: Table, inputs: Inputs, i: int, notes: list[Note], cols: Columns |
     _conditions(L, inputs, text("condition") or "indoor", err)
     fixed = num("fixed_thickness")
     _materials(L, inputs, text("insulation"), text("outer_insulation"), fixed, err, us)
-    fname = text("finish") or "aluminium"
+    eps = _finish(L, inputs, text("finish") or "aluminium", num("surface_emissivity"), err)
+    economic = cols.get("economic")
+    L.economic = economic is not None and economic[i] is True
+    _candidates(L, fixed, eps, st, us, err)
+
+    def warn(code: str, key: str, message: str):
+        notes.append(Note("warning", code, message, sheet, t.cell(i, key)))
+
+    cells = Cells(t, i, num, text, err, warn, st)
+    fluid_known = resolve_process(t, inputs, i, L, num, text, err, warn)
+    for target in CHECK_ORDER:  # each target checks the inputs it reads
+        if fluid_known or not target.needs_fluid:
+            target.check(L, cells)
+    return L
+
+
+def _finish(L: Line, inputs: Inputs, fname: str, eps: float, err) -> float:
+    """The surface's emissivity: 'Surface emissivity', else its finish's; returns the given one."""
     fin = library.lookup(inputs.finishes, fname)
     if fin is None:
         err("unknown-finish", "finish", f"finish {fname!r} is not known; use one of: "
             f"{', '.join(f.name for f in inputs.finishes.values())}")
-    eps = num("surface_emissivity")
     L.emissivity = eps if np.isfinite(eps) else (fin.emissivity if fin else np.nan)
-    L.bare_emissivity = float(st["bare_emissivity"])
-    economic = cols.get("economic")
-    L.economic = economic is not None and economic[i] is True
+    L.bare_emissivity = float(inputs.settings["bare_emissivity"])
+    return eps
+
+
+def _candidates(L: Line, fixed: float, eps: float, st: dict, us: bool, err) -> None:
+    """The systems to choose from: the 'Fixed thickness' alone (0: bare), every sold
+    thickness of one material, or inner × outer thicknesses of two."""
     if np.isfinite(fixed):
         L.fixed = True
         if fixed == 0:
@@ -187,33 +208,19 @@ def resolve(t: Table, inputs: Inputs, i: int, notes: list[Note], cols: Columns |
         L.candidates = _pairs(inner, outer)
     L.series = [layer_series(m, st, us) for m in L.materials]
 
-    def warn(code: str, key: str, message: str):
-        notes.append(Note("warning", code, message, sheet, t.cell(i, key)))
 
-    resolve_process(t, inputs, i, L, num, text, err, warn)
-    _limit_and_costs(L, t, i, inputs, num, err)
-    return L
+@dataclass(frozen=True)
+class Cells:
+    """Line ``i`` of ``t`` as a target's check reads it: ``num``/``text`` of a column,
+    ``err``/``warn`` noting a problem on a cell."""
 
-
-def _limit_and_costs(L: Line, t: Table, i: int, inputs: Inputs, num, err) -> None:
-    """Input errors that need the line's shape or materials: a per-length heat-loss limit on a
-    flat line or a sphere, and 'Economic' without the costs it needs."""
-    q = t.columns.get("max_heat_loss")
-    if (q is not None and np.isfinite(num("max_heat_loss")) and q.si_of(i) != "W/m**2"
-            and L.geometry != CYLINDER):
-        err("heat-loss-unit", "max_heat_loss",
-            "'Max heat loss' is per length (W/m) but this line is flat or a sphere; type its limit "
-            "with its unit, e.g. '60 W/m²'")
-    if L.economic and L.materials:
-        st = inputs.settings
-        missing = [f"'Cost per volume' of {m.name} (Materials sheet)" for m in L.materials
-                   if not np.isfinite(m.cost_per_volume)]
-        missing += [f"the setting {name!r}" for name, key in (("Jacket cost per area", "jacket_cost_per_area"),
-                                                           ("Labour per layer", "labour_per_layer"))
-                    if not np.isfinite(float(st[key]))]
-        if missing:
-            err("economic-costs", "economic", "'Economic' needs " + ", ".join(missing) + "; give them, or "
-                "leave 'Economic' blank")
+    t: Table
+    i: int
+    num: Callable
+    text: Callable
+    err: Callable
+    warn: Callable
+    settings: dict
 
 
 def resolve_lines(inputs: Inputs) -> tuple[list[Line], list[list[Note]]]:

@@ -1,14 +1,15 @@
 """Process limits of lines: temperature drop of flowing lines, steam condensate, time to
 freeze of stagnant water, cool-down of vessel contents.
 
-Three steps, called by :mod:`lagsheet.design.lines` and :mod:`lagsheet.design.select`:
+Three steps, called by :mod:`lagsheet.design.lines`, :mod:`lagsheet.design.targets` and
+:mod:`lagsheet.design.select`:
 
 - :func:`resolve_process` reads a line's process columns (``Flow rate``, ``Fluid``,
   ``Operating pressure``, ``Inside diameter``/``Schedule``, ``Max temperature drop``,
   ``Freeze protection``, ``Contents volume``, ``Hold time``, ``Min temperature``,
   ``Part of``) into a :class:`Process`, with an error naming the cell for every gap;
-- :func:`targets` judges every candidate system against the process targets, so the
-  chosen system is the thinnest that meets them with the surface targets;
+- :func:`closed_drop`, :func:`freeze_time` and :func:`cool_time` measure every candidate
+  system for the process targets (:mod:`lagsheet.design.targets` judges them);
 - :func:`results` computes what is reported for the chosen systems (``Outlet
   temperature``, ``Condensate``, ``Time to freeze``, ``Time to cool``) and its notes.
 
@@ -47,6 +48,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, replace
 from functools import lru_cache
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -55,10 +57,13 @@ from ..io.table import fold
 from ..physics import process as pp
 from ..physics.balance import System
 from ..physics.candidates import per_line, whole_factor
-from ..physics.layers import CYLINDER, MaterialTable
+from ..physics.layers import CYLINDER
 from ..physics.properties import P_ATM, coolprop_name, fluid_properties, saturation
 from ..workbook import library
 from ..workbook.display import show
+
+if TYPE_CHECKING:  # the selection's context (targets imports this module)
+    from .targets import Context
 
 STEAM_WORDS = {"steam", "saturated steam", "wet steam", "dry steam"}
 STEEL_DENSITY = 7850.0  # kg/m³, carbon steel (handbook value, from memory)
@@ -67,7 +72,6 @@ SELECT_NODES = 8  # Gauss–Legendre nodes when judging every candidate (24 for 
 STEAM_TOLERANCE_K = 2.0  # operating temperature vs saturation before a warning (our choice)
 DEFAULT_SCHEDULE = "40"
 
-TARGETS = ("temperature drop", "freeze protection", "hold time")
 
 
 @dataclass
@@ -99,10 +103,12 @@ class Process:
         return np.isfinite(self.m_dot) and not self.steam
 
 
-def resolve_process(t, inputs, i: int, L, num, text, err, warn) -> None:
-    """Fill ``L.process`` from the line's process columns; ``err``/``warn`` note problems."""
+def resolve_process(t, inputs, i: int, L, num, text, err, warn) -> bool:
+    """Fill ``L.process`` from the line's process columns; ``err``/``warn`` note problems.
+
+    True when its fluid and its state are known: the inputs of its process targets are
+    then checked by those targets (:meth:`lagsheet.design.targets.Target.check`)."""
     P = L.process
-    us = inputs.us_units
     P.part_of = text("part_of")
     label = text("fluid")
     flow = num("flow_rate")
@@ -116,8 +122,17 @@ def resolve_process(t, inputs, i: int, L, num, text, err, warn) -> None:
         if np.isfinite(flow) or np.isfinite(P.max_drop):
             err("no-fluid", "fluid", "'Flow rate' needs its 'Fluid' (water, steam, air, a CoolProp name "
                 "or a fluid of the Fluids sheet)")
-        return
+        return False
     P.label = label
+    if not _fluid(P, label, inputs, err) or not np.isfinite(L.t_op):
+        return False
+    if not _fluid_state(L, inputs.us_units, err, warn):
+        return False
+    return _mass_flow(t, i, P, flow, label, err)
+
+
+def _fluid(P: Process, label: str, inputs, err) -> bool:
+    """Which fluid ``label`` is: steam, a Fluids-sheet fluid or a CoolProp name."""
     user = inputs.fluids.get(fold(label))
     if fold(label) in STEAM_WORDS:
         P.steam, P.coolprop = True, "Water"
@@ -130,70 +145,96 @@ def resolve_process(t, inputs, i: int, L, num, text, err, warn) -> None:
             err("unknown-fluid", "fluid", f"fluid {label!r} is not known: use water, steam, air, another "
                 "CoolProp fluid name (e.g. Nitrogen, R134a, INCOMP::MEG[0.3]) or define it on a 'Fluids' "
                 "sheet (Name, Specific heat [kJ/(kg·K)], Density [kg/m³])" + (f"; defined: {known}" if known else ""))
-            return
-    if not np.isfinite(L.t_op):
-        return
+            return False
+    return True
+
+
+def _fluid_state(L, us: bool, err, warn) -> bool:
+    """The fluid at the operating state: saturation of steam, c_p and ρ of the others."""
+    P = L.process
     p = P.pressure if np.isfinite(P.pressure) else P_ATM
     if P.steam:
-        P.t_sat, P.h_fg = _saturation_p(P.pressure) if np.isfinite(P.pressure) else _saturation_t(L.t_op)
-        if not np.isfinite(P.h_fg):
-            err("steam-state", "operating_pressure" if np.isfinite(P.pressure) else "operating_temperature",
-                "saturated steam needs a temperature between 0.01 °C and 373.9 °C (or a pressure between "
-                "0.006 bar and 220 bar absolute); check the value and its unit")
-            return
-        if np.isfinite(P.pressure) and L.t_op < P.t_sat - STEAM_TOLERANCE_K:
-            gauge = _saturation_p(P.pressure + P_ATM)[0]
-            warn("steam-state", "operating_pressure",
-                 f"steam at {show(P.pressure, 'pressure', us)} (absolute) condenses at "
-                 f"{show(P.t_sat, 'temperature', us)}, above the operating temperature "
-                 f"{show(L.t_op, 'temperature', us)}; if the pressure is gauge, add the atmosphere "
-                 f"(saturation then {show(gauge, 'temperature', us)}). Condensate uses the pressure")
-        elif np.isfinite(P.pressure) and L.t_op > P.t_sat + STEAM_TOLERANCE_K:
-            warn("superheated", "operating_temperature",
-                 f"steam at {show(L.t_op, 'temperature', us)} is superheated (saturation "
-                 f"{show(P.t_sat, 'temperature', us)}): the heat lost first cools the steam, so the "
-                 "condensate shown is an upper bound")
-        if np.isfinite(P.max_drop):
-            err("steam-drop", "max_temperature_drop", "saturated steam stays at its saturation temperature "
-                "while it condenses: 'Max temperature drop' does not apply; limit 'Max heat loss' instead")
-    elif P.coolprop is not None:
+        return _steam_state(L, us, err, warn)
+    if P.coolprop is not None:
         if P.coolprop == "Water" and not np.isfinite(P.pressure) and L.t_op > 373.15:
             err("water-boils", "operating_pressure", f"water at {show(L.t_op, 'temperature', us)} boils at "
                 "1 atm: give its 'Operating pressure' (absolute), or 'Fluid' steam for a steam line")
-            return
+            return False
         P.cp, P.density = _state(P.coolprop, L.t_op, p)
         if not np.isfinite(P.cp):
             err("fluid-state", "fluid", f"CoolProp has no single-phase state of {P.coolprop} at "
                 f"{show(L.t_op, 'temperature', us)} and {show(p, 'pressure', us)}")
-            return
+            return False
     else:
         P.cp, P.density = P.user_cp, P.user_density
-    if np.isfinite(flow) and not P.steam:  # a steam line's condensate comes from its heat loss, not its flow
+    return True
+
+
+def _steam_state(L, us: bool, err, warn) -> bool:
+    """Saturation temperature and latent heat of a steam line, with a warning where the
+    operating temperature and the pressure disagree."""
+    P = L.process
+    P.t_sat, P.h_fg = _saturation_p(P.pressure) if np.isfinite(P.pressure) else _saturation_t(L.t_op)
+    if not np.isfinite(P.h_fg):
+        err("steam-state", "operating_pressure" if np.isfinite(P.pressure) else "operating_temperature",
+            "saturated steam needs a temperature between 0.01 °C and 373.9 °C (or a pressure between "
+            "0.006 bar and 220 bar absolute); check the value and its unit")
+        return False
+    if np.isfinite(P.pressure) and L.t_op < P.t_sat - STEAM_TOLERANCE_K:
+        gauge = _saturation_p(P.pressure + P_ATM)[0]
+        warn("steam-state", "operating_pressure",
+             f"steam at {show(P.pressure, 'pressure', us)} (absolute) condenses at "
+             f"{show(P.t_sat, 'temperature', us)}, above the operating temperature "
+             f"{show(L.t_op, 'temperature', us)}; if the pressure is gauge, add the atmosphere "
+             f"(saturation then {show(gauge, 'temperature', us)}). Condensate uses the pressure")
+    elif np.isfinite(P.pressure) and L.t_op > P.t_sat + STEAM_TOLERANCE_K:
+        warn("superheated", "operating_temperature",
+             f"steam at {show(L.t_op, 'temperature', us)} is superheated (saturation "
+             f"{show(P.t_sat, 'temperature', us)}): the heat lost first cools the steam, so the "
+             "condensate shown is an upper bound")
+    return True
+
+
+def _mass_flow(t, i: int, P: Process, flow: float, label: str, err) -> bool:
+    """``P.m_dot`` from 'Flow rate' (a volume flow × the density). A steam line's condensate
+    comes from its heat loss, not its flow."""
+    if np.isfinite(flow) and not P.steam:
         if t.columns["flow_rate"].si_of(i) == "m**3/s":  # a volume flow
             rho = P.density
             if not np.isfinite(rho):
                 err("no-density", "flow_rate", f"a volume flow needs the density of {label!r}: give "
                     "'Density' on the Fluids sheet, or the flow in kg/s")
-                return
+                return False
             flow = flow * rho
         P.m_dot = flow
-    elif np.isfinite(P.max_drop):
+    return True
+
+
+def drop_inputs(L, err) -> None:
+    """'Max temperature drop' needs a flowing fluid that is not condensing steam."""
+    P = L.process
+    if P.steam and np.isfinite(P.max_drop):
+        err("steam-drop", "max_temperature_drop", "saturated steam stays at its saturation temperature "
+            "while it condenses: 'Max temperature drop' does not apply; limit 'Max heat loss' instead")
+    if not np.isfinite(P.m_dot) and np.isfinite(P.max_drop):
         err("no-flow", "flow_rate", "'Max temperature drop' needs the line's 'Flow rate'")
-    if np.isfinite(P.freeze):
-        _freeze_inputs(t, i, L, num, text, err, warn)
-    if np.isfinite(P.hold):
-        P.volume, P.t_limit = num("contents_volume"), num("min_temperature")
-        if not np.isfinite(P.volume):
-            err("no-volume", "contents_volume", "'Hold time' needs the 'Contents volume' of the vessel")
-        if not np.isfinite(P.t_limit):
-            err("no-limit", "min_temperature", "'Hold time' needs the 'Min temperature' the contents may "
-                "cool to (for cold contents: the warmest they may reach)")
-        elif abs(P.t_limit - L.t_op) < 1e-9:
-            err("no-limit", "min_temperature", "'Min temperature' equals the operating temperature: "
-                "there is no time to hold")
-        if np.isfinite(P.user_cp) and not np.isfinite(P.user_density):
-            err("no-density", "fluid", f"'Contents volume' needs the density of {label!r}: give "
-                "'Density' on the Fluids sheet")
+
+
+def hold_inputs(L, num, err) -> None:
+    """'Hold time' needs the contents volume, the limit temperature and the fluid's density."""
+    P = L.process
+    P.volume, P.t_limit = num("contents_volume"), num("min_temperature")
+    if not np.isfinite(P.volume):
+        err("no-volume", "contents_volume", "'Hold time' needs the 'Contents volume' of the vessel")
+    if not np.isfinite(P.t_limit):
+        err("no-limit", "min_temperature", "'Hold time' needs the 'Min temperature' the contents may "
+            "cool to (for cold contents: the warmest they may reach)")
+    elif abs(P.t_limit - L.t_op) < 1e-9:
+        err("no-limit", "min_temperature", "'Min temperature' equals the operating temperature: "
+            "there is no time to hold")
+    if np.isfinite(P.user_cp) and not np.isfinite(P.user_density):
+        err("no-density", "fluid", f"'Contents volume' needs the density of {P.label!r}: give "
+            "'Density' on the Fluids sheet")
 
 
 # CoolProp once per distinct state of a schedule, not once per line
@@ -215,7 +256,8 @@ def _saturation_t(t: float) -> tuple[float, float]:
     return float(sat.t), float(sat.h_fg)
 
 
-def _freeze_inputs(t, i, L, num, text, err, warn) -> None:
+def freeze_inputs(t, i, L, num, text, err, warn) -> None:
+    """'Freeze protection' needs a water pipe and its bore ('Inside diameter', or 'Size' and 'Schedule')."""
     P = L.process
     if L.geometry != CYLINDER or L.word == "vessel":
         err("freeze-shape", "freeze_protection", "'Freeze protection' is for pipes and risers (water "
@@ -263,63 +305,23 @@ def coldest(line) -> int:
     return int(np.argmin([c.t_air for c in line.conditions]))
 
 
-def _coldest(lines, idx, starts) -> np.ndarray:
+def coldest_cases(lines, idx, starts) -> np.ndarray:
     """Case index of the coldest named condition of each line ``idx``."""
     return np.array([starts[i] + coldest(lines[i]) for i in idx], dtype=int)
 
 
-def targets(lines, ok, cases: System, starts, case_line, cand, table: MaterialTable, c, all_cases,
-            settings, given, meets, worst, values) -> np.ndarray:
-    """Add the process targets to ``given``/``meets``/``worst`` and their measure per line
-    and candidate to ``values`` (lines × candidates); returns the lines with a hold time
-    (judged later by :func:`hold_targets`, once their parts are chosen)."""
-    n, m, _ = cand.shape
+def closed_drop(lines, cases: System, case_line, c) -> np.ndarray:
+    """Inlet-to-outlet temperature change [K] of every candidate of every case (cases ×
+    candidates), closed form with UA at the inlet: UA = the line's heat loss at the
+    operating temperature / (θ_in − θ_a), c_p at the inlet."""
     procs = [L.process for L in lines]
-    factor = _factor(lines, range(n))
-
-    drop_given = np.array([ok[i] and P.flowing and np.isfinite(P.max_drop) for i, P in enumerate(procs)])
-    if drop_given.any():
-        t_in = cases.t_operating[:, None]
-        ta = cases.t_air[:, None]
-        ua = c.heat_rate * factor[case_line][:, None] / np.where(t_in != ta, t_in - ta, np.nan)
-        m_dot = np.array([P.m_dot for P in procs])[case_line][:, None]
-        cp = np.array([P.cp for P in procs])[case_line][:, None]
-        drop = np.where(t_in == ta, 0.0, np.abs(t_in - pp.outlet_temperature_closed(t_in, ta, ua, 1.0, m_dot, cp)))
-        limit = np.array([P.max_drop for P in procs])[case_line][:, None]
-        given["temperature drop"] = drop_given
-        meets["temperature drop"] = all_cases(np.where(np.isfinite(drop), drop <= limit + 1e-9, False))
-        worst["temperature drop"] = drop
-        values["temperature drop"] = np.maximum.reduceat(np.nan_to_num(drop, nan=np.inf), starts, axis=0)
-
-    freeze_given = np.array([ok[i] and np.isfinite(P.freeze) and np.isfinite(P.bore)
-                             for i, P in enumerate(procs)])
-    if freeze_given.any():
-        idx = np.flatnonzero(freeze_given)
-        seconds = _freeze_time(lines, idx, _coldest(lines, idx, starts), cases, cand[idx], table,
-                               settings, SELECT_NODES)
-        met = np.zeros((n, m), dtype=bool)
-        met[idx] = seconds >= np.array([procs[i].freeze for i in idx])[:, None]
-        given["freeze protection"] = freeze_given
-        meets["freeze protection"] = met
-        values["freeze protection"] = np.full((n, m), np.nan)
-        values["freeze protection"][idx] = seconds
-    hold_given = np.array([ok[i] and np.isfinite(P.hold) and np.isfinite(P.volume) and np.isfinite(P.t_limit)
-                           for i, P in enumerate(procs)])
-    if hold_given.any():
-        given["hold time"] = hold_given
-    return np.flatnonzero(hold_given)
-
-
-def hold_targets(lines, idx, cases, starts, cand, table, chosen_th, parts, meets, values, n):
-    """``meets['hold time']`` for vessels ``idx``, their parts at their chosen systems."""
-    procs = [L.process for L in lines]
-    times = _cool_time(lines, idx, _coldest(lines, idx, starts), cases, starts, cand[idx], table,
-                       chosen_th, parts, SELECT_NODES)
-    met = np.zeros((n, cand.shape[1]), dtype=bool)
-    met[idx] = times >= np.array([procs[i].hold for i in idx])[:, None]
-    meets["hold time"] = met
-    values["hold time"] = np.full((n, cand.shape[1]), np.nan)
-    values["hold time"][idx] = times
+    factor = _factor(lines, range(len(lines)))
+    t_in = cases.t_operating[:, None]
+    ta = cases.t_air[:, None]
+    ua = c.heat_rate * factor[case_line][:, None] / np.where(t_in != ta, t_in - ta, np.nan)
+    m_dot = np.array([P.m_dot for P in procs])[case_line][:, None]
+    cp = np.array([P.cp for P in procs])[case_line][:, None]
+    return np.where(t_in == ta, 0.0, np.abs(t_in - pp.outlet_temperature_closed(t_in, ta, ua, 1.0, m_dot, cp)))
 
 
 def parts_of(lines, tags, res, t) -> dict[int, list[int]]:
@@ -358,8 +360,11 @@ def _pairs(cases: System, case_idx, thickness) -> System:
     return per_line(cases, rows, thickness=np.where(good[:, None], th, 0.0)), good
 
 
-def _freeze_time(lines, idx, case_idx, cases, thickness, table, settings, nodes) -> np.ndarray:
-    """Time to freeze [s] of lines ``idx`` for every candidate (len(idx) × candidates)."""
+def freeze_time(ctx: Context, idx, thickness, nodes) -> np.ndarray:
+    """Time to freeze [s] of lines ``idx`` for every candidate ``thickness`` (len(idx) ×
+    candidates × slots) at their coldest named condition: (len(idx) × candidates)."""
+    lines, cases, table, settings = ctx.lines, ctx.cases, ctx.table, ctx.settings
+    case_idx = coldest_cases(lines, idx, ctx.starts)
     k, m, _ = thickness.shape
     sysp, good = _pairs(cases, case_idx, thickness)
     rep = np.repeat(np.asarray(idx), m)
@@ -372,53 +377,44 @@ def _freeze_time(lines, idx, case_idx, cases, thickness, table, settings, nodes)
     return np.where(good, ft.total, np.nan).reshape(k, m)
 
 
-def _cool_time(lines, idx, case_idx, cases, starts, thickness, table, chosen_th, parts,
-               nodes) -> np.ndarray:
-    """Time to cool [s] of vessels ``idx`` for every candidate, their parts at ``chosen_th``."""
+def cool_time(ctx: Context, idx, thickness, chosen_th, nodes) -> np.ndarray:
+    """Time to cool [s] of vessels ``idx`` for every candidate at their coldest named
+    condition, their parts (``ctx.parts``) at ``chosen_th``
+    (:func:`lagsheet.physics.process.vessel_cooldown`, the shell's heat capacity left out)."""
+    lines, cases, starts, table, parts = ctx.lines, ctx.cases, ctx.starts, ctx.table, ctx.parts
+    case_idx = coldest_cases(lines, idx, starts)
     k, m, _ = thickness.shape
     sysp, good = _pairs(cases, case_idx, thickness)
     rep = np.repeat(np.asarray(idx), m)
-    factor = _factor(lines, rep)
-    shell = pp.loss_coefficient(sysp, table, scale=factor)
-    owner = [j for j, v in enumerate(rep) for _ in parts.get(int(v), [])]
-    rows = [p for v in rep for p in parts.get(int(v), [])]
-    ua_parts = None
-    if rows:
-        rows_a, owner_a = np.array(rows), np.array(owner)
-        # each part at its chosen system, in the vessel's air (the condition the vessel is judged at)
-        psys = replace(per_line(cases, np.asarray(starts)[rows_a], thickness=np.nan_to_num(chosen_th[rows_a])),
-                       t_air=sysp.t_air[owner_a], t_surroundings=sysp.t_surroundings[owner_a],
-                       wind=sysp.wind[owner_a])
-        pf = _factor(lines, rows)
-        ua_p = pp.loss_coefficient(psys, table, scale=pf)
-
-        def ua_parts(tt):
-            return np.bincount(owner_a, weights=ua_p(np.asarray(tt)[owner_a]), minlength=len(rep))
-
-    def ua(tt):
-        total = shell(tt)
-        return total + ua_parts(tt) if ua_parts is not None else total
-
+    surfaces = [pp.loss_coefficient(sysp, table, scale=_factor(lines, rep))]
+    parts_ua = _parts_coefficient(lines, rep, sysp, cases, starts, table, chosen_th, parts)
+    if parts_ua is not None:
+        surfaces.append(parts_ua)
     procs = [lines[i].process for i in rep]
-    t_op, t_lim = sysp.t_operating, np.array([P.t_limit for P in procs])
-    cap = _capacity(procs, 0.5 * (t_op + t_lim))
-    time = pp.cooling_time(t_op, t_lim, sysp.t_air, cap, ua, nodes)
+    time = pp.vessel_cooldown(sysp.t_operating, np.array([P.t_limit for P in procs]), sysp.t_air, surfaces,
+                              np.array([P.volume for P in procs]), np.array([P.coolprop or "" for P in procs]),
+                              np.array([P.pressure if np.isfinite(P.pressure) else P_ATM for P in procs]),
+                              nodes=nodes, cp=np.array([P.user_cp for P in procs]),
+                              density=np.array([P.user_density for P in procs])).time
     return np.where(good, time, np.nan).reshape(k, m)
 
 
-def _capacity(procs, t_mean) -> np.ndarray:
-    """ρ V c_p [J/K] of the contents at the mean temperature (CoolProp or the Fluids sheet)."""
-    cap = np.full(len(procs), np.nan)
-    names = np.array([P.coolprop or "" for P in procs])
-    pressure = np.array([P.pressure if np.isfinite(P.pressure) else P_ATM for P in procs])
-    cool = names != ""
-    if cool.any():
-        props = fluid_properties(names[cool], t_mean[cool], pressure[cool])
-        cap[cool] = props.density * props.cp * np.array([P.volume for P, c in zip(procs, cool, strict=True) if c])
-    for j, P in enumerate(procs):
-        if not cool[j]:
-            cap[j] = P.user_density * P.user_cp * P.volume
-    return cap
+def _parts_coefficient(lines, rep, sysp: System, cases, starts, table, chosen_th, parts):
+    """UA(θ) [W/K] of the lines linked to each vessel ``rep`` ('Part of'), each at its chosen
+    system in the vessel's air (the condition the vessel is judged at); None when none is."""
+    owner = [j for j, v in enumerate(rep) for _ in parts.get(int(v), [])]
+    rows = [p for v in rep for p in parts.get(int(v), [])]
+    if not rows:
+        return None
+    rows_a, owner_a = np.array(rows), np.array(owner)
+    psys = replace(per_line(cases, np.asarray(starts)[rows_a], thickness=np.nan_to_num(chosen_th[rows_a])),
+                   t_air=sysp.t_air[owner_a], t_surroundings=sysp.t_surroundings[owner_a],
+                   wind=sysp.wind[owner_a])
+    ua_p = pp.loss_coefficient(psys, table, scale=_factor(lines, rows))
+
+    def ua_parts(tt):
+        return np.bincount(owner_a, weights=ua_p(np.asarray(tt)[owner_a]), minlength=len(rep))
+    return ua_parts
 
 
 # --------------------------------------------------------------------------- flowing lines
@@ -453,14 +449,15 @@ def _specific_heat(lines, idx, cases: System, starts) -> pp.SpecificHeat:
     return pp.SpecificHeat(lo, hi, values)
 
 
-def flowing_lines(lines, put, first_sys: System, bare_sys: System, cases: System, starts, chosen_th,
-                  table, loss, bare_loss, res, t, us: bool) -> tuple[np.ndarray, np.ndarray]:
+def flowing_lines(ctx: Context, put, first_sys: System, bare_sys: System, chosen_th, loss, bare_loss,
+                  res) -> tuple[np.ndarray, np.ndarray]:
     """Heat loss and bare heat loss [W] of every line with a flow: the heat its fluid gives up
     between inlet and outlet, ṁ ∫ c_p dT over the marched profile (insulated and bare, at the
     first named condition), in place of the inlet heat rate × length. Writes ``Outlet
     temperature``; a water line that reaches 0 °C before its outlet at any named condition is
     an error naming the distance, a fluid that comes within :data:`APPROACH_K` of the air is a
     warning. Returns the new (loss, bare_loss)."""
+    lines, cases, starts, table, t, us = ctx.lines, ctx.cases, ctx.starts, ctx.table, ctx.t, ctx.us
     v = res.values
     procs = [L.process for L in lines]
     flowing = np.array([bool(put[i]) and P.flowing and np.isfinite(P.cp) for i, P in enumerate(procs)])
@@ -484,52 +481,62 @@ def flowing_lines(lines, put, first_sys: System, bare_sys: System, cases: System
     bare_loss[idx] = m_dot * (cp.enthalpy(t_in) - cp.enthalpy(bare_out))
     v["outlet_temperature"][idx] = out
 
-    def note(i, level, code, message, key="tag"):
-        res.notes[i].append(Note(level, code, message, t.sheet, t.cell(i, key)))
-
     reach = _reach(lines, idx, cases, starts, chosen_th, table, m_dot, cp)
     for j, i in enumerate(idx):
-        P, L = procs[i], lines[i]
-        freeze, approach = reach[j]
-        if freeze is not None:
-            x, name = freeze
-            note(i, "error", "fluid-freezes",
-                 f"the water reaches {show(pp.T_ICE, 'temperature', us)} {show(x, 'length', us)} from the inlet of this "
-                 f"{show(L.length, 'length', us)} line at condition '{name}' and would freeze before the "
-                 "outlet: give more flow, more insulation, or heat tracing", "flow_rate")
-            if out[j] < pp.T_ICE:  # at the first condition: no liquid outlet, no heat to report
-                v["outlet_temperature"][i] = np.nan
-                loss[i] = bare_loss[i] = np.nan
-                continue
-        elif approach is not None:
-            x, name = approach
-            note(i, "warning", "fluid-at-air",
-                 f"the {P.label} comes within {show(APPROACH_K, 'difference', us)} of the air temperature "
-                 f"{show(x, 'length', us)} from the inlet of this {show(L.length, 'length', us)} line at "
-                 f"condition '{name}': beyond that the line delivers air temperature; give more flow or "
-                 "more insulation if the outlet temperature matters", "flow_rate")
-        gives = "gives up" if given_up[j] >= 0 else "takes up"
-        note(i, "info", "flow-heat",
-             f"heat loss = the heat the {P.label} {gives} between inlet and outlet, ṁ ∫c_p dT along the "
-             f"marched profile: {show(abs(given_up[j]), 'power', us)} (the inlet rate × length would give "
-             f"{show(abs(inlet_rate[j]), 'power', us)}); heat loss per length, heat flux and surface "
-             "temperature are at the inlet", "flow_rate")
-        limit = P.max_drop
-        change = abs(L.t_op - out[j])
-        if np.isfinite(limit) and change > limit + 1e-9:
-            note(i, "warning", "temperature-drop",
-                 f"marched along the line with the heat-loss coefficient re-evaluated, the temperature "
-                 f"changes by {show(change, 'difference', us)}, more than 'Max temperature drop' "
-                 f"{show(limit, 'difference', us)} (the thickness was judged with the coefficient at "
-                 "the inlet); choose the next thickness up", "max_temperature_drop")
+        if not _flow_notes(lines[i], i, reach[j], out[j], given_up[j], inlet_rate[j], res, t, us):
+            v["outlet_temperature"][i] = np.nan  # frozen at the first condition: no liquid outlet, no heat
+            loss[i] = bare_loss[i] = np.nan
     return loss, bare_loss
 
 
-def flowing_candidates(lines, use, cases: System, starts, cand, table, whole) -> np.ndarray:
+def _flow_notes(L, i: int, reach, out: float, given_up: float, inlet_rate: float, res, t, us: bool) -> bool:
+    """The notes of flowing line ``i``: water that freezes before the outlet, a fluid that
+    reaches the air temperature, the heat it gives up, a marched drop past the limit.
+    False when the water freezes at the first named condition (no outlet to report)."""
+    P = L.process
+
+    def note(level, code, message, key="tag"):
+        res.notes[i].append(Note(level, code, message, t.sheet, t.cell(i, key)))
+
+    freeze, approach = reach
+    if freeze is not None:
+        x, name = freeze
+        note("error", "fluid-freezes",
+             f"the water reaches {show(pp.T_ICE, 'temperature', us)} {show(x, 'length', us)} from the inlet of this "
+             f"{show(L.length, 'length', us)} line at condition '{name}' and would freeze before the "
+             "outlet: give more flow, more insulation, or heat tracing", "flow_rate")
+        if out < pp.T_ICE:  # at the first condition: no liquid outlet, no heat to report
+            return False
+    elif approach is not None:
+        x, name = approach
+        note("warning", "fluid-at-air",
+             f"the {P.label} comes within {show(APPROACH_K, 'difference', us)} of the air temperature "
+             f"{show(x, 'length', us)} from the inlet of this {show(L.length, 'length', us)} line at "
+             f"condition '{name}': beyond that the line delivers air temperature; give more flow or "
+             "more insulation if the outlet temperature matters", "flow_rate")
+    gives = "gives up" if given_up >= 0 else "takes up"
+    note("info", "flow-heat",
+         f"heat loss = the heat the {P.label} {gives} between inlet and outlet, ṁ ∫c_p dT along the "
+         f"marched profile: {show(abs(given_up), 'power', us)} (the inlet rate × length would give "
+         f"{show(abs(inlet_rate), 'power', us)}); heat loss per length, heat flux and surface "
+         "temperature are at the inlet", "flow_rate")
+    limit = P.max_drop
+    change = abs(L.t_op - out)
+    if np.isfinite(limit) and change > limit + 1e-9:
+        note("warning", "temperature-drop",
+             f"marched along the line with the heat-loss coefficient re-evaluated, the temperature "
+             f"changes by {show(change, 'difference', us)}, more than 'Max temperature drop' "
+             f"{show(limit, 'difference', us)} (the thickness was judged with the coefficient at "
+             "the inlet); choose the next thickness up", "max_temperature_drop")
+    return True
+
+
+def flowing_candidates(ctx: Context, use, whole) -> np.ndarray:
     """``whole`` (lines × candidates, the heat flow [W] of every candidate at the first named
     condition) with the lines ``use`` that have a flow given the heat their fluid gives up
     along the line with each candidate (marched, as :func:`flowing_lines`): what the
     economic choice prices."""
+    lines, cases, starts, cand, table = ctx.lines, ctx.cases, ctx.starts, ctx.cand, ctx.table
     procs = [L.process for L in lines]
     sel = np.flatnonzero([bool(use[i]) and P.flowing and np.isfinite(P.cp) for i, P in enumerate(procs)])
     if not sel.size:
@@ -586,9 +593,10 @@ def _reach(lines, idx, cases: System, starts, chosen_th, table, m_dot, cp) -> li
 # --------------------------------------------------------------------------- results
 
 
-def results(lines, put, first_sys: System, cases: System, starts, chosen_th, table, loss, settings,
-            parts, res, t, us: bool) -> None:
-    """Outlet temperature, condensate, time to freeze and time to cool of the chosen systems."""
+def results(ctx: Context, put, chosen_th, loss, res) -> None:
+    """Condensate, time to freeze and time to cool of the chosen systems ``chosen_th``
+    (lines × slots) of the lines ``put``, whose heat loss [W] is ``loss``."""
+    lines, starts, settings, parts, t, us = ctx.lines, ctx.starts, ctx.settings, ctx.parts, ctx.t, ctx.us
     v = res.values
     procs = [L.process for L in lines]
 
@@ -604,9 +612,8 @@ def results(lines, put, first_sys: System, cases: System, starts, chosen_th, tab
                          for i, P in enumerate(procs)])
     if freezing.any():
         idx = np.flatnonzero(freezing)
-        cold = _coldest(lines, idx, starts)
-        times = _freeze_time(lines, idx, cold, cases, chosen_th[idx][:, None, :], table, settings,
-                             pp.NODES)[:, 0]
+        cold = coldest_cases(lines, idx, starts)
+        times = freeze_time(ctx, idx, chosen_th[idx][:, None, :], pp.NODES)[:, 0]
         fraction = float(settings["freeze_fraction"])
         for j, i in enumerate(idx):
             name = lines[i].conditions[cold[j] - starts[i]].name
@@ -627,9 +634,8 @@ def results(lines, put, first_sys: System, cases: System, starts, chosen_th, tab
                         and np.isfinite(P.t_limit) for i, P in enumerate(procs)])
     if holding.any():
         idx = np.flatnonzero(holding)
-        cold = _coldest(lines, idx, starts)
-        times = _cool_time(lines, idx, cold, cases, starts, chosen_th[idx][:, None, :], table, chosen_th,
-                           parts, pp.NODES)[:, 0]
+        cold = coldest_cases(lines, idx, starts)
+        times = cool_time(ctx, idx, chosen_th[idx][:, None, :], chosen_th, pp.NODES)[:, 0]
         for j, i in enumerate(idx):
             name = lines[i].conditions[cold[j] - starts[i]].name
             if np.isfinite(times[j]):
@@ -642,15 +648,3 @@ def results(lines, put, first_sys: System, cases: System, starts, chosen_th, tab
                  "shell's own heat capacity left out" if np.isfinite(times[j]) else
                  f"the contents never reach {show(procs[i].t_limit, 'temperature', us)} at condition "
                  f"'{name}': the air is at or beyond it", "hold_time")
-
-
-def unmet_words(name: str, value: float, thick: str, names: str, us: bool) -> str:
-    """Why a process target is not met by the thickest sold system (for the error note)."""
-    if name == "temperature drop":
-        return (f"'Max temperature drop' is not met by any sold thickness: the temperature changes by "
-                f"{show(value, 'difference', us)} at {thick}, the thickest of {names}")
-    if name == "freeze protection":
-        return (f"'Freeze protection' is not met by any sold thickness: water freezes in "
-                f"{value / 3600:.1f} h at {thick}, the thickest of {names}; add heat tracing")
-    return (f"'Hold time' is not met by any sold thickness: the contents cool in {value / 3600:.1f} h at "
-            f"{thick}, the thickest of {names}")

@@ -36,6 +36,7 @@ heat of vaporisation, an energy balance on saturated steam, not a clause of the 
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable, Sequence
 from dataclasses import replace
 from typing import NamedTuple
@@ -469,7 +470,7 @@ class VesselCooldown(NamedTuple):
 
 def vessel_cooldown(t_operating, t_limit, t_air, ua_of_t: Coefficient | Sequence[Coefficient],
                     volume, fluid="Water", pressure=P_ATM, shell_mass=0.0, shell_cp=0.0,
-                    nodes: int = NODES) -> VesselCooldown:
+                    nodes: int = NODES, cp=math.nan, density=math.nan) -> VesselCooldown:
     """Time for a vessel's stagnant contents to cool from operating to a limit temperature.
 
     The lumped balance of :func:`cooling_time`, with C = ρ V c_p + m_shell c_shell and
@@ -498,6 +499,9 @@ def vessel_cooldown(t_operating, t_limit, t_air, ua_of_t: Coefficient | Sequence
         Shell mass [kg] and specific heat [J/(kg·K)]; 0 leaves the shell out.
     nodes : int
         Gauss–Legendre nodes.
+    cp, density : array_like
+        Specific heat [J/(kg·K)] and density [kg/m³] of contents CoolProp does not know
+        (a user's fluid, constant), used where ``fluid`` is ``""``.
 
     Returns
     -------
@@ -518,13 +522,18 @@ def vessel_cooldown(t_operating, t_limit, t_air, ua_of_t: Coefficient | Sequence
     def ua(t):
         return sum(np.asarray(p(t), dtype=float) for p in parts)
 
-    t_op, t_lim, ta, vol, ms, cs, pp = np.broadcast_arrays(*(np.asarray(a, dtype=float) for a in (
-        t_operating, t_limit, t_air, volume, shell_mass, shell_cp, pressure)))
-    props = fluid_properties(fluid, 0.5 * (t_op + t_lim), pp)
-    cap = props.density * vol * props.cp + ms * cs
+    t_op, t_lim, ta, vol, ms, cs, pp, c_given, rho_given = np.broadcast_arrays(
+        *(np.asarray(a, dtype=float) for a in (t_operating, t_limit, t_air, volume, shell_mass, shell_cp,
+                                               pressure, cp, density)))
+    names = np.broadcast_to(np.asarray(fluid, dtype=str), t_op.shape)
+    c_p, rho = c_given.copy(), rho_given.copy()
+    known = names != ""
+    if known.any():  # CoolProp once for the known fluids (the others keep the given values)
+        props = fluid_properties(names[known], 0.5 * (t_op[known] + t_lim[known]), pp[known])
+        c_p[known], rho[known] = props.cp, props.density
+    cap = rho * c_p * vol + ms * cs
     time = cooling_time(t_op, t_lim, ta, cap, ua, nodes)
-    return VesselCooldown(time=time, capacity=np.asarray(cap), cp=props.cp,
-                          density=props.density)
+    return VesselCooldown(time=time, capacity=np.asarray(cap), cp=c_p, density=rho)
 
 
 # --------------------------------------------------------------------------- from the engine
