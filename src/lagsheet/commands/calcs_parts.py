@@ -192,10 +192,10 @@ def charts(inputs: Inputs, res: Results, idx: list[int]) -> dict[int, tuple[list
                              GREEN))
         chosen = float(np.nansum(res.chosen[i]))
         for c in (q, s):
-            c.vlines.append((chosen / 0.0254 if us else chosen * 1000, f"chosen: {res.values['layers'][i]}", BLACK))
+            c.vlines.append((chosen / 0.0254 if us else chosen * 1000, "thickness chosen", BLACK))
         note = (f"{L.materials[0].name} alone from bare to {show(float(th[-1]), 'thickness', us)}, at condition "
                 f"'{cond.name}'" + (" (the governing one)" if res.values["governing_condition"][i] == cond.name
                                     and len(L.conditions) > 1 else "")
-                + "; the vertical line marks the total thickness chosen.")
+                + f"; the vertical line marks the thickness chosen ({res.values['layers'][i]}).")
         out[i] = ([q, s], note)
     return out

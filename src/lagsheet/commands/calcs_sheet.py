@@ -48,7 +48,7 @@ def gather(inputs: Inputs, raw: RawSheet, res: Results, idx: list[int]) -> list[
         s.notes = [(n.level, n.message) for n in res.notes[i]]
         if i in solved:
             _fill(s, inputs, res, i, solved[i], us)
-            s.charts, s.chart_note = drawn[i]
+            s.charts, s.chart_note = drawn.get(i, ([], ""))
         sheets.append(s)
     return sheets
 

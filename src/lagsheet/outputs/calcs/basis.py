@@ -124,7 +124,7 @@ def _materials(pdf: Document, res: Results, us: bool) -> None:
         k = np.asarray(m.conductivities, dtype=float)
         k_shown = from_si(k, "W/(m*K)", "Btu*inch/(hour*foot**2*delta_degF)") if us else k
         t_shown = [float(show(t, "temperature", us).split()[0]) for t in m.mean_temperatures]
-        pdf.need(58)
+        pdf.need(max(len(m.conductivities) * (3.6 + 0.6) + 8, 48) + 16)  # the block stays on one page
         pdf.font(8.5, bold=True)
         pdf.cell(0, 4.5, pdf.text_of(m.name), new_x="LMARGIN", new_y="NEXT")
         lo, hi = show(m.min_temperature, "temperature", us), show(m.max_temperature, "temperature", us)
@@ -135,8 +135,8 @@ def _materials(pdf: Document, res: Results, us: bool) -> None:
         rows = [[show(t, "temperature", us), f"{kk:.4f}"] for t, kk in zip(m.mean_temperatures, k_shown,
                                                                             strict=True)]
         c = charts.Chart(f"mean temperature [{'°F' if us else '°C'}]", f"k [{k_unit}]",
-                         [charts.Series(t_shown, charts.finite(k_shown), "points as given, joined as the "
-                                        "engine interpolates them", charts.RED, marks=True)])
+                         [charts.Series(t_shown, charts.finite(k_shown), "k(T) points as given, joined "
+                                        "linearly", charts.RED, marks=True)])
         charts.draw(pdf, c, pdf.l_margin + pdf.epw * 0.42, y, pdf.epw * 0.58, 44)
         pdf.set_xy(pdf.l_margin, y)
         pdf.set_right_margin(pdf.w - pdf.l_margin - pdf.epw * 0.40 + 0.0)
