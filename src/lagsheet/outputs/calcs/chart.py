@@ -60,7 +60,8 @@ def draw(pdf: Document, chart: Chart, x: float, y: float, w: float, h: float) ->
     left, bottom, top = 14.0, 8.0, 5.0 if chart.title else 1.5
     entries = [(s.label, s.color, s.dashed) for s in chart.series] + \
               [(lab, c, True) for _, lab, c in chart.hlines + chart.vlines]
-    legend_h = 3.2 * math.ceil(len(entries) / 2)
+    per_row = 1 if len(entries) == 1 else 2
+    legend_h = 3.2 * math.ceil(len(entries) / per_row)
     px, py, pw, ph = x + left, y + top, w - left - 2, h - top - bottom - legend_h
     xs = [v for s in chart.series for v in s.x if math.isfinite(v)] + [v for v, _, _ in chart.vlines]
     ys = [v for s in chart.series for v in s.y if math.isfinite(v)] + [v for v, _, _ in chart.hlines]
@@ -108,7 +109,7 @@ def draw(pdf: Document, chart: Chart, x: float, y: float, w: float, h: float) ->
             pdf.set_fill_color(*s.color)
             for a, b in pts:
                 pdf.rect(a - 0.5, b - 0.5, 1.0, 1.0, style="F")
-    _legend(pdf, entries, px, py + ph + 6.6, pw)
+    _legend(pdf, entries, px, py + ph + 6.6, pw, per_row)
 
 
 def _path(pdf: Document, pts, color, dashed: bool, width: float) -> None:
@@ -124,11 +125,11 @@ def _path(pdf: Document, pts, color, dashed: bool, width: float) -> None:
     pdf.set_line_width(0.1)
 
 
-def _legend(pdf: Document, entries, x: float, y: float, w: float) -> None:
+def _legend(pdf: Document, entries, x: float, y: float, w: float, per_row: int) -> None:
     pdf.font(6.2)
-    col = w / 2
+    col = w / per_row
     for k, (label, color, dashed) in enumerate(entries):
-        cx, cy = x + (k % 2) * col, y + (k // 2) * 3.2
+        cx, cy = x + (k % per_row) * col, y + (k // per_row) * 3.2
         _path(pdf, [(cx, cy + 1.4), (cx + 6, cy + 1.4)], color, dashed, 0.45)
         pdf.set_xy(cx + 7, cy)
         pdf.cell(col - 8, 2.8, pdf._cut(pdf.text_of(label), col - 8))

@@ -8,7 +8,7 @@ import numpy as np
 
 from ...design.select import Results
 from ...io.table import NewSheet
-from ...physics.layers import CYLINDER
+from ...physics.layers import CYLINDER, FLAT
 from ...workbook.display import show
 from ...workbook.inputs import Inputs
 from .basis import cell_text, sheet_blocks
@@ -63,7 +63,8 @@ def results_by_area(pdf: Document, inputs: Inputs, res: Results) -> None:
             per = show(float(v["heat_loss_per_length"][i]), "per_length", us) if L.geometry == CYLINDER else ""
             rows.append([res.tags[i] or f"row {t.rows[i] + 1}", L.word,
                          str(size[i]) if size is not None and size[i] else
-                         (show(2 * L.r_inner, "radius", us) if np.isfinite(L.r_inner) else ""),
+                         (show(2 * L.r_inner, "radius", us) if np.isfinite(L.r_inner) and L.geometry != FLAT
+                          else ""),
                          show(L.t_op, "temperature", us) if np.isfinite(L.t_op) else "",
                          v["layers"][i] or "", v["governing"][i] or "",
                          show(float(v["surface_temperature" if "surface_temperature" in v else "t_surface"][i]),
