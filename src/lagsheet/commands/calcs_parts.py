@@ -16,6 +16,7 @@ from ..outputs.columns import lines_edits
 from ..physics.balance import solve
 from ..physics.candidates import heat_rate, per_line
 from ..physics.layers import CYLINDER, FLAT
+from ..physics.properties import dew_point
 from ..workbook.display import show
 from ..workbook.inputs import Inputs
 from ..workbook.tables import Table
@@ -65,7 +66,13 @@ def _limit_and_value(name: str, inputs: Inputs, res: Results, i: int, m: float, 
         return f"≤ {show(lim, 'temperature', us)} ({L.materials[1].name})", show(lim - m, "temperature", us)
     if name == "condensation":
         margin = float(inputs.settings["condensation_margin"])
-        return f"surface ≥ dew point + {show(margin, 'difference', us)}", "surface − (dew point + margin)"
+        limit = f"surface ≥ dew point + {show(margin, 'difference', us)}"
+        if len(L.conditions) > 1:
+            return limit, "at the worst named condition: see the margin"
+        c = L.conditions[0]
+        ts = float(res.values["surface_temperature" if "surface_temperature" in res.values else "t_surface"][i])
+        return limit, (f"surface {show(ts, 'temperature', us)}; dew point "
+                       f"{show(float(dew_point(c.t_air, c.rh)[0]), 'temperature', us)}")
     if name == "temperature drop":
         return f"≤ {show(P.max_drop, 'difference', us)}", show(P.max_drop - m, "difference", us)
     if name in ("freeze protection", "hold time"):

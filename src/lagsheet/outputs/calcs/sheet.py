@@ -110,6 +110,8 @@ def _balance(pdf: Document, b: Balance, us: bool) -> None:
                  "so it differs from the inlet balance above times the length (see the notes).")
     else:
         text += " Conduction through the insulation is the heat loss; the outgoing terms add up to it."
+    if b.conduction < 0:
+        text += " Negative terms: heat flows in from the air and the surroundings (a heat gain)."
     pdf.para(text, SMALL)
 
 
