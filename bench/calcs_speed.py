@@ -37,7 +37,7 @@ def run(n: int, seed: int, folder: Path) -> dict[str, float]:
     res = specify(inputs)
     t["read and size"] = time.perf_counter()
     idx, scope = choose(inputs, res, [], [], True)
-    sheets = gather(inputs, book.sheet(inputs.lines.sheet), res, idx)
+    sheets, _ = gather(inputs, book.sheet(inputs.lines.sheet), res, idx)
     t["gather the numbers"] = time.perf_counter()
     index = [(s.tag, "", res.values["governing"][i] or "", res.status[i]) for s, i in zip(sheets, idx, strict=True)]
     pdf = package.build(inputs, res, sheets, workbook=src.name, scope=scope, index=index,

@@ -281,3 +281,25 @@ def test_without_dejavu_the_core_font_writes_the_package(tmp_path, monkeypatch):
     assert _run("calcs", src, "-o", out).exit_code == 0
     text = sheets_by_tag(pages(out))["P-1"]
     assert "°C" in text and "Ts^4 - Tsur^4" in text
+
+
+def test_results_the_workbook_holds_that_differ_from_the_calculation_are_named(tmp_path):
+    """A filled workbook whose input changed after filling: the package shows the calculation, and the
+    title page and a warning name the results that differ (an unchanged one names none)."""
+    _require_poppler()
+    src = write_book(tmp_path / "in.xlsx", [pipe("P-1"), pipe("P-2")])
+    filled = tmp_path / "filled.xlsx"
+    assert _run("fill", src, "-o", filled, "-q").exit_code == 0
+    r = _run("calcs", filled, "-o", tmp_path / "same.pdf", "--all")
+    assert r.exit_code == 0 and "differ" not in r.output
+    wb = openpyxl.load_workbook(filled)
+    ws = wb["Lines"]
+    col = next(c.column for c in ws[1] if c.value == "Operating temperature [°C]")
+    ws.cell(3, col).value = 350  # P-2, after it was filled
+    wb.save(filled)
+    out = tmp_path / "changed.pdf"
+    r = _run("calcs", filled, "-o", out, "--all")
+    assert r.exit_code == 0
+    assert "warning: P-2 Thickness [mm]:" in r.output and "P-1" not in r.output.split("written:")[0]
+    title = pages(out)[0]
+    assert "differ from this calculation" in title and "P-2 Thickness [mm]" in title

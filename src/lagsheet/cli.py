@@ -391,8 +391,13 @@ def calcs(
     with _progress(quiet) as stage:
         stage("reading, sizing and writing")
         outcome = _guarded(lambda: run(file, output, sheet=sheet, tags=tags, areas=area, every=every))
+    for text in outcome.stale[:5]:
+        typer.echo(f"warning: {text} (the package shows the calculation; fill the workbook again)", err=True)
+    if len(outcome.stale) > 5:
+        typer.echo(f"warning: {len(outcome.stale) - 5} more results of the workbook differ", err=True)
     if not quiet:
-        typer.echo(f"written: {output} ({outcome.pages} pages; {len(outcome.chosen)} calculation sheets: "
+        n = len(outcome.chosen)
+        typer.echo(f"written: {output} ({outcome.pages} pages; {n} calculation sheet{'' if n == 1 else 's'}: "
                    f"{outcome.scope})")
     raise typer.Exit(outcome.exit_code)
 

@@ -30,6 +30,7 @@ class Outcome:
     scope: str
     pages: int
     exit_code: int
+    stale: list[str]  # results the workbook holds that differ from this calculation
 
 
 def default_lines(res: Results) -> list[int]:
@@ -85,15 +86,15 @@ def calcs(path: Path, out: Path | None, *, sheet: str = "Lines", tags: list[str]
     book, inputs = load(path, sheet)
     res = specify(inputs)
     idx, scope = choose(inputs, res, list(tags), list(areas), every)
-    sheets = gather(inputs, book.sheet(inputs.lines.sheet), res, idx)
+    sheets, stale = gather(inputs, book.sheet(inputs.lines.sheet), res, idx)
     col = inputs.lines.get("area")
     index = [(s.tag, str(col[i]) if col is not None and col[i] else "", res.values["governing"][i] or "",
               res.status[i]) for s, i in zip(sheets, idx, strict=True)]
     pages = package.write(inputs, res, sheets, out, workbook=path.name, scope=scope, index=index,
-                          never=[path], date=date)
+                          never=[path], date=date, stale=stale)
     errors = any(s == "error" for s in res.status) or any(n.level == "error" for n in inputs.notes) or any(
         c["status"] == "error" for c in inputs.columns)
-    return Outcome(inputs, res, idx, scope, pages, 1 if errors else 0)
+    return Outcome(inputs, res, idx, scope, pages, 1 if errors else 0, stale)
 
 
 

@@ -24,23 +24,36 @@ from ..workbook.tables import Table
 CURVE_POINTS = 48
 
 
-def written_values(raw: RawSheet, t: Table, res: Results, us: bool, currency: str) -> list[list[tuple[str, str]]]:
+def written_values(raw: RawSheet, t: Table, res: Results, us: bool,
+                   currency: str) -> tuple[list[list[tuple[str, str]]], list[str]]:
     """Per line: (column header, cell as the sheet shows it) of every result ``fill`` writes
-    (the same edits, so the same numbers and number formats); Notes are printed whole apart."""
+    (the same edits, so the same numbers and number formats; Notes are printed whole apart);
+    and each result the workbook already holds that differs from this calculation."""
     e = lines_edits(raw, t, res, us, currency)
     cols = sorted(c for (r, c) in e.values if r == t.header_row)
     heads = {c: str(e.values[(t.header_row, c)]) for c in cols}
-    out = []
-    for r in t.rows:
+    held = [c for c in cols if (t.header_row, c) not in e.headers and not heads[c].startswith("Notes")]
+    out, stale = [], []
+    for i, r in enumerate(t.rows):
         row = []
         for c in cols:
-            if heads[c].startswith("Notes"):
-                continue
             v = e.values.get((r, c))
-            if v is not None:
+            if v is not None and not heads[c].startswith("Notes"):
                 row.append((heads[c], cell_text(v, e.number_formats.get((r, c)))))
+            if c in held and _differs(raw.value(r, c), v):
+                fmt = e.number_formats.get((r, c))
+                stale.append(f"{res.tags[i] or f'row {r + 1}'} {heads[c]}: {cell_text(raw.value(r, c), fmt) or 'blank'} "
+                             f"in the workbook, {cell_text(v, fmt) or 'blank'} here")
         out.append(row)
-    return out
+    return out, stale
+
+
+def _differs(held, now) -> bool:
+    """Does a result cell the workbook holds differ from the one fill would write now?"""
+    number = (int, float)
+    if isinstance(held, number) and not isinstance(held, bool) and isinstance(now, number):
+        return abs(held - now) > 1e-5 + 1e-7 * abs(now)  # fill writes values rounded to 6 decimals
+    return (str(held).strip() if held is not None else "") != (str(now).strip() if now is not None else "")
 
 
 def _signed(value: float, kind: str, us: bool) -> str:

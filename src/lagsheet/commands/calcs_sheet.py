@@ -30,10 +30,11 @@ def computed(res: Results, i: int) -> bool:
     return bool(res.lines[i].ok and res.system is not None and np.isfinite(res.values["thickness"][i]))
 
 
-def gather(inputs: Inputs, raw: RawSheet, res: Results, idx: list[int]) -> list[LineSheet]:
-    """One :class:`LineSheet` per line of ``idx``, in that order."""
+def gather(inputs: Inputs, raw: RawSheet, res: Results, idx: list[int]) -> tuple[list[LineSheet], list[str]]:
+    """One :class:`LineSheet` per line of ``idx``, in that order; and the results the workbook
+    holds that differ from this calculation (its inputs changed after it was filled)."""
     us, t = inputs.us_units, inputs.lines
-    written = written_values(raw, t, res, us, str(inputs.settings["currency"]))
+    written, stale = written_values(raw, t, res, us, str(inputs.settings["currency"]))
     done = [i for i in idx if computed(res, i)]
     solved = _solved(res, done)
     drawn = charts(inputs, res, done)
@@ -50,7 +51,7 @@ def gather(inputs: Inputs, raw: RawSheet, res: Results, idx: list[int]) -> list[
             _fill(s, inputs, res, i, solved[i], us)
             s.charts, s.chart_note = drawn.get(i, ([], ""))
         sheets.append(s)
-    return sheets
+    return sheets, stale
 
 
 def _inputs(t: Table, raw: RawSheet, i: int) -> list[tuple[str, str, str, str, str]]:

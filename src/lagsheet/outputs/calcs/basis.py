@@ -64,7 +64,8 @@ CODES: tuple[tuple[str, str], ...] = (
 )
 
 
-def title_page(pdf: Document, inputs: Inputs, res: Results, scope: str, sheets: int, version: str) -> None:
+def title_page(pdf: Document, inputs: Inputs, res: Results, scope: str, sheets: int, version: str,
+               stale: list[str]) -> None:
     pdf.new_page("title")
     pdf.ln(18)
     pdf.heading("Insulation calculation package", 0)
@@ -73,6 +74,12 @@ def title_page(pdf: Document, inputs: Inputs, res: Results, scope: str, sheets: 
              f"{'US customary (°F, in, Btu/h)' if inputs.us_units else 'SI (°C, mm, W)'}", 9)
     pdf.para(f"Date: {pdf.date}. Prepared with lagsheet {version}.", 9)
     pdf.para(f"Calculation sheets: {sheets} ({scope}).", 9)
+    if stale:
+        pdf.ln(2)
+        pdf.para(f"Attention: {len(stale)} result(s) held in the workbook differ from this calculation (were "
+                 "its inputs changed after it was filled?); this package shows the calculation from the "
+                 "inputs as they are now; fill the workbook again. First: " + "; ".join(stale[:3]) + ".",
+                 9, bold=True)
     pdf.heading("Approval", 2)
     pdf.table(["", "Name", "Signature", "Date"], [["Prepared by", "", "", ""], ["Checked by", "", "", ""],
                                                   ["Approved by", "", "", ""]], [1.4, 2.4, 2.4, 1.4],

@@ -19,10 +19,11 @@ from .tables import results_by_area, sheet_index, summary_pages
 
 
 def build(inputs: Inputs, res: Results, sheets: list[LineSheet], *, workbook: str, scope: str,
-          date: _dt.date, index: list[tuple[str, str, str, str]]) -> Document:
-    """The whole document in memory; ``index`` is (tag, area, governing, status) per sheet."""
+          date: _dt.date, index: list[tuple[str, str, str, str]], stale: list[str] = ()) -> Document:
+    """The whole document in memory; ``index`` is (tag, area, governing, status) per sheet;
+    ``stale`` the workbook's results that differ from this calculation (said on the title page)."""
     pdf = Document(workbook, date.isoformat())
-    title_page(pdf, inputs, res, scope, len(sheets), __version__)
+    title_page(pdf, inputs, res, scope, len(sheets), __version__, list(stale))
     design_basis(pdf, inputs, res, summary(inputs, res, date))
     summary_pages(pdf, summary(inputs, res, date), quantities_table(inputs, res))
     results_by_area(pdf, inputs, res)
@@ -35,11 +36,13 @@ def build(inputs: Inputs, res: Results, sheets: list[LineSheet], *, workbook: st
 
 
 def write(inputs: Inputs, res: Results, sheets: list[LineSheet], out: Path, *, workbook: str, scope: str,
-          index: list[tuple[str, str, str, str]], never=(), date: _dt.date | None = None) -> int:
+          index: list[tuple[str, str, str, str]], never=(), date: _dt.date | None = None,
+          stale: list[str] = ()) -> int:
     """Write the package to ``out`` (never onto one of ``never``); returns its number of pages."""
     from ...io.save import atomic_write
 
-    pdf = build(inputs, res, sheets, workbook=workbook, scope=scope, date=date or _dt.date.today(), index=index)
+    pdf = build(inputs, res, sheets, workbook=workbook, scope=scope, date=date or _dt.date.today(), index=index,
+                stale=stale)
 
     def write_pdf(tmp: str) -> None:
         pdf.output(tmp)
