@@ -104,11 +104,11 @@ def _fill(s: LineSheet, inputs: Inputs, res: Results, i: int, x: SimpleNamespace
 def _condition(L, cond, us: bool) -> list[tuple[str, str]]:
     rows = [("Shape", f"{L.word} ({GEOMETRY[L.geometry]})"),
             ("Condition of record", f"'{cond.name}': air {show(cond.t_air, 'temperature', us)}, surroundings "
-             f"{show(cond.t_surroundings, 'temperature', us)}, wind {cond.wind:g} m/s, relative humidity "
+             f"{show(cond.t_surroundings, 'temperature', us)}, wind {_wind(cond.wind, us)}, relative humidity "
              f"{cond.rh * 100:.0f} %, {cond.hours:g} h/yr")]
     for c in L.conditions[1:]:
         rows.append(("Targets also judged at", f"'{c.name}': air {show(c.t_air, 'temperature', us)}, wind "
-                     f"{c.wind:g} m/s, relative humidity {c.rh * 100:.0f} %"))
+                     f"{_wind(c.wind, us)}, relative humidity {c.rh * 100:.0f} %"))
     size = f"operating {show(L.t_op, 'temperature', us)}"
     if L.geometry != FLAT:
         size += f"; bare outside diameter {show(2 * L.r_inner, 'radius', us)}"
@@ -118,6 +118,10 @@ def _condition(L, cond, us: bool) -> list[tuple[str, str]]:
         size += f"; area {_area(L.area, us)}"
     rows.append(("Line", size))
     return rows
+
+
+def _wind(v: float, us: bool) -> str:
+    return f"{v / 0.44704:.1f} mph" if us else f"{v:g} m/s"  # 1 mph = 0.44704 m/s exactly
 
 
 def _area(a: float, us: bool) -> str:
