@@ -52,17 +52,26 @@ HEAD = ["Tag", "Shape", "Size", "Length [m]", "Operating temperature [°C]", "In
 
 
 def test_fill_on_ods_adds_results_and_keeps_everything_else(tmp_path, cli):
-    """Results land right of the last column; other members are byte-identical; mimetype stays first and stored."""
+    """Results land right of the last column; other members are byte-identical (the manifest gains the
+    Summary's chart object, added after them); mimetype stays first and stored."""
     src = make_ods(tmp_path / "in.ods", [HEAD, ["P-1", "pipe", "NPS 4", 10, 200, "mineral wool", 55],
                                          ["P-2", "pipe", "NPS 2", 5, 120, "unobtainium", 55]])
     r = cli("fill", src, "-o", tmp_path / "out.ods", "--report", tmp_path / "r.json")
     assert r.exit_code == 1, r.output
     with zipfile.ZipFile(src) as a, zipfile.ZipFile(tmp_path / "out.ods") as b:
-        assert [i.filename for i in a.infolist()] == [i.filename for i in b.infolist()]
+        names = [i.filename for i in b.infolist()]
+        assert names[:len(a.namelist())] == a.namelist()
+        assert names[len(a.namelist()):] == ["lagsheet chart 1/content.xml", "lagsheet chart 1/styles.xml"]
         assert b.infolist()[0].filename == "mimetype" and b.infolist()[0].compress_type == zipfile.ZIP_STORED
         for name in a.namelist():
-            if name != "content.xml":
+            if name not in ("content.xml", "META-INF/manifest.xml"):
                 assert a.read(name) == b.read(name), name
+        manifest_in, manifest_out = a.read("META-INF/manifest.xml").decode(), b.read("META-INF/manifest.xml").decode()
+        assert manifest_out.replace(
+            ' <manifest:file-entry manifest:full-path="lagsheet chart 1/content.xml" manifest:media-type="text/xml"/>\n'
+            ' <manifest:file-entry manifest:full-path="lagsheet chart 1/styles.xml" manifest:media-type="text/xml"/>\n'
+            ' <manifest:file-entry manifest:full-path="lagsheet chart 1/" manifest:version="1.3" '
+            'manifest:media-type="application/vnd.oasis.opendocument.chart"/>\n', "") == manifest_in
         content = b.read("content.xml").decode()
     grid = python_calamine.CalamineWorkbook.from_path(str(tmp_path / "out.ods")).get_sheet_by_name("Lines").to_python()
     assert grid[0][:7] == HEAD and grid[0][7] == "Thickness [mm]" and grid[0][21] == "Notes"

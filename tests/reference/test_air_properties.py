@@ -25,14 +25,15 @@ def _coolprop(t):
 
 
 @pytest.mark.parametrize("t", BETWEEN_KNOTS)
-def test_air_within_half_percent_of_coolprop(t):
-    """Conductivity, viscosities and Prandtl number lie within 0.5 % of CoolProp between knots."""
+def test_air_within_1e4_of_coolprop(t):
+    """Conductivity, viscosities and Prandtl number lie within 1e-4 of CoolProp between knots (measured 3.3e-5
+    at most, the Prandtl number; 4.7e-6 for k)."""
     k, nu, pr, _, mu = _coolprop(t)  # CoolProp PropsSI 'L', 'V', 'D', 'C' for Air at 101325 Pa
     a = air(np.array([t]))
-    assert a.k[0] == pytest.approx(k, rel=5e-3)
-    assert a.mu[0] == pytest.approx(mu, rel=5e-3)
-    assert a.nu[0] == pytest.approx(nu, rel=5e-3)
-    assert a.pr[0] == pytest.approx(pr, rel=5e-3)
+    assert a.k[0] == pytest.approx(k, rel=1e-4)
+    assert a.mu[0] == pytest.approx(mu, rel=1e-4)
+    assert a.nu[0] == pytest.approx(nu, rel=1e-4)
+    assert a.pr[0] == pytest.approx(pr, rel=1e-4)
 
 
 @pytest.mark.parametrize("t", [200.0, 300.0, 1000.0])
@@ -130,14 +131,16 @@ def test_dew_point_equals_coolprop():
 
 @pytest.mark.parametrize("t_c", AIR_C)
 def test_dew_point_within_magnus_accuracy(t_c):
-    """dew_point lies within 0.35 K of the Alduchov-Eskridge Magnus forms over -20...50 degC."""
+    """dew_point lies within 0.1 K of the Alduchov-Eskridge Magnus forms over -20...50 degC (measured 0.038 K
+    at most)."""
     for rh in RH:
         got = float(dew_point(t_c + 273.15, rh)[0]) - 273.15
-        assert got == pytest.approx(_magnus_dew_point(t_c, rh), abs=0.35), (t_c, rh)
+        assert got == pytest.approx(_magnus_dew_point(t_c, rh), abs=0.1), (t_c, rh)
 
 
 def test_dew_point_matches_magnus_over_water_when_above_freezing():
-    """Where the dew point is above 0 degC the Magnus form over water alone agrees within 0.35 K."""
+    """Where the dew point is above 0 degC the Magnus form over water alone agrees within 0.1 K (measured
+    0.038 K at most)."""
     checked = 0
     for t_c in AIR_C:
         for rh in RH:
@@ -146,7 +149,7 @@ def test_dew_point_matches_magnus_over_water_when_above_freezing():
                 continue
             checked += 1
             got = float(dew_point(t_c + 273.15, rh)[0]) - 273.15
-            assert got == pytest.approx(td, abs=0.35), (t_c, rh)
+            assert got == pytest.approx(td, abs=0.1), (t_c, rh)
     assert checked >= 25
 
 

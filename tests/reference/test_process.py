@@ -353,17 +353,17 @@ def test_cooling_with_u_varying_equals_the_closed_form(kind):
 def test_cooling_with_the_engine_matches_scipy_and_conserves_energy():
     """A bare NPS 1 line (33.4 mm, ASME B36.10M) in still air at −10 °C, U′(θ) from the engine
     (free convection and radiation, varying strongly with θ): the time to 0 °C equals
-    solve_ivp's (event at 0 °C) to 0.1 %, and the heat lost ∫U′(θ)(θ − θ_a) dt over the
-    cool-down equals C (θ_i − θ_f) to 0.5 %."""
+    solve_ivp's (event at 0 °C) to 3e-6, and the heat lost ∫U′(θ)(θ − θ_a) dt over the
+    cool-down equals C (θ_i − θ_f) to 2e-6 (measured 3.0e-7 and 3.9e-7)."""
     cap = 1.5e3  # J/(m K): about 0.6 kg/m of water and 1.2 kg/m of steel (illustrative)
     one = lines(1, od_mm=33.4, thickness=0.0, wind=0.0)
     u1 = loss_coefficient(one, TABLE)
     ti, tf, ta = C0 + 70.0, C0, one.t_air[0]
     got = cooling_time(np.array([ti]), tf, ta, cap, u1)[0]
-    assert got == pytest.approx(ivp_time(ti, tf, ta, cap, scalar(u1)), rel=1e-3)
+    assert got == pytest.approx(ivp_time(ti, tf, ta, cap, scalar(u1)), rel=3e-6)
     temps = np.linspace(ti, tf, 81)
     many = loss_coefficient(per_line(one, np.zeros(len(temps), dtype=np.intp)), TABLE)
-    assert heat_lost_over(temps, ta, cap, many) == pytest.approx(cap * (ti - tf), rel=5e-3)
+    assert heat_lost_over(temps, ta, cap, many) == pytest.approx(cap * (ti - tf), rel=2e-6)
     assert u1(np.array([ti]))[0] > 1.3 * u1(np.array([tf]))[0]  # U′ falls as it cools
 
 
@@ -405,9 +405,10 @@ def test_freeze_time_with_constant_u_equals_the_closed_forms():
         mass, cap_w = _water_capacity(t_op[i], vol)
         cap = cap_w + wall_m * wall_c
         assert got.cooling[i] == pytest.approx(cap / u * np.log((t_op[i] - ta[i]) / (C0 - ta[i])),
-                                               rel=1e-3)
+                                               rel=1e-9)  # measured 2.2e-16
+        # 333.6 kJ/kg rounded (from memory) against the tool's 333.55: 1.5e-4 measured
         assert got.freezing[i] == pytest.approx(0.25 * mass * 333.6e3 / (u * (C0 - ta[i])),
-                                                rel=1e-3)
+                                                rel=5e-4)
     np.testing.assert_allclose(got.total, got.cooling + got.freezing, rtol=1e-12)
     whole = freeze_time(t_op[2], ta[2], lambda t: np.full(t.shape, u), vol, wall_m, wall_c,
                         fraction=1.0)
@@ -419,7 +420,8 @@ def test_freezing_takes_the_coefficient_at_zero_celsius():
     ta, a, b, vol = C0 - 20.0, 0.2, 0.01, 1e-3
     got = freeze_time(C0 + 40, ta, lambda t: a + b * (t - ta), vol)
     mass = PropsSI("D", "T", C0 + 20, "P", P, "Water") * vol  # CoolProp at the mean 20 °C
-    assert got.freezing == pytest.approx(0.25 * mass * 333.6e3 / ((a + b * 20.0) * 20.0), rel=1e-3)
+    # 333.6 kJ/kg rounded (from memory) against the tool's 333.55: 1.5e-4 measured
+    assert got.freezing == pytest.approx(0.25 * mass * 333.6e3 / ((a + b * 20.0) * 20.0), rel=5e-4)
 
 
 def test_freeze_cooldown_conserves_the_contents_enthalpy():
@@ -427,7 +429,7 @@ def test_freeze_cooldown_conserves_the_contents_enthalpy():
     cool-down equals cooling_time with C from CoolProp (ρ V c_p at the mean) + wall, and the
     heat lost over it ∫U′(θ)(θ − θ_a) dt equals the contents' enthalpy change
     m (h(θ_i) − h(0 °C)) (CoolProp 'H'; 273.16 K, the triple point, for 0 °C) + wall
-    m c Δθ to 0.5 %."""
+    m c Δθ to 2e-3 (measured: cool-down 1.5e-7, enthalpy 6.9e-4, ρ c_p held at the mean)."""
     one = lines(1, od_mm=33.4, thickness=0.0, wind=2.0, t_air=C0 - 15)
     u1 = loss_coefficient(one, TABLE)
     t_op, ta = C0 + 45.0, one.t_air[0]
@@ -435,13 +437,13 @@ def test_freeze_cooldown_conserves_the_contents_enthalpy():
     got = freeze_time(np.array([t_op]), ta, u1, vol, wall_m, wall_c)
     mass, cap_w = _water_capacity(t_op, vol)
     cap = cap_w + wall_m * wall_c
-    assert got.cooling[0] == pytest.approx(ivp_time(t_op, C0, ta, cap, scalar(u1)), rel=1e-3)
+    assert got.cooling[0] == pytest.approx(ivp_time(t_op, C0, ta, cap, scalar(u1)), rel=1e-6)
     temps = np.linspace(t_op, C0, 61)
     many = loss_coefficient(per_line(one, np.zeros(len(temps), dtype=np.intp)), TABLE)
     enthalpy = (mass * (PropsSI("H", "T", t_op, "P", P, "Water")
                         - PropsSI("H", "T", 273.16, "P", P, "Water"))
                 + wall_m * wall_c * (t_op - C0))
-    assert heat_lost_over(temps, ta, cap, many) == pytest.approx(enthalpy, rel=5e-3)
+    assert heat_lost_over(temps, ta, cap, many) == pytest.approx(enthalpy, rel=2e-3)
 
 
 def test_freeze_regimes():
@@ -475,15 +477,15 @@ def test_vessel_with_constant_ua_equals_the_closed_form():
         cap = rho * vol[i] * cp + shell_m[i] * shell_c
         ua = ua_shell[i] + ua_heads[i]
         assert got.time[i] == pytest.approx(cap / ua * np.log((t_op[i] - ta) / (t_lim[i] - ta)),
-                                            rel=1e-3)
+                                            rel=1e-9)  # measured 4.3e-16
         assert got.capacity[i] == pytest.approx(cap, rel=1e-12)
 
 
 def test_vessel_cooldown_with_the_engine_conserves_energy():
     """A 2 m × 4 m water vessel shell with 50 mm of insulation outdoors (UA(θ) from the engine,
     × height for W/K) plus a constant 3 W/K for heads and nozzles: the time equals
-    solve_ivp's to 0.1 %, and the heat lost equals ρ V (h(θ_i) − h(θ_limit)) (CoolProp 'H',
-    ρ at the mean as in the model) + shell m c Δθ to 0.5 %."""
+    solve_ivp's to 1e-6, and the heat lost equals ρ V (h(θ_i) − h(θ_limit)) (CoolProp 'H',
+    ρ at the mean as in the model) + shell m c Δθ to 1e-3 (measured 1.5e-7 and 2.7e-4)."""
     height, vol, shell_m, shell_c = 4.0, np.pi * 1.0**2 * 4.0, 3000.0, 490.0
     shell = lines(1, od_mm=2000.0, thickness=0.05, shape=VESSEL, height=height, t_air=C0 - 5)
     ua_shell = loss_coefficient(shell, TABLE, scale=height)
@@ -492,7 +494,7 @@ def test_vessel_cooldown_with_the_engine_conserves_energy():
                           shell_mass=shell_m, shell_cp=shell_c)
     cap = got.capacity[0]
     assert got.time[0] == pytest.approx(
-        ivp_time(t_op, t_lim, ta, cap, lambda t: scalar(ua_shell)(t) + 3.0), rel=1e-3)
+        ivp_time(t_op, t_lim, ta, cap, lambda t: scalar(ua_shell)(t) + 3.0), rel=1e-6)
     temps = np.linspace(t_op, t_lim, 61)
     many = loss_coefficient(per_line(shell, np.zeros(len(temps), dtype=np.intp)), TABLE,
                             scale=height)
@@ -501,7 +503,7 @@ def test_vessel_cooldown_with_the_engine_conserves_energy():
                              - PropsSI("H", "T", t_lim, "P", P, "Water"))
                 + shell_m * shell_c * (t_op - t_lim))
     lost = heat_lost_over(temps, ta, cap, lambda t: many(t) + 3.0)
-    assert lost == pytest.approx(enthalpy, rel=5e-3)
+    assert lost == pytest.approx(enthalpy, rel=1e-3)
     assert got.time[0] > 24 * 3600  # a well-insulated 12.6 m³ vessel takes days
 
 

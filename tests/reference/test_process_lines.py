@@ -86,7 +86,8 @@ def test_condensate_is_heat_loss_over_latent_heat(tmp_path):
         loss = res.values["heat_loss"][i]
         assert loss > 0
         assert res.values["condensate"][i] == pytest.approx(loss / hfg_cp, rel=1e-9)
-        assert res.values["condensate"][i] == pytest.approx(loss / hfg_if97, rel=2e-3)  # IF97 tables, from memory
+        # IF97 tables, from memory, to 0.1 kJ/kg (2.5e-5 of h_fg): measured 2.2e-5
+        assert res.values["condensate"][i] == pytest.approx(loss / hfg_if97, rel=1e-4)
         assert np.isnan(res.values["outlet_temperature"][i])  # saturated steam keeps its temperature
 
 
@@ -184,7 +185,7 @@ def _bore_nps4_sch40():
 def test_time_to_freeze_equals_an_ode_integration_plus_the_latent_heat(tmp_path):
     """Water in NPS 4 schedule 40 (fluids.piping bore) at 10 °C, winter air: cool to 0 °C by solve_ivp
     with CoolProp ρ c_p of water at each temperature plus the steel wall, then freeze 25 % with
-    h_if = 333.55 kJ/kg; within 0.5 % (the tool takes ρ c_p at the mean temperature)."""
+    h_if = 333.55 kJ/kg; within 1.5e-3 (the tool takes ρ c_p at the mean temperature: 4.1e-4 measured)."""
     res, ix = run(tmp_path, [pipe("F", **{"Operating temperature [°C]": 10, "Condition": "yard; winter",
                                            "Insulation": "cellular glass", "Fluid": "water",
                                            "Freeze protection [h]": 1, "Schedule": "40",
@@ -210,7 +211,7 @@ def test_time_to_freeze_equals_an_ode_integration_plus_the_latent_heat(tmp_path)
     cooling = sol.t_events[0][0]
     rho0 = PropsSI("D", "T", 273.16, "P", 101325, "Water")
     freezing = 0.25 * rho0 * area * H_FUSION / (ua(s, res.table, 273.15, 1.0) * (273.15 - ta))
-    assert res.values["time_to_freeze"][i] == pytest.approx(cooling + freezing, rel=5e-3)
+    assert res.values["time_to_freeze"][i] == pytest.approx(cooling + freezing, rel=1.5e-3)
     assert res.values["governing_condition"][i] == "winter"
 
 
@@ -248,7 +249,8 @@ def test_warm_air_never_freezes(tmp_path):
 
 def test_vessel_time_to_cool_with_its_roof_equals_an_ode_and_conserves_energy(tmp_path):
     """A hot-hold vessel and its linked roof: solve_ivp of C(T) dT/dt = −(UA_shell + UA_roof)(T)(T − T_a)
-    with CoolProp ρ c_p; the heat lost over the cool-down equals m (h(T0) − h(T1)) from PropsSI within 0.5 %."""
+    with CoolProp ρ c_p; the heat lost over the cool-down equals m (h(T0) − h(T1)) from PropsSI within 1e-8
+    (time measured 1.5e-6, heat 1.8e-12)."""
     rows = [
         pipe("T-1", **{"Shape": "vessel", "Size": None, "Outside diameter [mm]": 2000, "Length [m]": 3,
                        "Operating temperature [°C]": 80, "Condition": "winter", "Fluid": "water",
@@ -278,10 +280,10 @@ def test_vessel_time_to_cool_with_its_roof_equals_an_ode_and_conserves_energy(tm
 
     at_limit.terminal = True
     sol = solve_ivp(rhs, (0, 1e8), [353.15, 0.0], events=at_limit, rtol=1e-9, atol=1e-6)
-    assert res.values["time_to_cool"][v] == pytest.approx(sol.t_events[0][0], rel=5e-3)
+    assert res.values["time_to_cool"][v] == pytest.approx(sol.t_events[0][0], rel=1e-5)
     enthalpy = rho_mean * volume * (PropsSI("H", "T", 353.15, "P", 101325, "Water")
                                     - PropsSI("H", "T", 333.15, "P", 101325, "Water"))
-    assert sol.y_events[0][0][1] == pytest.approx(enthalpy, rel=5e-3)
+    assert sol.y_events[0][0][1] == pytest.approx(enthalpy, rel=1e-8)
     # the roof counts: without it the contents take longer
     alone, _ = run(tmp_path, [rows[0]])
     assert alone.values["time_to_cool"][0] > res.values["time_to_cool"][v] * 1.05

@@ -152,15 +152,16 @@ def test_temperatures_stay_within_the_material_points(solved):
 
 
 def test_interface_temperature_matches_the_series_solve(solved):
-    """faces[:, 1] of solve is within 0.5 K of the interface of the hand-built series solve."""
+    """faces[:, 1] of solve is within 0.2 mK of the interface of the hand-built series solve (measured 29 µK)."""
     c, (_, ti, _), sol = solved
     assert bool(sol.converged[0])
-    assert float(sol.faces[0, 1]) == pytest.approx(ti, abs=0.5)
+    assert float(sol.faces[0, 1]) == pytest.approx(ti, abs=2e-4)
 
 
 def test_surface_temperature_and_heat_rate_match_the_series_solve(solved):
-    """The surface temperature is within 0.3 K and the heat rate per length within 1 %."""
+    """The surface temperature is within 0.5 mK and the heat rate per length within 1e-6 (measured 96 µK
+    and 1.6e-7)."""
     c, (ts, _, qp), sol = solved
-    assert float(sol.t_surface[0]) == pytest.approx(ts, abs=0.3)
+    assert float(sol.t_surface[0]) == pytest.approx(ts, abs=5e-4)
     qp_engine = float(sol.q[0]) * 2 * np.pi * float(sol.r_outer[0])
-    assert qp_engine == pytest.approx(qp, rel=0.01)
+    assert qp_engine == pytest.approx(qp, rel=1e-6)

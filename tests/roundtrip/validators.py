@@ -98,7 +98,7 @@ def ods_findings(path: Path) -> set[tuple[str, str, str]]:
     out = set()
     with zipfile.ZipFile(path) as z:
         names = set(z.namelist())
-        for part in ODF_PARTS:
+        for part in ODF_PARTS + _embedded_parts(z):
             if part not in names:
                 if part != "settings.xml":
                     out.add((part, "", "part missing"))
@@ -108,6 +108,21 @@ def ods_findings(path: Path) -> set[tuple[str, str, str]]:
             if not schema.validate(root):
                 out |= {(part, e.path or "", e.message) for e in schema.error_log}
     return out
+
+
+def _embedded_parts(z: zipfile.ZipFile) -> tuple[str, ...]:
+    """The XML parts of the package's embedded OpenDocument sub-documents (a chart object's folder
+    holds its own content.xml and styles.xml), as the manifest lists them."""
+    import re
+
+    if "META-INF/manifest.xml" not in z.namelist():
+        return ()
+    manifest = z.read("META-INF/manifest.xml").decode("utf-8")
+    folders = re.findall(r'full-path="([^"]+/)"[^>]*media-type="application/vnd\.oasis\.opendocument\.', manifest)
+    folders += re.findall(r'media-type="application/vnd\.oasis\.opendocument\.[^"]*"[^>]*full-path="([^"]+/)"',
+                          manifest)
+    return tuple(sorted({f + part for f in folders if f != "/" for part in ("content.xml", "styles.xml")
+                         if f + part in z.namelist()}))
 
 
 def findings(path: Path) -> set[tuple[str, str, str]]:

@@ -25,6 +25,7 @@ from ..physics.surface import CORRELATION_NAMES, linearised_h
 from ..workbook import library
 from ..workbook.display import show
 from ..workbook.inputs import Condition, Inputs
+from ..workbook.results import NUMBERS, WORDS
 from . import economics
 from . import process as limits
 from .lines import Line, resolve_lines
@@ -34,10 +35,6 @@ GOVERNING_ORDER = ("surface temperature", "condensation", "heat loss", "temperat
                    "freeze protection", "hold time", "interface", "minimum")
 PERSONNEL_LIMIT_K = 333.15  # 60 °C, the usual personnel-protection limit (common practice)
 
-RESULT_KEYS = ("thickness", "t_surface", "heat_flux", "heat_loss_per_length", "heat_loss",
-               "bare_heat_loss", "annual_energy", "annual_cost", "annual_saving", "co2",
-               "critical_radius", "dew_point", "installed_cost", "payback", "t_interface",
-               "outlet_temperature", "condensate", "time_to_freeze", "time_to_cool")
 
 
 @dataclass
@@ -58,9 +55,9 @@ class Results:
     target_margin: list[dict] = field(default_factory=list)  # per line: target -> (margin at the chosen, kind)
 
     def __post_init__(self):
-        for key in RESULT_KEYS:
+        for key in NUMBERS:
             self.values.setdefault(key, np.full(self.n, np.nan))
-        for key in ("layers", "governing", "governing_condition"):
+        for key in WORDS:
             self.values.setdefault(key, np.full(self.n, None, dtype=object))
         if not self.notes:
             self.notes = [[] for _ in range(self.n)]
@@ -350,14 +347,14 @@ def _specify(inputs: Inputs) -> Results:
     saving = (bare_bought - bought) * price
     inst = cost[rows, pick]
     values = {
-        "thickness": chosen_th.sum(axis=1), "t_surface": sol.t_surface, "heat_flux": sol.q,
+        "thickness": chosen_th.sum(axis=1), "surface_temperature": sol.t_surface, "heat_flux": sol.q,
         "heat_loss_per_length": np.where(geometry == CYLINDER, rate, np.nan), "heat_loss": loss,
         "bare_heat_loss": bare_loss, "annual_energy": energy, "annual_cost": bought * price,
         "annual_saving": saving, "co2": bought * float(st["emission_factor"]),
         "dew_point": np.where(_dew_matters(lines, prevent, sol.t_surface, dew[first_case], margin)
                               & np.isfinite(dew[first_case]), dew[first_case], np.nan), "installed_cost": inst,
         "payback": np.where(saving > 0, inst / np.where(saving > 0, saving, 1.0), np.nan),
-        "t_interface": np.where(np.sum(chosen_th > 0, axis=1) == 2, sol.faces[:, 1], np.nan),
+        "interface_temperature": np.where(np.sum(chosen_th > 0, axis=1) == 2, sol.faces[:, 1], np.nan),
     }
     for key, arr in values.items():
         v[key][put] = arr[put]
@@ -583,7 +580,7 @@ def _notes(i, L, res, t, th, c, k, start, case_cond, given, meets, sol, loss, ba
     notes = res.notes[i]
     sheet = t.sheet
     v = res.values
-    v["layers"][i] = layers_text(th, L.materials, us, v["t_interface"][i], L.series)
+    v["layers"][i] = layers_text(th, L.materials, us, v["interface_temperature"][i], L.series)
     names = " + ".join(m.name for m in L.materials)
     hot = L.t_op >= L.conditions[0].t_air
     ncase = len(L.conditions)

@@ -1,8 +1,9 @@
 """OpenDocument spreadsheets (.ods), read by calamine and written by patching content.xml.
 
-Only ``content.xml`` changes; every other member of the package (``mimetype`` first
-and stored, styles, settings, manifest, thumbnails, scripts, empty folders) is copied
-unchanged. Inside the Lines table the original elements are kept: a repeated empty
+Only ``content.xml`` changes, and where a sheet of ours has a chart, the manifest gains
+its embedded chart object (as LibreOffice stores one: a sub-document folder); every other
+member of the package (``mimetype`` first and stored, styles, settings, thumbnails,
+scripts, empty folders) is copied unchanged. Inside the Lines table the original elements are kept: a repeated empty
 cell or row that our results fall in is split in place (LibreOffice pads every row to
 column 16,384, so a cell appended after the padding would be discarded), and our
 cells, notes (annotations by 'lagsheet'), column widths and number styles are
@@ -23,6 +24,8 @@ from typing import Any
 from xml.sax.saxutils import escape, quoteattr
 
 from ..errors import WorkbookError
+from .ods_chart import MANIFEST
+from .ods_chart import Objects as _Objects
 from .save import VERIFIERS, atomic_write
 from .table import RawSheet, SheetEdits, calamine_grid, misplaced, post_write_check, sheet_name_for
 from .xmlscan import EMPTY, START, Scanner, XmlScanError, attr, tag_end
@@ -37,7 +40,11 @@ NS = {
     "number": "urn:oasis:names:tc:opendocument:xmlns:datastyle:1.0",
     "fo": "urn:oasis:names:tc:opendocument:xmlns:xsl-fo-compatible:1.0",
     "dc": "http://purl.org/dc/elements/1.1/",
+    "draw": "urn:oasis:names:tc:opendocument:xmlns:drawing:1.0",
+    "svg": "urn:oasis:names:tc:opendocument:xmlns:svg-compatible:1.0",
+    "xlink": "http://www.w3.org/1999/xlink",
 }
+CHART_KEYS = ("draw", "svg", "xlink")  # declared only where a chart is added
 _INVALID_XML = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ufffe\uffff]")
 
 
@@ -119,16 +126,18 @@ class OdsBook:
     def sheet_names(self) -> list[str]:
         return list(self._names)
 
-    def _put_sheet(self, content: str, sheet, styles: _AutoStyles) -> str:
-        """Add a whole sheet of lagsheet's, replacing our earlier one; never a person's."""
+    def _put_sheet(self, content: str, sheet, styles: _AutoStyles, objects: _Objects) -> str:
+        """Add a whole sheet of lagsheet's, replacing our earlier one (and its chart); never a person's."""
         name, ours = sheet_name_for(self, sheet.name)
         if ours:
             a, b = _span(content, name, self.n)
+            objects.drop(content[a:b])
             content = content[:a] + content[b:]
         if name != sheet.name:
             sheet = type(sheet)(**{**sheet.__dict__, "name": name})
+        frame = objects.add(name, sheet.chart, self.n, len(sheet.rows) + 1) if sheet.chart else None
         at = _tables(content, self.n)[-1][2]  # after the last sheet
-        return content[:at] + _new_table(sheet, self.n, styles) + content[at:]
+        return content[:at] + _new_table(sheet, self.n, styles, frame) + content[at:]
 
     def sheet(self, name: str) -> RawSheet:
         if name not in self._raw:
@@ -146,7 +155,9 @@ class OdsBook:
                                 "in LibreOffice and save it again as .ods; nothing was written") from None
 
     def _save(self, edits: list[SheetEdits], out: Path, new_sheets, allow_loss: bool) -> list[str]:
-        content = _declare(self._content, self.n)
+        objects = _Objects(self._zip)
+        charts = objects.possible and any(sheet.chart for sheet in new_sheets)
+        content = _declare(self._content, self.n, CHART_KEYS if charts else ())
         styles = _AutoStyles(content, self.n)
         for e in edits:
             if e.sheet not in self._names:
@@ -156,16 +167,22 @@ class OdsBook:
             content = content[:a] + _TablePatch(content[a:b], e, self.n, styles).run() + content[b:]
             content = _grow_database_ranges(content, e, self.n)
         for sheet in new_sheets:
-            content = self._put_sheet(content, sheet, styles)
+            content = self._put_sheet(content, sheet, styles, objects if charts else _Objects(None))
         content = styles.insert(content)
         data = content.encode("utf-8")
 
         def write(tmp: str) -> None:
             with zipfile.ZipFile(tmp, "w") as dst:
                 for info in self._zip.infolist():
+                    if objects.dropped(info.filename):
+                        continue
                     body = data if info.filename == "content.xml" else self._zip.read(info.filename)
+                    if info.filename == MANIFEST:
+                        body = objects.manifest(body)
                     # a copy: writing fills in sizes, and the input's entries must stay as read
                     dst.writestr(copy.copy(info), body, compress_type=info.compress_type)
+                for path, body in objects.parts.items():
+                    dst.writestr(path, body, compress_type=zipfile.ZIP_DEFLATED)
 
         before = {e.sheet: self.sheet(e.sheet) for e in edits}
         written = {e.sheet: e.values.keys() for e in edits}  # a view: no copy of every position
@@ -175,7 +192,7 @@ class OdsBook:
 
         def verify(tmp: Path) -> None:
             reopened = VERIFIERS[".ods"](tmp)  # calamine reads a whole .ods when it opens it: once
-            losses.extend(post_write_check(tmp, before, written, names, reopened=reopened,
+            losses.extend(post_write_check(tmp, before, written, names, objects.removed, reopened=reopened,
                                            allow_loss=allow_loss))
             for e in edits:  # every cell written sits where it was meant to, on its line's row
                 bad = misplaced(e.values, reopened.get_sheet_by_name(e.sheet))
@@ -188,7 +205,8 @@ class OdsBook:
         return losses
 
 
-def _new_table(sheet, n: _Names, styles: _AutoStyles) -> str:
+def _new_table(sheet, n: _Names, styles: _AutoStyles, frame: str | None = None) -> str:
+    """A sheet of lagsheet's as a table:table; ``frame`` (a chart) is anchored a row below its rows."""
     t, o, tx = n.table, n.office, n.text
     width = max((len(r) for r in sheet.rows), default=1)
     cols = []
@@ -212,6 +230,11 @@ def _new_table(sheet, n: _Names, styles: _AutoStyles) -> str:
                 cells.append(f'<{t}:table-cell{sattr} {o}:value-type="string"><{tx}:p>{_text(str(v))}</{tx}:p>'
                              f"</{t}:table-cell>")
         rows.append(f"<{t}:table-row>{''.join(cells) or f'<{t}:table-cell/>'}</{t}:table-row>")
+    if frame:  # the chart starts a printed page of its own, as in the .xlsx
+        brk = styles.page_break_row()
+        battr = f' {t}:style-name="{brk}"' if brk else ""
+        rows.append(f"<{t}:table-row><{t}:table-cell/></{t}:table-row>"
+                    f"<{t}:table-row{battr}><{t}:table-cell>{frame}</{t}:table-cell></{t}:table-row>")
     return (f'<{t}:table {t}:name={quoteattr(sheet.name)}>' + "".join(cols) + "".join(rows) + f"</{t}:table>")
 
 
@@ -264,13 +287,13 @@ def _col_index_letters(letters: str) -> int:
     return col - 1
 
 
-def _declare(content: str, n: _Names) -> str:
+def _declare(content: str, n: _Names, extra: tuple[str, ...] = ()) -> str:
     """Declare on the root element the namespaces our additions use, where the file lacks them."""
     _, start, end = Scanner(content).root()
     tag = content[start:end]
     taken = set(re.findall(r"xmlns:([\w.-]+)\s*=", tag))
     add = ""
-    for key in ("dc", "style", "number", "fo"):
+    for key in ("dc", "style", "number", "fo", *extra):
         if n.p[key] is None and key not in taken:
             add += f' xmlns:{key}="{NS[key]}"'
             n.p[key] = key
@@ -541,6 +564,17 @@ class _AutoStyles:
                             f'{fo}:break-before="auto" {s}:column-width="{width_chars * 0.075:.3f}in"/></{s}:style>')
             self._col[width_chars] = name
         return self._col[width_chars]
+
+    def page_break_row(self) -> str | None:
+        """A row style that starts a new printed page."""
+        if not self.ok:
+            return None
+        s, fo = self.n.style, self.n.fo
+        name = self._name("lsro")
+        self.new.append(f'<{s}:style {s}:name="{name}" {s}:family="table-row"><{s}:table-row-properties '
+                        f'{s}:row-height="0.178in" {fo}:break-before="page" {s}:use-optimal-row-height="true"/>'
+                        f"</{s}:style>")
+        return name
 
     def insert(self, content: str) -> str:
         if not self.new:

@@ -11,18 +11,9 @@ import numpy as np
 
 from ..design.select import Results
 from ..io.table import RawSheet, SheetEdits, fold
-from ..workbook import fields as schema
+from ..workbook.results import COLUMNS, Result, si_unit
 from ..workbook.tables import Table, split_header
 from ..workbook.units import from_si
-
-_SI_BASE = {"mm": "m", "in": "m", "°C": "K", "°F": "K", "W/m²": "W/m**2", "Btu/(h·ft²)": "W/m**2",
-            "W/m": "W/m", "Btu/(h·ft)": "W/m", "W": "W", "Btu/h": "W", "kWh": "kWh", "MMBtu": "kWh",
-            "kg/yr": "kg/yr", "kg/h": "kg/s", "lb/h": "kg/s", "h": "s"}
-_PINT = {"°C": "degC", "°F": "degF", "W/m²": "W/m**2", "Btu/(h·ft²)": "Btu/(hour*foot**2)",
-         "Btu/(h·ft)": "Btu/hour/foot", "Btu/h": "Btu/hour", "kg/yr": "kg/year", "in": "inch",
-         "kg/h": "kg/hour", "lb/h": "lb/hour", "h": "hour"}
-_RESULT_KEY = {"surface_temperature": "t_surface"}
-
 
 # Characters one spreadsheet cell holds: 32,767 (Excel's published specifications and limits,
 # from memory; counted in UTF-16 code units). A longer text is cut to fit; comments likewise.
@@ -67,10 +58,8 @@ def lines_edits(raw: RawSheet, t: Table, res: Results, us: bool, currency: str) 
         if isinstance(text, str) and text.strip():
             existing.setdefault(fold(split_header(text)[0]), col)
     next_col = max(t.last_col, 1)
-    for out in schema.OUTPUTS:
-        unit = out.us if us else out.si
-        if out.key in ("annual_cost", "annual_saving", "installed_cost"):
-            unit = currency
+    for out in COLUMNS:
+        unit = out.unit(us, currency)
         header = f"{out.header} [{unit}]" if unit else out.header
         col = existing.get(fold(out.header))
         if out.optional and col is None and not _has_values(out, res):
@@ -107,8 +96,8 @@ def lines_edits(raw: RawSheet, t: Table, res: Results, us: bool, currency: str) 
     return e
 
 
-def _has_values(out: schema.Output, res: Results) -> bool:
-    arr = res.values[_RESULT_KEY.get(out.key, out.key)]
+def _has_values(out: Result, res: Results) -> bool:
+    arr = res.values[out.key]
     return bool(np.isfinite(arr).any()) if arr.dtype != object else any(v is not None for v in arr)
 
 
@@ -121,18 +110,14 @@ def _style_source(raw: RawSheet, header_row: int) -> int:
     return 0
 
 
-def _column(out: schema.Output, res: Results, us: bool) -> list:
+def _column(out: Result, res: Results, us: bool) -> list:
     if out.key == "notes":
         return [fit_cell(note_text(ns) or None) for ns in res.notes]
-    key = _RESULT_KEY.get(out.key, out.key)
-    arr = res.values[key]
+    arr = res.values[out.key]
     if arr.dtype == object:
         return [None if v is None else str(v) for v in arr]
-    unit = out.us if us else out.si
-    if unit and unit in _SI_BASE and unit != _SI_BASE[unit]:
-        conv = from_si(np.nan_to_num(arr), _SI_BASE[unit], _PINT.get(unit, unit))
-    else:
-        conv = arr
+    unit, held_in = out.unit(us), si_unit(out)
+    conv = from_si(np.nan_to_num(arr), held_in, unit) if unit and unit != held_in else arr
     out = np.round(np.asarray(conv, dtype=float), 6).tolist()
     for i in np.flatnonzero(~np.isfinite(arr)):
         out[i] = None

@@ -6,25 +6,13 @@ import json
 import math
 from pathlib import Path
 
-import numpy as np
-
 from .. import __version__
 from ..design.select import Results
 from ..workbook.inputs import Inputs
+from ..workbook.results import RESULTS
+from .totals import covered, total
 
-_KEYS = {
-    "thickness": "thickness_m", "layers": "layers", "governing": "governing",
-    "t_surface": "surface_temperature_K", "heat_flux": "heat_flux_W_m2",
-    "heat_loss_per_length": "heat_loss_per_length_W_m", "heat_loss": "heat_loss_W",
-    "bare_heat_loss": "bare_heat_loss_W", "annual_energy": "annual_energy_kWh",
-    "annual_cost": "annual_cost", "annual_saving": "annual_saving",
-    "co2": "co2_kg_per_year", "critical_radius": "critical_radius_m", "dew_point": "dew_point_K",
-}
-# extensions of the contract's results
-_EXTRA = {"governing_condition": "governing_condition", "installed_cost": "installed_cost",
-          "payback": "payback_years", "t_interface": "interface_temperature_K",
-          "outlet_temperature": "outlet_temperature_K", "condensate": "condensate_kg_per_s",
-          "time_to_freeze": "time_to_freeze_s", "time_to_cool": "time_to_cool_s"}
+REPORTED = tuple(r for r in RESULTS if r.json)  # a line's results in the report, in this order
 
 CAUTIONS = (
     "Surface-temperature limits for personnel protection depend on contact time and surface "
@@ -47,22 +35,12 @@ def build(inputs: Inputs, res: Results, input_path: Path, output_path: Path | No
     t = inputs.lines
     lines = []
     for i in range(res.n):
-        names = _KEYS | _EXTRA
-        results = {names[k]: _clean(float(res.values[k][i]) if res.values[k].dtype != object
-                                    else res.values[k][i]) for k in _KEYS | _EXTRA}
+        results = {r.json: _clean(res.values[r.key][i] if r.text else float(res.values[r.key][i]))
+                   for r in REPORTED}
         lines.append({
             "sheet": t.sheet, "row": t.rows[i] + 1, "tag": res.tags[i], "status": res.status[i],
             "results": results, "notes": [n.as_dict() for n in res.notes[i]],
         })
-
-    def total(key):
-        s = 0.0
-        for i in range(res.n):
-            v = float(res.values[key][i])
-            if math.isfinite(v):
-                s += v
-        return s
-
     return {
         "lagsheet": __version__,
         "input": str(input_path),
@@ -75,15 +53,9 @@ def build(inputs: Inputs, res: Results, input_path: Path, output_path: Path | No
             "lines": res.n,
             "errors": sum(s == "error" for s in res.status),
             "warnings": sum(s == "warning" for s in res.status),
-            "heat_loss_W": total("heat_loss"),
-            "bare_heat_loss_W": total("bare_heat_loss"),
-            "annual_cost": total("annual_cost"),
-            "annual_saving": total("annual_saving"),
-            "condensate_kg_per_s": total("condensate"),
+            **{r.json: total(res.values[r.key]) for r in RESULTS if r.total},
             # how many lines each total adds up (fewer than "lines" where some have no value)
-            "lines_in_totals": {name: int(np.isfinite(res.values[key]).sum()) for key, name in (
-                ("heat_loss", "heat_loss_W"), ("bare_heat_loss", "bare_heat_loss_W"),
-                ("annual_cost", "annual_cost"), ("annual_saving", "annual_saving"))},
+            "lines_in_totals": {r.json: covered(res.values[r.key]) for r in RESULTS if r.counted},
         },
         "cautions": list(CAUTIONS),
     }

@@ -22,25 +22,19 @@ from ..workbook.display import show
 from ..workbook.inputs import Inputs
 from ..workbook.units import from_si
 from .report import CAUTIONS
+from .totals import covered, total
 
 # (key, SI unit, US unit) of the quantity columns
 _UNITS = {
     "power": ("kW", "MBtu/h"), "energy": ("MWh", "MMBtu"), "co2": ("t/yr", "t/yr"),
     "length": ("m", "ft"), "area": ("m²", "ft²"), "volume": ("m³", "ft³"),
 }
-_PINT = {"kW": "kW", "MBtu/h": "MBtu/hour", "MWh": "MWh", "MMBtu": "MMBtu", "t/yr": "t/year",
-         "m": "m", "ft": "foot", "m²": "m**2", "ft²": "foot**2", "m³": "m**3", "ft³": "foot**3"}
 _SI = {"power": "W", "energy": "kWh", "co2": "kg/year", "length": "m", "area": "m**2", "volume": "m**3"}
 
 
 def _conv(values, kind: str, us: bool):
     unit = _UNITS[kind][1 if us else 0]
-    return from_si(np.asarray(values, dtype=float), _SI[kind], _PINT[unit])
-
-
-def _fin(x) -> float:
-    x = float(x)
-    return x if math.isfinite(x) else 0.0
+    return from_si(np.asarray(values, dtype=float), _SI[kind], unit)
 
 
 def summary(inputs: Inputs, res: Results, today: _dt.date | None = None) -> SheetTable:
@@ -61,8 +55,6 @@ def summary(inputs: Inputs, res: Results, today: _dt.date | None = None) -> Shee
             f"Bare heat loss [{p}]", f"Annual energy [{e}]", f"Annual cost [{cur}]",
             f"Annual saving [{cur}]", "CO2 [t/yr]", f"Installed cost [{cur}]", "Payback [yr]", "Totals cover"]
     header_row = s.add(head, bold=True)
-    loss = np.nan_to_num(v["heat_loss"])
-    energy = np.nan_to_num(v["annual_energy"])
     fm = {4: "#,##0.0", 5: "#,##0.0", 6: "#,##0.0", 7: "#,##0.0", 8: "#,##0", 9: "#,##0", 10: "#,##0.0",
           11: "#,##0", 12: "0.0"}
     first = None
@@ -70,22 +62,8 @@ def summary(inputs: Inputs, res: Results, today: _dt.date | None = None) -> Shee
     for name, idx in groups:
         idx = np.array(idx, dtype=int)
         st = [res.status[i] for i in idx]
-        gain = loss[idx][loss[idx] < 0].sum()
-        lost = loss[idx][loss[idx] > 0].sum()
-        inst = v["installed_cost"][idx]
-        saving = sum(_fin(v["annual_saving"][i]) for i in idx)
-        installed = float(inst[np.isfinite(inst)].sum()) if np.isfinite(inst).any() else None
-        both = np.isfinite(inst) & np.isfinite(v["annual_saving"][idx])  # payback: lines with both
-        saving_known = float(v["annual_saving"][idx][both].sum()) if both.any() else 0.0
-        payback = float(inst[both].sum()) / saving_known if saving_known > 0 else None
-        r = s.add([name, len(idx), st.count("error"), st.count("warning"),
-                   float(_conv(lost, "power", us)),
-                   float(_conv(-gain, "power", us)),
-                   float(_conv(np.nansum(np.abs(np.nan_to_num(v["bare_heat_loss"][idx]))), "power", us)),
-                   float(_conv(np.abs(energy[idx]).sum(), "energy", us)),
-                   float(sum(_fin(v["annual_cost"][i]) for i in idx)), float(saving),
-                   float(np.nansum(v["co2"][idx])) / 1000, installed, payback,
-                   coverage(v, idx, both)], fm, bold=name == "Total")
+        r = s.add([name, len(idx), st.count("error"), st.count("warning"), *_totals(v, idx, us)], fm,
+                  bold=name == "Total")
         first = r if first is None else first
     s.chart = {"title": f"Heat loss by area, insulated and bare [{p}]", "categories": (0, first, first + len(order) - 1),
                "series": [((header_row, 4), 4, first, first + len(order) - 1),
@@ -117,6 +95,22 @@ def summary(inputs: Inputs, res: Results, today: _dt.date | None = None) -> Shee
     return s
 
 
+def _totals(v: dict, idx: np.ndarray, us: bool) -> list:
+    """A Summary row's totals over lines ``idx``: heat lost, heat gained, bare heat loss, energy (each
+    counted as a positive amount), cost, saving, CO2 [t/yr], installed cost, payback and coverage."""
+    inst = v["installed_cost"][idx]
+    installed = total(inst) if covered(inst) else None
+    both = np.isfinite(inst) & np.isfinite(v["annual_saving"][idx])  # payback: lines with both
+    saving_known = total(v["annual_saving"], idx[both])
+    payback = total(inst[both]) / saving_known if saving_known > 0 else None
+    return [float(_conv(total(v["heat_loss"], idx, sign=1), "power", us)),
+            float(_conv(-total(v["heat_loss"], idx, sign=-1), "power", us)),
+            float(_conv(total(np.abs(v["bare_heat_loss"]), idx), "power", us)),
+            float(_conv(total(np.abs(v["annual_energy"]), idx), "energy", us)),
+            total(v["annual_cost"], idx), total(v["annual_saving"], idx), total(v["co2"], idx) / 1000,
+            installed, payback, coverage(v, idx, both)]
+
+
 # Summary column -> the per-line result it adds up
 COVERED = (("Heat loss", "heat_loss"), ("Heat gain", "heat_loss"), ("Bare heat loss", "bare_heat_loss"),
            ("Annual energy", "annual_energy"), ("Annual cost", "annual_cost"),
@@ -127,7 +121,7 @@ def coverage(values: dict, idx: np.ndarray, payback_lines: np.ndarray) -> str | 
     """Which totals of a Summary row leave lines out, and how many they cover: 'Installed cost,
     Payback: 6 of 10 lines'. None when every total covers every line of the row."""
     n = len(idx)
-    counts = {name: int(np.isfinite(values[key][idx]).sum()) for name, key in COVERED}
+    counts = {name: covered(values[key], idx) for name, key in COVERED}
     counts["Payback"] = int(payback_lines.sum())
     by_count: dict[int, list[str]] = {}
     for name, k in counts.items():
@@ -179,60 +173,17 @@ def quantities_table(inputs: Inputs, res: Results) -> SheetTable:
     """
     us = inputs.us_units
     t = inputs.lines
-    q = res.quantities
     s = SheetTable("Quantities")
     lu, au, vu = _UNITS["length"][us], _UNITS["area"][us], _UNITS["volume"][us]
     s.add(["lagsheet quantities", f"lagsheet {__version__}"], bold=True)
     s.add([])
     s.add(["Material", "Size", "Layers", "Lines", f"Pipe length [{lu}]", f"Surface area [{au}]",
            f"Insulation volume [{vu}]", f"Jacket area [{au}]"], bold=True)
-    if q is None:
+    if res.quantities is None:
         return s
     size_col = t.get("size")
     style = size_style([size_col[i] for i in range(res.n)] if size_col is not None else [], us)
-    groups: dict[tuple, dict] = {}
-    for i, L in enumerate(res.lines):
-        if res.status[i] == "error" or not np.isfinite(res.values["thickness"][i]):
-            continue
-        od = 2 * L.r_inner
-        if L.geometry == FLAT:
-            size, order = L.word, 1e9
-        elif L.geometry == SPHERE or L.word == "vessel":
-            size, order = f"{L.word}, OD {show(od, 'radius', us)}", round(od, 4)
-        else:
-            size, order = size_label(od, style, us)
-        # a line is one line of each material it holds: slots of one material (Insulation and
-        # Outer insulation alike) make one row of that line, their layers shown inner first
-        laid = [j for j in range(len(L.materials)) if res.chosen[i, j] > 0]
-        by_name: dict[str, list[int]] = {}
-        for j in laid:
-            by_name.setdefault(L.materials[j].name, []).append(j)
-        for name, slots in by_name.items():
-            th = float(sum(res.chosen[i, j] for j in slots))
-            g = groups.setdefault((name, order, size, th, _build(res.chosen[i], q.layers[i, 0], slots, us)),
-                                  {"lines": 0, "length": 0.0, "area": 0.0, "volume": 0.0, "jacket": 0.0})
-            g["lines"] += 1
-            if L.geometry == CYLINDER:
-                g["length"] += L.length
-            elif L.geometry == FLAT:
-                g["area"] += L.area
-            elif L.geometry == SPHERE:
-                g["area"] += math.pi * od**2  # the sphere's own surface, to be covered
-            g["volume"] += float(sum(q.volume[i, 0, j] for j in slots))
-            if laid[-1] in slots:  # the jacket goes on the outer material
-                g["jacket"] += float(q.jacket_area[i, 0])
-    fm = {4: "#,##0.0", 5: "#,##0.0", 6: "#,##0.00", 7: "#,##0.0"}
-    by_material: dict[str, list] = {}
-    for key in sorted(groups):  # per material and size, thin to thick
-        by_material.setdefault(key[0], []).append(key)
-    for mat, keys in by_material.items():
-        tot = {"lines": 0, "length": 0.0, "area": 0.0, "volume": 0.0, "jacket": 0.0}
-        for key in keys:
-            g = groups[key]
-            for k in tot:
-                tot[k] += g[k]
-            s.add(_q_row(mat, key[2], key[4], g, us), fm)
-        s.add(_q_row(f"{mat} total", "", "", tot, us), fm, bold=True)
+    _material_rows(s, _groups(res, style, us), us)
     s.add([])
     s.add([{"NPS": "Sizes as NPS, the way most lines of the sheet give them; ",
             "inch": "Sizes in inches, the way most lines of the sheet give them; ",
@@ -242,6 +193,66 @@ def quantities_table(inputs: Inputs, res: Results) -> SheetTable:
            "Pipe length for pipes and risers (a vessel's height), surface area for flats and spheres."])
     s.widths = {0: 26, 1: 14, 2: 22, 3: 8, 4: 16, 5: 16, 6: 18, 7: 16}
     return s
+
+
+def _size_of(L, style: str, us: bool) -> tuple[str, float]:
+    """(label, sort key) of a line's size in the Quantities: flats by their word, vessels and
+    spheres by their outside diameter, pipes in the sheet's own style (:func:`size_label`)."""
+    od = 2 * L.r_inner
+    if L.geometry == FLAT:
+        return L.word, 1e9
+    if L.geometry == SPHERE or L.word == "vessel":
+        return f"{L.word}, OD {show(od, 'radius', us)}", round(od, 4)
+    return size_label(od, style, us)
+
+
+def _groups(res: Results, style: str, us: bool) -> dict[tuple, dict]:
+    """(material, size order, size, thickness, build) -> its lines, length, area, volume and jacket
+    area, over the computed lines. A line is one line of each material it holds: slots of one
+    material (Insulation and Outer insulation alike) make one row, their layers inner first."""
+    q = res.quantities
+    groups: dict[tuple, dict] = {}
+    for i, L in enumerate(res.lines):
+        if res.status[i] == "error" or not np.isfinite(res.values["thickness"][i]):
+            continue
+        size, order = _size_of(L, style, us)
+        laid = [j for j in range(len(L.materials)) if res.chosen[i, j] > 0]
+        by_name: dict[str, list[int]] = {}
+        for j in laid:
+            by_name.setdefault(L.materials[j].name, []).append(j)
+        for name, slots in by_name.items():
+            th = float(sum(res.chosen[i, j] for j in slots))
+            g = groups.setdefault((name, order, size, th, _build(res.chosen[i], q.layers[i, 0], slots, us)),
+                                  {**dict.fromkeys(_AMOUNTS, 0.0), "lines": 0})
+            g["lines"] += 1
+            if L.geometry == CYLINDER:
+                g["length"] += L.length
+            elif L.geometry == FLAT:
+                g["area"] += L.area
+            elif L.geometry == SPHERE:
+                g["area"] += math.pi * (2 * L.r_inner) ** 2  # the sphere's own surface, to be covered
+            g["volume"] += float(sum(q.volume[i, 0, j] for j in slots))
+            if laid[-1] in slots:  # the jacket goes on the outer material
+                g["jacket"] += float(q.jacket_area[i, 0])
+    return groups
+
+
+_AMOUNTS = ("lines", "length", "area", "volume", "jacket")
+
+
+def _material_rows(s: SheetTable, groups: dict[tuple, dict], us: bool) -> None:
+    """One row per material, size and build (thin to thick), then the material's total."""
+    fm = {4: "#,##0.0", 5: "#,##0.0", 6: "#,##0.00", 7: "#,##0.0"}
+    by_material: dict[str, list] = {}
+    for key in sorted(groups):
+        by_material.setdefault(key[0], []).append(key)
+    for mat, keys in by_material.items():
+        tot = {**dict.fromkeys(_AMOUNTS, 0.0), "lines": 0}
+        for key in keys:
+            for k in tot:
+                tot[k] += groups[key][k]
+            s.add(_q_row(mat, key[2], key[4], groups[key], us), fm)
+        s.add(_q_row(f"{mat} total", "", "", tot, us), fm, bold=True)
 
 
 def _build(chosen, layers, slots: list[int], us: bool) -> str:

@@ -41,11 +41,5 @@ def show(value: float, kind: str, us: bool = False) -> str:
 def _linear(kind: str, unit: str) -> tuple[float, float]:
     """Every conversion used here is linear: ask pint once for its scale and offset."""
     diff = kind == "difference"
-    a, b = from_si([0.0, 1.0], _SI_BASE[kind], _text(unit), difference=diff)
+    a, b = from_si([0.0, 1.0], _SI_BASE[kind], unit, difference=diff)
     return float(b - a), float(a)
-
-
-def _text(unit: str) -> str:
-    return {"°C": "degC", "°F": "degF", "K": "K", "W/m²": "W/m**2",
-            "Btu/(h·ft)": "Btu/hour/foot", "Btu/(h·ft²)": "Btu/(hour*foot**2)",
-            "Btu/h": "Btu/hour", "ft": "foot"}.get(unit, unit)

@@ -8,6 +8,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from .results import COLUMNS
+
 TEXT, NUMBER, TEMPERATURE, DIFFERENCE, YESNO = "text", "number", "temperature", "difference", "yes/no"
 
 
@@ -160,42 +162,8 @@ YES = {"yes", "y", "true", "1", "x", "ja", "oui", "si", "sí"}
 NO = {"no", "n", "false", "0", "", "nein", "non"}
 
 
-@dataclass(frozen=True)
-class Output:
-    key: str
-    header: str
-    si: str  # SI unit text ('' for text)
-    us: str  # US customary unit text
-    fmt: str = "0.0"
-    difference: bool = False
-    optional: bool = False  # written only when a line has a value, or the column is already there
-
-
-OUTPUTS = (
-    Output("thickness", "Thickness", "mm", "in", "0.0"),
-    Output("layers", "Layers", "", "", "@"),
-    Output("governing", "Governing", "", "", "@"),
-    Output("surface_temperature", "Surface temperature", "°C", "°F", "0.0"),
-    Output("heat_flux", "Heat flux", "W/m²", "Btu/(h·ft²)", "0.0"),
-    Output("heat_loss_per_length", "Heat loss per length", "W/m", "Btu/(h·ft)", "0.0"),
-    Output("heat_loss", "Heat loss", "W", "Btu/h", "#,##0"),
-    Output("bare_heat_loss", "Bare heat loss", "W", "Btu/h", "#,##0"),
-    Output("annual_energy", "Annual energy", "kWh", "MMBtu", "#,##0"),
-    Output("annual_cost", "Annual cost", "", "", "#,##0"),
-    Output("annual_saving", "Annual saving", "", "", "#,##0"),
-    Output("co2", "CO2", "kg/yr", "kg/yr", "#,##0"),
-    Output("critical_radius", "Critical radius", "mm", "in", "0.0"),
-    Output("dew_point", "Dew point", "°C", "°F", "0.0"),
-    Output("notes", "Notes", "", "", "@"),
-    # extensions of the contract, after its columns
-    Output("governing_condition", "Governing condition", "", "", "@"),
-    Output("installed_cost", "Installed cost", "", "", "#,##0"),
-    Output("payback", "Payback", "yr", "yr", "0.0"),
-    Output("outlet_temperature", "Outlet temperature", "°C", "°F", "0.0", optional=True),
-    Output("condensate", "Condensate", "kg/h", "lb/h", "0.00", optional=True),
-    Output("time_to_freeze", "Time to freeze", "h", "h", "0.0", optional=True),
-    Output("time_to_cool", "Time to cool", "h", "h", "0.0", optional=True),
-)
+# the Lines columns fill writes: the registry's entries that have a column
+OUTPUTS = COLUMNS
 
 
 def match(fields, name: str):
