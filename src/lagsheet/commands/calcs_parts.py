@@ -83,7 +83,7 @@ def _limit_and_value(name: str, inputs: Inputs, res: Results, i: int, m: float, 
         if len(L.conditions) > 1:
             return limit, "at the worst named condition: see the margin"
         c = L.conditions[0]
-        ts = float(res.values["surface_temperature" if "surface_temperature" in res.values else "t_surface"][i])
+        ts = float(res.values["surface_temperature"][i])
         return limit, (f"surface {show(ts, 'temperature', us)}; dew point "
                        f"{show(float(dew_point(c.t_air, c.rh)[0]), 'temperature', us)}")
     if name == "temperature drop":

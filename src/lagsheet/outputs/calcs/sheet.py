@@ -130,7 +130,8 @@ def _results_and_notes(pdf: Document, s: LineSheet) -> None:
     if s.notes:
         pdf.table(["Level", "Note"], s.notes, [0.8, 6.0], wrap=(1,))
     else:
-        pdf.para("None on this line. The general cautions of the design basis apply.", SMALL)
+        pdf.para("None on this line.", SMALL)
+    pdf.para("The general cautions on page 1 apply to every line.", SMALL)
 
 
 def _charts(pdf: Document, s: LineSheet) -> None:

@@ -11,6 +11,7 @@ from ...io.table import NewSheet
 from ...physics.layers import CYLINDER, FLAT
 from ...workbook.display import show
 from ...workbook.inputs import Inputs
+from ...workbook.results import BY_KEY
 from .basis import cell_text, sheet_blocks
 from .document import SMALL, Document
 
@@ -52,9 +53,12 @@ def results_by_area(pdf: Document, inputs: Inputs, res: Results) -> None:
     pdf.new_page("results by area", landscape=True)
     pdf.start_section("4 Results by area")
     pdf.heading("4 Results by area", 1)
-    loss_unit = "Btu/h" if us else "W"
-    head = ["Tag", "Shape", "Size", "Operating", "Layers", "Governing", "Surface",
-            "Heat loss per length", f"Heat loss [{loss_unit}]", "Status"]
+    def named(key: str) -> str:  # the workbook's column header and unit, from the registry of results
+        r = BY_KEY[key]
+        return f"{r.header} [{r.unit(us)}]"
+
+    head = ["Tag", "Shape", "Size", "Operating", "Layers", "Governing", named("surface_temperature"),
+            named("heat_loss_per_length"), named("heat_loss"), "Status"]
     for name in dict.fromkeys(names):
         rows = []
         for i in (k for k in range(res.n) if names[k] == name):
@@ -67,13 +71,17 @@ def results_by_area(pdf: Document, inputs: Inputs, res: Results) -> None:
                           else ""),
                          show(L.t_op, "temperature", us) if np.isfinite(L.t_op) else "",
                          v["layers"][i] or "", v["governing"][i] or "",
-                         show(float(v["surface_temperature" if "surface_temperature" in v else "t_surface"][i]),
-                              "temperature", us),
-                         per if per != "n/a" else "", loss.rsplit(" ", 1)[0] if loss != "n/a" else "",
+                         _number(show(float(v["surface_temperature"][i]), "temperature", us)),
+                         _number(per), _number(loss),
                          res.status[i]])
         pdf.heading(f"Area: {name} ({len(rows)} lines)", 2)
         pdf.table(head, rows, [1.3, 0.8, 0.9, 0.9, 3.6, 1.5, 0.9, 1.1, 1.0, 0.8], "LLLRLLRRRL",
                   wrap=(4, 5), size=6.6)
+
+
+def _number(text: str) -> str:
+    """'53.2 °C' -> '53.2' (the unit is in the column's header); 'n/a' and '' -> ''."""
+    return "" if text in ("n/a", "") else text.rsplit(" ", 1)[0]
 
 
 def sheet_index(pdf: Document, entries: list[tuple[str, str, str, str, int]]) -> None:
