@@ -137,13 +137,13 @@ def test_each_sheet_holds_its_tag_inputs_and_the_values_of_the_filled_workbook(d
     sheets = sheets_by_tag(texts)
     book = workbook_results(filled)
     assert set(sheets) == set(book)
+    ws = openpyxl.load_workbook(filled)["Lines"]
     for tag, cells in book.items():
         text = re.sub(r"[ \t]+", " ", sheets[tag])
         assert f"Calculation sheet: {tag}" in text
         for header in ("Thickness [mm]", "Surface temperature [°C]", "Heat loss [W]", "Layers", "Governing"):
             if header in cells:
                 assert f"{header} {cells[header]}" in text, (tag, header, cells[header])
-        ws = openpyxl.load_workbook(filled)["Lines"]
         row = next(r for r in ws.iter_rows() if r[0].value == tag)
         for c in row[:24]:
             if c.value not in (None, "") and c.column_letter + str(c.row) not in text:
