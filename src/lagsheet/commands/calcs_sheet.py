@@ -19,6 +19,7 @@ from ..physics.surface import CORRELATION_NAMES
 from ..workbook.display import show
 from ..workbook.inputs import Inputs
 from ..workbook.tables import Table
+from ..workbook.units import from_si
 from .calcs_parts import charts, chosen_rows, process_rows, target_rows, written_values
 from .explain import convection_lengths
 
@@ -93,7 +94,7 @@ def _fill(s: LineSheet, inputs: Inputs, res: Results, i: int, x: SimpleNamespace
         if th > 0:
             s.layers.append((f"layer {len(s.layers)}", res.table.names[int(s1.material[j, slot])],
                              show(th, "thickness", us), show(faces[slot], "temperature", us),
-                             show(faces[slot + 1], "temperature", us), f"{x.k[j, slot]:.4f}"))
+                             show(faces[slot + 1], "temperature", us), _k(float(x.k[j, slot]), us)))
     s.surface = _surface(L, s1, sol, j, cond, res.values["critical_radius"][i], us)
     s.balance = _balance(L, s1, sol, j, res, i, us)
     s.targets = target_rows(inputs, res, i, us)
@@ -118,6 +119,20 @@ def _condition(L, cond, us: bool) -> list[tuple[str, str]]:
         size += f"; area {_area(L.area, us)}"
     rows.append(("Line", size))
     return rows
+
+
+def _k(k: float, us: bool) -> str:
+    """A conductivity in W/(m·K), and on a US sheet in Btu·in/(h·ft²·°F) beside it."""
+    if not us:
+        return f"{k:.4f}"
+    return f"{k:.4f} ({float(from_si([k], 'W/(m*K)', 'Btu*inch/(hour*foot**2*delta_degF)')[0]):.3f})"
+
+
+def _h(h: float, us: bool) -> str:
+    """A surface coefficient in W/(m²·K), and on a US sheet in Btu/(h·ft²·°F) beside it."""
+    if not us:
+        return f"{h:.3f} W/(m²·K)"
+    return f"{h:.3f} W/(m²·K) ({float(from_si([h], 'W/(m**2*K)', 'Btu/(hour*foot**2*delta_degF)')[0]):.3f} Btu/(h·ft²·°F))"
 
 
 def _wind(v: float, us: bool) -> str:
@@ -150,14 +165,14 @@ def _surface(L, s1, sol, j: int, cond, r_crit: float, us: bool) -> list[tuple[st
              f"Nu = {float(conv.nu_forced[j]) * lg / lh:.4g}" if conv.re[j] > 0 else f"{forced}: no wind (Re = 0)"),
             ("Combined", f"Churchill-Usagi, n = 3, on the {length(hw, lh)}: Nu = {nu:.4g}; Pr = {conv.pr[j]:.4f}; "
              f"k_air = {k_air:.5f} W/(m·K)"),
-            ("Convection coefficient", f"h_conv = Nu k_air / L = {h_c:.3f} W/(m²·K)"),
+            ("Convection coefficient", f"h_conv = Nu k_air / L = {_h(h_c, us)}"),
             ("Radiation", f"emissivity {float(s1.emissivity[j]):.2f}; q_rad = ε σ (Ts⁴ − Tsur⁴) = "
-             f"{float(sol.q_radiation[j]):.3f} W/m²; h_rad (linearised) = {float(sol.h_radiation[j]):.3f} W/(m²·K)"),
+             f"{float(sol.q_radiation[j]):.3f} W/m²; h_rad (linearised) = {_h(float(sol.h_radiation[j]), us)}"),
             ("Outer heat flux", f"q = {float(sol.q[j]):.4f} W/m² through the insulation")]
     if np.isfinite(r_crit):
         rule = "2k/h" if L.geometry == SPHERE else "k/h"
         rows.append(("Critical radius", f"{show(r_crit, 'radius', us)} ({rule}, k of the outer layer, "
-                     f"h = h_conv + h_rad = {h_c + float(sol.h_radiation[j]):.3f} W/(m²·K))"))
+                     f"h = h_conv + h_rad = {_h(h_c + float(sol.h_radiation[j]), us)})"))
     return rows
 
 

@@ -78,7 +78,7 @@ def _body(pdf: Document, s: LineSheet, us: bool, section: str | None) -> None:
     pdf.heading("Condition of record and construction", 2)
     pdf.pairs(s.condition)
     pdf.table(["Layer, inner first", "Material", "Thickness", "Inner face", "Outer face",
-               "k, integral mean [W/(m·K)]"], s.layers, [1.6, 2.4, 1.2, 1.3, 1.3, 1.9], "LLRRRR")
+               "k, integral mean [W/(m·K)]" + (" (Btu·in/(h·ft²·°F))" if us else "")], s.layers, [1.6, 2.4, 1.2, 1.3, 1.3, 1.9], "LLRRRR")
     pdf.heading("Outer surface: correlations used", 2)
     pdf.pairs(s.surface)
     _balance(pdf, s.balance, us)
