@@ -206,10 +206,9 @@ def charts(inputs: Inputs, res: Results, idx: list[int]) -> dict[int, tuple[list
         s = Chart(xlabel, f"surface temperature [{t_unit}]", [Series(x, temps, "surface temperature", BLUE, True)])
         per_area = qmax is not None and t.columns["max_heat_loss"].si_of(i) == "W/m**2"
         if qmax is not None and np.isfinite(qmax[i]) and per_area == (L.geometry == FLAT) and kind != "power":
-            q.hlines.append((in_units(float(qmax[i]) * (1 if hot else -1), kind, us), "max heat loss", GREEN))
+            q.hlines.append((in_units(float(qmax[i]) * (1 if hot else -1), kind, us), "limit", GREEN))
         if tmax is not None and np.isfinite(tmax[i]):
-            s.hlines.append((float(show(float(tmax[i]), "temperature", us).split()[0]), "max surface temperature",
-                             GREEN))
+            s.hlines.append((float(show(float(tmax[i]), "temperature", us).split()[0]), "limit", GREEN))
         chosen = float(np.nansum(res.chosen[i]))
         for c in (q, s):
             c.vlines.append((chosen / 0.0254 if us else chosen * 1000, "thickness chosen", BLACK))

@@ -167,7 +167,7 @@ class Document(FPDF):
         for j in wrap:
             if j < len(row) and row[j] not in (None, ""):
                 text = self.text_of(row[j])
-                if self.get_string_width(text) > w[j] - 1.2:
+                if "\n" in text or self.get_string_width(text) > w[j] - 1.2:
                     lines = max(lines, len(self.wrap(text, w[j] - 1.2)))
         return lines * LINE + 0.6
 
@@ -181,11 +181,11 @@ class Document(FPDF):
         x = x0
         for j, width in enumerate(w):
             text = self.text_of(row[j] if j < len(row) else "")
-            if not text:
+            if not text.strip():
                 x += width
                 continue
             self.set_xy(x, y0 + 0.3)
-            if j in wrap and self.get_string_width(text) > width - 1.2:
+            if j in wrap and ("\n" in text or self.get_string_width(text) > width - 1.2):
                 for k, line in enumerate(self.wrap(text, width - 1.2)):
                     self.set_xy(x, y0 + 0.3 + k * LINE)
                     self.cell(width, LINE, line)

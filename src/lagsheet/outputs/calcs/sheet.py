@@ -95,6 +95,15 @@ def _body(pdf: Document, s: LineSheet, us: bool, section: str | None) -> None:
         pdf.pairs(s.process)
     _results_and_notes(pdf, s)
     _charts(pdf, s)
+    _checked(pdf)
+
+
+def _checked(pdf: Document) -> None:
+    """The checker's initials and date at the end of each sheet."""
+    pdf.need(12)
+    pdf.ln(3)
+    pdf.table(["Sheet checked by", "Initials", "Date", "Remarks"], [["", "", "", "\n\n"]], [1.6, 1.2, 1.2, 4.0],
+              wrap=(3,), size=8)
 
 
 def _balance(pdf: Document, b: Balance, us: bool) -> None:
