@@ -16,7 +16,7 @@ from ...workbook import library
 from ...workbook.display import show
 from ...workbook.inputs import Inputs
 from ...workbook.units import from_si
-from ..report import CAUTIONS
+from ..cautions import CAUTIONS
 from . import chart as charts
 from .document import SMALL, Document
 
