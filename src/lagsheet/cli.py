@@ -368,6 +368,38 @@ def audit(
     raise typer.Exit(1 if result.findings else 0)
 
 
+@app.command(help="Write the calculation package of FILE (a filled workbook, or any schedule: it is sized "
+                  "as fill sizes it) to OUT.pdf: the design basis, the Summary and Quantities, the results "
+                  "by area and one calculation sheet per chosen line. By default the lines with warnings or "
+                  "errors and the first line governed by each target; --tags, --area or --all choose others.\n\n"
+                  + CAUTION)
+def calcs(
+    file: Path = typer.Argument(..., exists=True, dir_okay=False, help="The workbook (.xlsx/.xlsm/.ods)."),
+    output: Path = typer.Option(None, "-o", "--output", dir_okay=False, help="Where to write the package (.pdf)."),
+    tags: list[str] = typer.Option([], "--tags", help="Tags of the lines to give a sheet, separated by commas "
+                                                      "(repeatable)."),
+    area: list[str] = typer.Option([], "--area", help="Give a sheet to every line of this Area (repeatable)."),
+    every: bool = typer.Option(False, "--all", help="Give every line a sheet."),
+    sheet: str = typer.Option("Lines", "--sheet", help="The sheet holding the lines."),
+    quiet: bool = typer.Option(False, "--quiet", "-q", help="Print errors only."),
+):
+    from .commands.calcs import calcs as run
+
+    _refuse_unsafe(file, (output, "calculation package"))
+    with _progress(quiet) as stage:
+        stage("reading, sizing and writing")
+        outcome = _guarded(lambda: run(file, output, sheet=sheet, tags=tags, areas=area, every=every))
+    for text in outcome.stale[:5]:
+        typer.echo(f"warning: {text} (the package shows the calculation; fill the workbook again)", err=True)
+    if len(outcome.stale) > 5:
+        typer.echo(f"warning: {len(outcome.stale) - 5} more results of the workbook differ", err=True)
+    if not quiet:
+        n = len(outcome.chosen)
+        typer.echo(f"written: {output} ({outcome.pages} pages; {n} calculation sheet{'' if n == 1 else 's'}: "
+                   f"{outcome.scope})")
+    raise typer.Exit(outcome.exit_code)
+
+
 # what --help shows after an option or argument: words a user types, not Python types ('<list[str]>')
 _METAVARS = {"output": "OUT", "report": "REPORT.json", "annotate": "OUT", "plot": "PNG", "sheet": "NAME",
              "map_": "'THEIRS=OURS'", "surface_k": "KELVIN", "loss_pct": "PERCENT"}
