@@ -142,7 +142,7 @@ def _rows(table, name: str) -> tuple[list[str], list[dict]]:
     rows = []
     for k, row in enumerate(table):
         if not isinstance(row, Mapping):
-            raise TypeError(f"{name}: row {k} is a {type(row).__name__}, not a dict of header -> value")
+            raise TypeError(f"{name}: row {k} is a {type(row).__name__}, not a dict of header -> value; give a list of dicts or a DataFrame")
         rows.append({str(h): v for h, v in row.items()})
         headers.update(dict.fromkeys(str(h) for h in row))
     return list(headers), rows
