@@ -144,17 +144,29 @@ def parse(text: str, name: str, delimiter: str) -> list[list[str]]:
         raise WorkbookError(f"{name}: row {reader.line_num} cannot be read as CSV ({exc}); a field that holds "
                             "a quote, a line break or the delimiter must be in double quotes, with a quote "
                             "inside written twice") from None
-    widths = [_width(r) for r in rows]
-    common = Counter(w for w in widths if w > 1).most_common(1)
-    if common:
-        usual = common[0][0]
-        for r, w in enumerate(widths):
+    usual = _usual_width(rows)
+    if usual is not None:
+        for r, row in enumerate(rows):
+            w = _width(row)
             if w > usual:
                 what = "a decimal comma or a comma in a text" if delimiter == "," else "a semicolon in a text"
                 raise WorkbookError(f"{name}: row {r + 1} has {w} fields where the rows around it have {usual} "
                                     f"({what} splits a value in two?); put that value in double quotes, or "
                                     "save the file again from your spreadsheet program")
     return rows
+
+
+def _usual_width(rows: list[list[str]]) -> int | None:
+    """How many fields a row has: the count most rows share, when at least half share it (a file
+    a spreadsheet program wrote pads every row); else the header's (the first row with a 'Tag'
+    cell), in a file typed by hand; None when neither tells."""
+    lengths = [len(r) for r in rows if len(r) > 1]
+    if lengths:
+        count, agree = Counter(lengths).most_common(1)[0]
+        if 2 * agree >= len(lengths):
+            return count
+    head = next((row for row in rows if any(fold(f) == "tag" for f in row)), None)
+    return _width(head) if head is not None else None
 
 
 def _width(row: list[str]) -> int:
@@ -188,12 +200,12 @@ class CsvBook:
         path = Path(path)
         try:
             size = os.stat(path).st_size
-            if size > MAX_BYTES:
-                raise WorkbookError(f"{path.name}: the file is {size / 2**20:,.0f} MiB (limit "
-                                    f"{MAX_BYTES // 2**20} MiB for a CSV schedule); split the schedule")
-            data = path.read_bytes()
+            data = path.read_bytes() if size <= MAX_BYTES else b""
         except OSError as exc:
             raise WorkbookError(f"{path.name}: cannot be read ({exc.strerror or exc})") from None
+        if size > MAX_BYTES:
+            raise WorkbookError(f"{path.name}: the file is {size / 2**20:,.0f} MiB (limit "
+                                f"{MAX_BYTES // 2**20} MiB for a CSV schedule); split the schedule")
         return cls.from_bytes(data, path, sheet)
 
     @classmethod
