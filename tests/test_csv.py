@@ -11,6 +11,8 @@ from pathlib import Path
 
 import openpyxl
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from lagsheet.commands import demo
 from lagsheet.errors import WorkbookError
@@ -259,3 +261,28 @@ def test_a_bad_csv_exits_2_with_one_line(tmp_path, cli):
     r = cli("fill", p, "-o", tmp_path / "b-out.csv")
     assert r.exit_code == 2 and "not a CSV file" in r.output
     assert len(r.output.strip().splitlines()) == 1
+
+
+def test_the_companion_workbook_is_never_the_output(tmp_path, cli):
+    """--with BOOK -o BOOK: refused (exit 2), the companion unchanged."""
+    from conftest import sha256, write_book
+
+    src = write_csv(tmp_path / "p.csv", PIPE_HEADER, [pipe()])
+    book = write_book(tmp_path / "book.xlsx", [], sheets={"Settings": [["Setting", "Value", "Unit"]]})
+    before = sha256(book)
+    r = cli("fill", src, "--with", book, "-o", book)
+    assert r.exit_code == 2 and "would overwrite the input book.xlsx" in r.output
+    assert sha256(book) == before
+
+
+@settings(max_examples=300, derandomize=True, deadline=None)
+@given(st.binary(max_size=400) | st.text(alphabet=st.sampled_from(list("Tag,;\"'\r\n 12.,=xé\t")), max_size=200)
+       .map(lambda s: s.encode("utf-8")))
+def test_any_bytes_read_as_a_book_or_one_sentence(data):
+    """Whatever the bytes, reading gives a book of one sheet or a WorkbookError; nothing else escapes."""
+    try:
+        book = CsvBook.from_bytes(data, Path("x.csv"))
+    except WorkbookError as exc:
+        assert str(exc).startswith("x.csv: ") and "\n" not in str(exc)
+        return
+    assert book.sheet_names() == ["Lines"]
