@@ -101,6 +101,18 @@ def test_a_semicolon_file_with_a_bom_and_decimal_commas(tmp_path):
     assert (book.dialect.delimiter, book.dialect.decimal, book.dialect.bom) == (";", ",", True)
 
 
+@pytest.mark.parametrize(("data", "values"), [
+    (b"Tag;Length [m];T [K]\r\nP-1;1.5;123.456\r\n", [1.5, 123.456]),  # points that cannot group thousands
+    (b"Tag;Length [m];T [K]\r\nP-1;1,5;123.456\r\n", [1.5, 123456.0]),  # a decimal comma: the point groups
+    (b"Tag;Length [m];T [K]\r\nP-1;2;123.456\r\n", [2.0, 123456.0]),  # no evidence: the comma, as for ';'
+])
+def test_a_semicolon_files_decimal_sign_follows_its_numbers(tmp_path, data, values):
+    """A semicolon file whose numbers plainly use a decimal point (as some programs write it) is read so."""
+    p = tmp_path / "d.csv"
+    p.write_bytes(data)
+    assert CsvBook.open(p).sheet("Lines").grid[1][1:] == values
+
+
 @pytest.mark.parametrize(("data", "message"), [
     (b"Tag,Size\x00\x01\x02", r"not a CSV file \(it holds binary data\)"),
     (b"PK\x03\x04rest of a zip", "not a CSV file"),

@@ -3,7 +3,8 @@
 Reading: UTF-8 with or without a byte-order mark; the delimiter (comma or semicolon) is
 sniffed from the rows; a semicolon file has decimal commas (``12,5``; a dot there groups
 thousands: ``1.250,5``), as spreadsheet programs write CSV where the comma is the decimal
-sign. A field that is a plain number becomes a number; any other field stays text, which
+sign, unless none of its numbers has a decimal comma and some have a decimal point that
+cannot group thousands (``1.5``: :func:`decimal_sign`). A field that is a plain number becomes a number; any other field stays text, which
 the Lines reader then treats as it treats text in a cell (``2 in`` is a quantity, noted).
 A file that is binary, not UTF-8, has an unclosed quote or a row with more fields than the
 others is refused in one sentence (:class:`~lagsheet.errors.WorkbookError`, exit 2).
@@ -133,6 +134,25 @@ def sniff(text: str) -> str:
     return best
 
 
+_COMMA_DECIMAL = re.compile(r"[+-]?\d*,\d+(?:[eE][+-]?\d+)?")
+_POINT_DECIMAL = re.compile(r"[+-]?\d*\.\d+(?:[eE][+-]?\d+)?")
+
+
+def decimal_sign(rows: list[list[str]]) -> str:
+    """The decimal sign of a semicolon file: the comma, unless no number has a decimal comma and
+    some number has a decimal point that cannot be a thousands separator (``1.5``, ``1234.5``,
+    as some programs write a semicolon file)."""
+    point = False
+    for row in rows:
+        for f in row:
+            f = f.strip()
+            if _COMMA_DECIMAL.fullmatch(f):
+                return ","
+            if not point and _POINT_DECIMAL.fullmatch(f) and number(f, ",") is None:
+                point = True
+    return "." if point else ","
+
+
 def parse(text: str, name: str, delimiter: str) -> list[list[str]]:
     """The fields of every row; an unclosed quote or a row wider than the others is a sentence."""
     rows: list[list[str]] = []
@@ -213,8 +233,9 @@ class CsvBook:
         text, bom = decode(data, Path(path).name)
         delimiter = sniff(text)
         newline = "\r\n" if "\r\n" in text[:65536] or "\n" not in text[:65536] else "\n"
-        dialect = Dialect(delimiter, "," if delimiter == ";" else ".", bom, newline)
-        return cls(path, parse(text, Path(path).name, delimiter), dialect, sheet)
+        fields = parse(text, Path(path).name, delimiter)
+        dialect = Dialect(delimiter, decimal_sign(fields) if delimiter == ";" else ".", bom, newline)
+        return cls(path, fields, dialect, sheet)
 
     def sheet_names(self) -> list[str]:
         return [self._sheet.name]
