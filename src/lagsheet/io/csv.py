@@ -107,7 +107,7 @@ def decode(data: bytes, name: str) -> tuple[str, bool]:
     try:
         text = data[3 if bom else 0:].decode("utf-8")
     except UnicodeDecodeError as exc:
-        line = data[:exc.start].count(b"\n") + 1
+        line = data[3 if bom else 0:][:exc.start].count(b"\n") + 1
         raise WorkbookError(f"{name}: line {line} is not UTF-8 text; save the file again as 'CSV UTF-8' in "
                             "your spreadsheet program") from None
     return text, bom
@@ -121,7 +121,7 @@ def sniff(text: str) -> str:
     first = text.split("\n", 1)[0].strip()
     if first.lower() in ("sep=,", "sep=;"):
         return first[-1]
-    head = text.splitlines()[:_SNIFF_ROWS]
+    head = text[:1 << 16].splitlines()[:_SNIFF_ROWS]
     best, score = ",", (-1, -1)
     for d in (",", ";"):
         try:
