@@ -136,3 +136,12 @@ def test_the_readme_example_runs():
     """The README's Python example is a doctest, and it passes."""
     result = doctest.testfile(str(README), module_relative=False, globs={"lagsheet": lagsheet})
     assert result.attempted >= 3 and result.failed == 0
+
+
+def test_a_row_holding_no_line_keeps_its_place():
+    """An empty row stays in the result, in its place, with no results and Status None."""
+    line = {"Tag": "P-1", "Shape": "pipe", "Size": "NPS 4", "Length [m]": 25, "Operating temperature [°C]": 180,
+            "Insulation": "mineral wool", "Max surface temperature [°C]": 55}
+    out = size([line, {}, {**line, "Tag": "P-2"}])
+    assert [(r.get("Tag"), r["Status"]) for r in out] == [("P-1", "ok"), (None, None), ("P-2", "ok")]
+    assert out[1]["Thickness [mm]"] is None and out[0]["Thickness [mm]"] == out[2]["Thickness [mm]"] > 0
