@@ -1,6 +1,6 @@
 """Errors and notes.
 
-A user-fixable problem is an :class:`InputError` carrying where it is and how to fix it.
+A user-fixable problem is an :class:`InputError` whose words say where it is and how to fix it.
 A doubt that does not stop the work is a :class:`Note`: a value collected and returned,
 never printed from deep inside; only the CLI prints.
 """
@@ -17,15 +17,8 @@ class LagsheetError(Exception):
 
 
 class InputError(LagsheetError, ValueError):
-    """A problem in the user's workbook that the user can fix."""
-
-    def __init__(self, message: str, *, sheet: str = "", cell: str = "", value=None, fix: str = ""):
-        self.sheet, self.cell, self.value, self.fix = sheet, cell, value, fix
-        where = f" ({sheet}!{cell})" if sheet and cell else (f" ({sheet})" if sheet else "")
-        text = f"{message}{where}"
-        if fix:
-            text += f". {fix}"
-        super().__init__(text)
+    """A problem in the user's workbook or options that the user can fix: one sentence saying
+    where it is and how to fix it."""
 
 
 class WorkbookError(LagsheetError, OSError):

@@ -170,30 +170,54 @@ def audit(inputs: Inputs, raw: RawSheet, res: Results, mapping: dict[str, str] |
         raise AuditError(f"none of the columns audit compares is in the header row of {raw.name} (row "
                          f"{t.header_row + 1}): it looked for {', '.join(repr(v[0]) for v in RESULTS.values())}, "
                          f"each with its unit; {_MAP_HINT}")
+    theirs, written = _their_values(raw, t.rows, cols)
+    compared, idle = _compared(theirs, res)
+    if not compared.any():
+        raise AuditError(f"the columns {', '.join(repr(c.header) for c in cols)} hold no value that lagsheet "
+                         f"can compare on any line of {raw.name} (blank, text, or lines in error): fill them "
+                         f"first, or {_MAP_HINT}")
+    checks = _differences(theirs, res.values, surface_k, loss_rel)
+    differ = np.zeros(res.n, dtype=bool)
+    for _, bad in checks:
+        differ |= bad
+    by_key = {tc.key: tc for tc in cols}
+    other = _other_unit_factor(by_key["thickness"].unit) if "thickness" in by_key else None
+    causes = _causes(inputs, res, theirs, np.flatnonzero(differ), surface_k, loss_rel, other) \
+        if differ.any() else {}
+    findings = _findings(inputs, res, checks, by_key, theirs, written, causes, other)
+    return Audit(findings, [c for c in cols if c.key not in idle], int(compared.sum()),
+                 [c for c in cols if c.key in idle])
+
+
+def _their_values(raw: RawSheet, rows: list[int], cols: list[TheirColumn]) -> tuple[dict, dict]:
+    """Their values of each column on every line: in SI, and as written (NaN where no number)."""
     theirs: dict[str, np.ndarray] = {}
     written: dict[str, np.ndarray] = {}
     for tc in cols:
-        vals = np.array([_num(raw.value(r, tc.col)) for r in t.rows])
+        vals = np.array([_num(raw.value(r, tc.col)) for r in rows])
         ok = np.isfinite(vals)
         si = np.full(len(vals), np.nan)
         if ok.any():
             si[ok] = to_si(vals[ok], tc.unit, RESULTS[tc.key][1])
         theirs[tc.key] = si
         written[tc.key] = vals
-    v = res.values
+    return theirs, written
+
+
+def _compared(theirs: dict, res: Results) -> tuple[np.ndarray, list[str]]:
+    """The lines on which some value of theirs meets one of ours; the columns where none does."""
     compared = np.zeros(res.n, dtype=bool)
     idle = []  # columns holding no value to compare (text, blanks): not counted as compared
     for key, their in theirs.items():
-        here = np.isfinite(their) & np.isfinite(v[key])
+        here = np.isfinite(their) & np.isfinite(res.values[key])
         compared |= here
         if not here.any():
             idle.append(key)
-    if not compared.any():
-        raise AuditError(f"the columns {', '.join(repr(c.header) for c in cols)} hold no value that lagsheet "
-                         f"can compare on any line of {raw.name} (blank, text, or lines in error): fill them "
-                         f"first, or {_MAP_HINT}")
-    findings: list[Finding] = []
-    differ = np.zeros(res.n, dtype=bool)
+    return compared, idle
+
+
+def _differences(theirs: dict, v: dict, surface_k: float, loss_rel: float) -> list[tuple[str, np.ndarray]]:
+    """(key, lines where their value differs from ours beyond the tolerance) for each column."""
     checks = []
     for key, their in theirs.items():
         ours = v[key]
@@ -204,13 +228,15 @@ def audit(inputs: Inputs, raw: RawSheet, res: Results, mapping: dict[str, str] |
             bad = both & (np.abs(their - ours) > surface_k)
         else:
             bad = both & (np.abs(their - ours) > loss_rel * np.maximum(np.abs(ours), 1e-9))
-        differ |= bad
         checks.append((key, bad))
-    by_key = {tc.key: tc for tc in cols}
-    other = _other_unit_factor(by_key["thickness"].unit) if "thickness" in by_key else None
-    causes = _causes(inputs, res, theirs, np.flatnonzero(differ), surface_k, loss_rel, other) \
-        if differ.any() else {}
-    us = inputs.us_units
+    return checks
+
+
+def _findings(inputs: Inputs, res: Results, checks, by_key: dict[str, TheirColumn], theirs: dict,
+              written: dict, causes: dict[int, str], other: float | None) -> list[Finding]:
+    """A finding for each differing value, naming its cell, both values and the likely cause."""
+    t, v, us = inputs.lines, res.values, inputs.us_units
+    findings: list[Finding] = []
     for key, bad in checks:
         kind = {"thickness": "thickness", "surface_temperature": "temperature", "heat_loss_per_length": "per_length",
                 "heat_loss": "power"}[key]
@@ -226,8 +252,7 @@ def audit(inputs: Inputs, raw: RawSheet, res: Results, mapping: dict[str, str] |
                                                     "; no single usual slip reproduces their value"))
             findings.append(Finding(t.rows[i] + 1, res.tags[i], RESULTS[key][0], float(theirs[key][i]),
                                     float(v[key][i]), cause, msg, as_written))
-    return Audit(findings, [c for c in cols if c.key not in idle], int(compared.sum()),
-                 [c for c in cols if c.key in idle])
+    return findings
 
 
 def _other_unit_factor(unit) -> float:
@@ -268,10 +293,29 @@ def _causes(inputs: Inputs, res: Results, theirs, rows: np.ndarray, surface_k: f
         thick[use] = 0.0
         thick[use, 0] = tt[use]
     base = replace(base, thickness=thick)
+    variants = _slips(inputs, res, base, rows)
+    if other is not None and th_theirs is not None:
+        # their surface and loss come from their thickness in the other unit; their column's number is not it
+        thick_other = thick.copy()
+        thick_other[use, 0] = tt[use] * other
+        variants["thickness in the other unit"] = (replace(base, thickness=thick_other), res.table)
+    variants["k at ambient"] = _k_at_ambient(base, res.table)
     lines = [res.lines[i] for i in rows]
-    geometry = base.geometry
-    lengths = np.array([L.length for L in lines])
-    areas = np.array([L.area for L in lines])
+    errors = {name: _misfit(s, table, theirs, rows, np.array([L.length for L in lines]),
+                            np.array([L.area for L in lines]), surface_k, loss_rel)
+              for name, (s, table) in variants.items()}
+    out = {}
+    names = list(errors)
+    table = np.vstack([errors[nm] for nm in names])
+    for k, i in enumerate(rows):
+        best = int(np.argmin(table[:, k]))
+        if np.isfinite(table[best, k]) and table[best, k] <= 1.0:  # within the tolerances
+            out[int(i)] = names[best]
+    return out
+
+
+def _slips(inputs: Inputs, res: Results, base: System, rows: np.ndarray) -> dict[str, tuple[System, MaterialTable]]:
+    """The system at their thickness as computed, and under the slips of size, radiation and h."""
     variants: dict[str, tuple[System, MaterialTable]] = {"as computed": (base, res.table)}
     r_nominal = base.r_inner.copy()
     r_inch_mm = base.r_inner / 0.0254 * 0.001
@@ -284,47 +328,42 @@ def _causes(inputs: Inputs, res: Results, theirs, rows: np.ndarray, surface_k: f
     variants["no radiation"] = (replace(base, emissivity=np.zeros(len(rows))), res.table)
     variants["fixed h = 10"] = (replace(base, h_fixed=np.full(len(rows), 10.0)), res.table)
     variants["inches read as mm"] = (replace(base, r_inner=r_inch_mm), res.table)
-    if other is not None and th_theirs is not None:
-        # their surface and loss come from their thickness in the other unit; their column's number is not it
-        thick_other = thick.copy()
-        thick_other[use, 0] = tt[use] * other
-        variants["thickness in the other unit"] = (replace(base, thickness=thick_other), res.table)
-    # k at ambient: one constant curve per line, at that line's ambient
+    return variants
+
+
+def _k_at_ambient(base: System, table: MaterialTable) -> tuple[System, MaterialTable]:
+    """The slip 'k at ambient': one constant curve per line and layer, at that line's ambient."""
     curves = {}
     mats = np.zeros_like(base.material)
-    for k in range(len(rows)):
+    for k in range(base.material.shape[0]):
         for j in range(base.material.shape[1]):
             m = int(base.material[k, j])
-            kk = float(res.table.conductivity(np.array([m]), np.array([base.t_air[k]]))[0])
+            kk = float(table.conductivity(np.array([m]), np.array([base.t_air[k]]))[0])
             name = f"{k}-{j}"
             curves[name] = (np.array([1.0, 4000.0]), np.array([kk, kk]))
             mats[k, j] = len(curves) - 1
-    variants["k at ambient"] = (replace(base, material=mats), MaterialTable.build(curves))
-    errors = {}
-    for name, (s, table) in variants.items():
-        sol = solve(s, table)
-        rate = heat_rate(geometry, sol.q, sol.r_outer)
-        got = {"surface_temperature": sol.t_surface, "heat_loss_per_length": np.where(geometry == CYLINDER, rate, np.nan),
-               "heat_loss": _whole(geometry, rate, lengths, areas)}
-        err = np.zeros(len(rows))
-        n_cmp = np.zeros(len(rows))
-        for key in ("surface_temperature", "heat_loss_per_length", "heat_loss"):
-            if key not in theirs:
-                continue
-            their = theirs[key][rows]
-            ok = np.isfinite(their) & np.isfinite(got[key])
-            scale = surface_k if key == "surface_temperature" else loss_rel * np.maximum(np.abs(their), 1e-9)
-            err = err + np.where(ok, np.abs(got[key] - their) / scale, 0.0)
-            n_cmp = n_cmp + ok
-        errors[name] = np.where(n_cmp > 0, err / np.maximum(n_cmp, 1), np.inf)
-    out = {}
-    names = list(errors)
-    table = np.vstack([errors[nm] for nm in names])
-    for k, i in enumerate(rows):
-        best = int(np.argmin(table[:, k]))
-        if np.isfinite(table[best, k]) and table[best, k] <= 1.0:  # within the tolerances
-            out[int(i)] = names[best]
-    return out
+    return replace(base, material=mats), MaterialTable.build(curves)
+
+
+def _misfit(s: System, table: MaterialTable, theirs, rows: np.ndarray, lengths: np.ndarray,
+            areas: np.ndarray, surface_k: float, loss_rel: float) -> np.ndarray:
+    """Per line, the mean distance of a variant's results from theirs in tolerances (inf: none compared)."""
+    geometry = s.geometry
+    sol = solve(s, table)
+    rate = heat_rate(geometry, sol.q, sol.r_outer)
+    got = {"surface_temperature": sol.t_surface, "heat_loss_per_length": np.where(geometry == CYLINDER, rate, np.nan),
+           "heat_loss": _whole(geometry, rate, lengths, areas)}
+    err = np.zeros(len(rows))
+    n_cmp = np.zeros(len(rows))
+    for key in ("surface_temperature", "heat_loss_per_length", "heat_loss"):
+        if key not in theirs:
+            continue
+        their = theirs[key][rows]
+        ok = np.isfinite(their) & np.isfinite(got[key])
+        scale = surface_k if key == "surface_temperature" else loss_rel * np.maximum(np.abs(their), 1e-9)
+        err = err + np.where(ok, np.abs(got[key] - their) / scale, 0.0)
+        n_cmp = n_cmp + ok
+    return np.where(n_cmp > 0, err / np.maximum(n_cmp, 1), np.inf)
 
 
 def _nps_number(size) -> float | None:

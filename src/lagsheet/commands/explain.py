@@ -33,15 +33,8 @@ def explain(inputs: Inputs, raw: RawSheet, res: Results, i: int) -> list[str]:
     us = inputs.us_units
     t = inputs.lines
     L = res.lines[i]
-    out = [f"Line {res.tags[i]} ({t.sheet} row {t.rows[i] + 1}), status: {res.status[i]}", "", "Inputs as written:"]
-    for c in sorted(t.columns.values(), key=lambda c: c.col):
-        v = raw.value(t.rows[i], c.col)
-        if v is None:
-            continue
-        si = ""
-        if c.values is not None and c.values.dtype != object and np.isfinite(c.values[i]) and c.si_unit:
-            si = f"  ->  {c.values[i]:.6g} {c.si_unit.replace('**2', '²')}"
-        out.append(f"  {c.header} ({address(t.rows[i], c.col)}): {v!r}{si}")
+    out = [f"Line {res.tags[i]} ({t.sheet} row {t.rows[i] + 1}), status: {res.status[i]}", ""]
+    out += _inputs_as_written(t, raw, i)
     if not L.ok or res.system is None or not np.isfinite(res.values["thickness"][i]):
         out += ["", "Not computed:"] + [f"  {n.level}: {n.message}" for n in res.notes[i]]
         return out
@@ -54,8 +47,40 @@ def explain(inputs: Inputs, raw: RawSheet, res: Results, i: int) -> list[str]:
         out.append(f"  targets also judged at: {', '.join(c.name for c in L.conditions[1:])}")
     s1 = per_line(res.system, np.array([i]))
     sol = solve(s1, res.table)
+    out += _layers(L, s1, sol, res, us)
+    out += _outer_surface(L, s1, sol, res.values, i, us)
+    out += _targets(res, i, us)
+    v = res.values
+    out += _process(L, v, i, us)
+    cur = inputs.settings["currency"]
+    out += ["", f"Energy and money at '{cond.name}': annual energy {v['annual_energy'][i]:,.0f} kWh, "
+            f"cost {v['annual_cost'][i]:,.0f} {cur}, saving {v['annual_saving'][i]:,.0f} {cur}, "
+            f"CO2 {v['co2'][i]:,.0f} kg/yr"]
+    if res.notes[i]:
+        out += ["", "Notes:"] + [f"  {n.level}: {n.message}" for n in res.notes[i]]
+    out += ["", "Cautions: surface limits depend on contact time and surface material (ASTM C1055, ISO 13732-1); "
+            "follow local codes, the owner's specification and licensed practice."]
+    return out
+
+
+def _inputs_as_written(t, raw: RawSheet, i: int) -> list[str]:
+    """Each input cell of line ``i`` as written, with its SI value when it is a number."""
+    out = ["Inputs as written:"]
+    for c in sorted(t.columns.values(), key=lambda c: c.col):
+        v = raw.value(t.rows[i], c.col)
+        if v is None:
+            continue
+        si = ""
+        if c.values is not None and c.values.dtype != object and np.isfinite(c.values[i]) and c.si_unit:
+            si = f"  ->  {c.values[i]:.6g} {c.si_unit.replace('**2', '²')}"
+        out.append(f"  {c.header} ({address(t.rows[i], c.col)}): {v!r}{si}")
+    return out
+
+
+def _layers(L, s1, sol, res: Results, us: bool) -> list[str]:
+    """The bare surface, then each layer with its face temperatures and mean conductivity."""
     faces, radii = sol.faces[0], sol.radii[0]
-    out += ["", "Layers, inner first (conductivity: integral mean over the layer):"]
+    out = ["", "Layers, inner first (conductivity: integral mean over the layer):"]
     out.append(f"  bare surface at {show(faces[0], 'temperature', us)}"
                + (f", outside diameter {show(2 * radii[0], 'radius', us)}" if L.geometry != FLAT else ""))
     for j in range(s1.thickness.shape[1]):
@@ -66,19 +91,25 @@ def explain(inputs: Inputs, raw: RawSheet, res: Results, i: int) -> list[str]:
         k = float(res.table.mean_conductivity(np.array([m]), faces[j:j + 1], faces[j + 1:j + 2])[0])
         out.append(f"  {show(th, 'thickness', us)} {res.table.names[m]}: {show(faces[j], 'temperature', us)} -> "
                    f"{show(faces[j + 1], 'temperature', us)}, k = {k:.4f} W/(m·K)")
+    return out
+
+
+def _outer_surface(L, s1, sol, v, i: int, us: bool) -> list[str]:
+    """Surface and film temperatures, convection and radiation, heat flux and balance, heat loss
+    and critical radius."""
+    cond = L.conditions[0]
     conv = sol.convection
     free_name, forced_name = CORRELATION_NAMES[L.shape]
     ts, q = float(sol.t_surface[0]), float(sol.q[0])
     h_c, h_r = float(conv.h[0]), float(sol.h_radiation[0])
-    out += ["", "Outer surface:",
-            f"  surface temperature {show(ts, 'temperature', us)}, film {show(0.5 * (ts + cond.t_air), 'temperature', us)}",
-            *_convection_lines(L, s1, sol, free_name, forced_name, us),
-            f"  h_conv = Nu k_air / L = {h_c:.3f} W/(m²·K)",
-            f"  radiation: emissivity {float(s1.emissivity[0]):.2f}, sigma = {SIGMA:.6e} W/(m²·K⁴), "
-            f"q_rad = {float(sol.q_radiation[0]):.2f} W/m², h_rad (linearised) = {h_r:.3f} W/(m²·K)",
-            f"  heat flux {q:.3f} W/m² = convection {h_c * (ts - cond.t_air):.3f} + radiation "
-            f"{float(sol.q_radiation[0]):.3f}; balance residual {float(sol.residual[0]):.2e} (relative)"]
-    v = res.values
+    out = ["", "Outer surface:",
+           f"  surface temperature {show(ts, 'temperature', us)}, film {show(0.5 * (ts + cond.t_air), 'temperature', us)}",
+           *_convection_lines(L, s1, sol, free_name, forced_name, us),
+           f"  h_conv = Nu k_air / L = {h_c:.3f} W/(m²·K)",
+           f"  radiation: emissivity {float(s1.emissivity[0]):.2f}, sigma = {SIGMA:.6e} W/(m²·K⁴), "
+           f"q_rad = {float(sol.q_radiation[0]):.2f} W/m², h_rad (linearised) = {h_r:.3f} W/(m²·K)",
+           f"  heat flux {q:.3f} W/m² = convection {h_c * (ts - cond.t_air):.3f} + radiation "
+           f"{float(sol.q_radiation[0]):.3f}; balance residual {float(sol.residual[0]):.2e} (relative)"]
     if L.geometry == CYLINDER:
         out.append(f"  heat loss per length {show(float(v['heat_loss_per_length'][i]), 'per_length', us)}")
     out.append(f"  heat loss {show(float(v['heat_loss'][i]), 'power', us)} (bare {show(float(v['bare_heat_loss'][i]), 'power', us)})")
@@ -86,8 +117,14 @@ def explain(inputs: Inputs, raw: RawSheet, res: Results, i: int) -> list[str]:
         rule = "2k/h" if L.geometry == SPHERE else "k/h"
         out.append(f"  critical radius {show(float(v['critical_radius'][i]), 'radius', us)} "
                    f"({rule} with h = h_conv + h_rad = {h_c + h_r:.3f} W/(m²·K))")
-    out += ["", "Targets (each one's own thinnest sold thickness; margin at the chosen system, worst named "
-            "condition):"]
+    return out
+
+
+def _targets(res: Results, i: int, us: bool) -> list[str]:
+    """Each target's own thinnest thickness and margin, the governing target and the system chosen."""
+    v = res.values
+    out = ["", "Targets (each one's own thinnest sold thickness; margin at the chosen system, worst named "
+           "condition):"]
     margins = res.target_margin[i] if res.target_margin else {}
     for name, th in (res.target_thickness[i] if res.target_thickness else {}).items():
         text = show(th, "thickness", us) if th is not None else "not met by any sold thickness"
@@ -98,15 +135,6 @@ def explain(inputs: Inputs, raw: RawSheet, res: Results, i: int) -> list[str]:
     out.append(f"  governing: {v['governing'][i]}" + (f" at '{v['governing_condition'][i]}'"
                                                       if v["governing_condition"][i] else ""))
     out.append(f"  chosen: {v['layers'][i]}")
-    out += _process(L, v, i, us)
-    cur = inputs.settings["currency"]
-    out += ["", f"Energy and money at '{cond.name}': annual energy {v['annual_energy'][i]:,.0f} kWh, "
-            f"cost {v['annual_cost'][i]:,.0f} {cur}, saving {v['annual_saving'][i]:,.0f} {cur}, "
-            f"CO2 {v['co2'][i]:,.0f} kg/yr"]
-    if res.notes[i]:
-        out += ["", "Notes:"] + [f"  {n.level}: {n.message}" for n in res.notes[i]]
-    out += ["", "Cautions: surface limits depend on contact time and surface material (ASTM C1055, ISO 13732-1); "
-            "follow local codes, the owner's specification and licensed practice."]
     return out
 
 

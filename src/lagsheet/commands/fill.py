@@ -68,6 +68,26 @@ def fill(path: Path, out: Path | None, *, sheet: str = "Lines", report_path: Pat
     """
     step = progress or (lambda stage: None)
     path = Path(path)
+    out = _output_path(path, out, in_place)
+    rules = {"inputs": [path], "in_place": path if in_place else None, "lock_option": "--ignore-lock"}
+    report_path = Path(report_path) if report_path is not None else None
+    notes = _refuse_unsafe_paths(path, out, report_path, in_place, ignore_lock, rules)
+    step("reading")
+    book, inputs = load(path, sheet, header_map)
+    inputs.notes[:0] = notes
+    step("solving")
+    res = specify(inputs)
+    step("writing")
+    rep = _write(book, inputs, res, path, out, report_path, in_place=in_place, allow_loss=allow_loss,
+                 ignore_lock=ignore_lock, rules=rules)
+    errors = any(s == "error" for s in res.status) or any(
+        n.level == "error" for n in inputs.notes) or any(c["status"] == "error" for c in inputs.columns)
+    return Outcome(inputs, res, rep, 1 if errors else 0)
+
+
+def _output_path(path: Path, out: Path | None, in_place: bool) -> Path:
+    """The file to write (the input itself with ``in_place``); refuses a missing input, an output
+    that would overwrite the input without ``in_place``, and an output of another file type."""
     if in_place:
         out = path
     if out is None:
@@ -80,9 +100,14 @@ def fill(path: Path, out: Path | None, *, sheet: str = "Lines", report_path: Pat
                             "or give --in-place (a backup copy is kept)")
     if out.suffix.lower() != path.suffix.lower():
         raise WorkbookError(f"{out.name}: the output must have the input's type ({path.suffix})")
-    rules = {"inputs": [path], "in_place": path if in_place else None, "lock_option": "--ignore-lock"}
+    return out
+
+
+def _refuse_unsafe_paths(path: Path, out: Path, report_path: Path | None, in_place: bool,
+                         ignore_lock: bool, rules: dict) -> list[Note]:
+    """Refuse a report or output that could damage a file (:func:`refuse_unsafe`); the warnings
+    of a run whose output lock is ignored or whose input is open in a spreadsheet program."""
     if report_path is not None:
-        report_path = Path(report_path)
         if same_file(report_path, path) or same_file(report_path, out):
             raise WorkbookError(f"{report_path}: the report would overwrite the workbook; "
                                 "choose another --report file")
@@ -100,12 +125,12 @@ def fill(path: Path, out: Path | None, *, sheet: str = "Lines", report_path: Pat
             notes.append(Note("warning", "input-open",
                               f"{path.name} is open in a spreadsheet program ({in_lock.by()}): "
                               "the last saved version is read; unsaved changes there are not included"))
-    step("reading")
-    book, inputs = load(path, sheet, header_map)
-    inputs.notes[:0] = notes
-    step("solving")
-    res = specify(inputs)
-    step("writing")
+    return notes
+
+
+def _write(book, inputs: Inputs, res: Results, path: Path, out: Path, report_path: Path | None, *,
+           in_place: bool, allow_loss: bool, ignore_lock: bool, rules: dict) -> dict:
+    """Write the backup (in place), the filled workbook and the report; gives the report."""
     edits = [lines_edits(book.sheet(inputs.lines.sheet), inputs.lines, res, inputs.us_units,
                          str(inputs.settings["currency"]))]
     stale = remove_stale_temps(out)
@@ -129,6 +154,4 @@ def fill(path: Path, out: Path | None, *, sheet: str = "Lines", report_path: Pat
             rep["notes"].append(note.as_dict())
         if report_path is not None:
             report.write(rep, report_path, inputs=[out])
-    errors = any(s == "error" for s in res.status) or any(
-        n.level == "error" for n in inputs.notes) or any(c["status"] == "error" for c in inputs.columns)
-    return Outcome(inputs, res, rep, 1 if errors else 0)
+    return rep

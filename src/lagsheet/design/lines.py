@@ -7,7 +7,6 @@ solves every line at once.
 
 from __future__ import annotations
 
-import difflib
 import itertools
 import math
 import re
@@ -26,6 +25,7 @@ from ..workbook import library
 from ..workbook.display import show
 from ..workbook.inputs import Condition, Inputs
 from ..workbook.tables import Table
+from ..workbook.words import suggest
 from .process import Process, resolve_process
 
 # shape word -> (convection code, conduction geometry)
@@ -146,9 +146,8 @@ def resolve(t: Table, inputs: Inputs, i: int, notes: list[Note], cols: Columns |
     else:
         w = schema.SHAPES.get(fold(shape_word))
         if w is None:
-            near = difflib.get_close_matches(fold(shape_word), list(schema.SHAPES), n=2, cutoff=0.5)
             err("unknown-shape", "shape", f"shape {shape_word!r} is not known; use one of: {words}"
-                + (f" (did you mean {', '.join(repr(x) for x in near)}?)" if near else ""))
+                + suggest(shape_word, schema.SHAPES, cutoff=0.5, form=" ({})"))
         else:
             L.word = w
             L.shape, L.geometry = SHAPE_CODES[w]
@@ -334,10 +333,9 @@ def _materials(L: Line, inputs: Inputs, mname, oname, fixed, err, us) -> None:
         mat = library.lookup(inputs.materials, name)
         if mat is None:
             names = sorted({m.name for m in inputs.materials.values()})
-            near = difflib.get_close_matches(fold(name), [fold(n) for n in names], n=2, cutoff=0.5)
             err("unknown-material", key, f"material {name!r} is not in the Materials sheet "
-                "or the built-in library" + (f"; did you mean {', '.join(repr(x) for x in near)}?" if near
-                                             else f"; known: {', '.join(names)}"))
+                "or the built-in library" + (suggest(name, [fold(n) for n in names], cutoff=0.5)
+                                             or f"; known: {', '.join(names)}"))
             continue
         L.materials.append(mat)
     if L.materials and np.isfinite(L.t_op):

@@ -369,7 +369,6 @@ class _PartScan:
         p.CommentHandler = self._comment
         p.ProcessingInstructionHandler = self._pi
         p.StartCdataSectionHandler = self._cdata
-        self.in_cdata = False
 
     # -- the generic checks
     def _doctype(self, name, sysid, pubid, has_internal):
@@ -574,7 +573,6 @@ def _scan_content(zf: zipfile.ZipFile, infos: list[zipfile.ZipInfo], name: str, 
             b"encryption-data" in zf.read("META-INF/manifest.xml"):
         return scan  # saved with a password: its parts are ciphertext, and the reader refuses it in words
     total = sum(i.file_size for i in infos)
-    names = None
     for info in infos:
         part = info.filename
         low = part.lower()
@@ -582,22 +580,9 @@ def _scan_content(zf: zipfile.ZipFile, infos: list[zipfile.ZipInfo], name: str, 
             continue
         legacy = ods and part == "META-INF/manifest.xml"
         ps = _PartScan(part, info.file_size, total, ods, legacy) if not low.endswith(".vml") else None
-        decoder = codecs.getincrementaldecoder("utf-8")()
         where = f"part {_q(part)}"
         try:
-            with zf.open(info) as fh:
-                first = True
-                while True:
-                    chunk = fh.read(_CHUNK)
-                    if first:
-                        first = False
-                        if chunk.startswith((b"\xff\xfe", b"\xfe\xff", b"<\x00", b"\x00<")):
-                            raise _Refuse("encoding UTF-16")
-                    decoder.decode(chunk, not chunk)
-                    if ps is not None:
-                        ps.feed(chunk, not chunk)
-                    if not chunk:
-                        break
+            _stream_part(zf, info, ps)
         except UnicodeDecodeError:
             raise WorkbookError(f"{name}: {where} is not UTF-8 text, which the format asks for; open the "
                                 "workbook in a spreadsheet program and save it again") from None
@@ -605,30 +590,7 @@ def _scan_content(zf: zipfile.ZipFile, infos: list[zipfile.ZipInfo], name: str, 
             raise WorkbookError(f"{name}: {where} is damaged (not well-formed XML at line {exc.lineno}); "
                                 "open the workbook in a spreadsheet program and save it again") from None
         except _Refuse as r:
-            why = r.message
-            if why == "dtd":
-                raise WorkbookError(f"{name}: {where} declares a DTD (<!DOCTYPE ...>), which workbooks never "
-                                    "do; lagsheet does not read XML entities") from None
-            if why.startswith("encoding "):
-                raise WorkbookError(f"{name}: {where} is stored as {why[9:]} text; lagsheet reads parts stored "
-                                    "as UTF-8, as spreadsheet programs write them: open the workbook in one "
-                                    "and save it again") from None
-            if why.startswith("markup"):
-                raise WorkbookError(f"{name}: {where} hides XML markup inside a comment, which spreadsheet "
-                                    "programs never write; open the workbook in one and save it again") from None
-            if why.startswith("count "):
-                key, _, v = why[6:].partition("=")
-                raise WorkbookError(f"{name}: the shared strings part claims {_num(v)} strings ({key}), more than "
-                                    f"its {_size(info.file_size)} can hold; the file is damaged or was not "
-                                    "written by a spreadsheet program: open it in one and save it again") from None
-            if names is None:
-                names = {} if ods else _sheet_names(zf)
-            if ods and getattr(ps, "table_name", None) is not None:
-                names[part] = ps.table_name
-            sheet = f"sheet {_q(names[part])}" if part in names else where
-            raise WorkbookError(f"{name}: {sheet} has {_what(why)}, outside any sheet (the last cell of a "
-                                "sheet is XFD1048576); the file is damaged or was not written by a spreadsheet "
-                                "program: open it in one and save it again") from None
+            raise _refusal(r.message, zf, info, ps, name, ods=ods) from None
         if ps is not None:
             scan.sheets.update(ps.stats)
     if ods:
@@ -636,6 +598,53 @@ def _scan_content(zf: zipfile.ZipFile, infos: list[zipfile.ZipInfo], name: str, 
             if stats.too_big():
                 raise WorkbookError(stats.refusal(name, table))
     return scan
+
+
+def _stream_part(zf: zipfile.ZipFile, info: zipfile.ZipInfo, ps) -> None:
+    """Read one part in chunks, decoding it as UTF-8 and feeding it to ``ps`` (if any); raises
+    UnicodeDecodeError, expat.ExpatError or _Refuse."""
+    decoder = codecs.getincrementaldecoder("utf-8")()
+    with zf.open(info) as fh:
+        first = True
+        while True:
+            chunk = fh.read(_CHUNK)
+            if first:
+                first = False
+                if chunk.startswith((b"\xff\xfe", b"\xfe\xff", b"<\x00", b"\x00<")):
+                    raise _Refuse("encoding UTF-16")
+            decoder.decode(chunk, not chunk)
+            if ps is not None:
+                ps.feed(chunk, not chunk)
+            if not chunk:
+                break
+
+
+def _refusal(why: str, zf: zipfile.ZipFile, info: zipfile.ZipInfo, ps, name: str, *, ods: bool) -> WorkbookError:
+    """The one sentence refusing a part for the reason ``why`` that the scan of ``ps`` gave."""
+    part = info.filename
+    where = f"part {_q(part)}"
+    if why == "dtd":
+        return WorkbookError(f"{name}: {where} declares a DTD (<!DOCTYPE ...>), which workbooks never "
+                             "do; lagsheet does not read XML entities")
+    if why.startswith("encoding "):
+        return WorkbookError(f"{name}: {where} is stored as {why[9:]} text; lagsheet reads parts stored "
+                             "as UTF-8, as spreadsheet programs write them: open the workbook in one "
+                             "and save it again")
+    if why.startswith("markup"):
+        return WorkbookError(f"{name}: {where} hides XML markup inside a comment, which spreadsheet "
+                             "programs never write; open the workbook in one and save it again")
+    if why.startswith("count "):
+        key, _, v = why[6:].partition("=")
+        return WorkbookError(f"{name}: the shared strings part claims {_num(v)} strings ({key}), more than "
+                             f"its {_size(info.file_size)} can hold; the file is damaged or was not "
+                             "written by a spreadsheet program: open it in one and save it again")
+    names = {} if ods else _sheet_names(zf)
+    if ods and getattr(ps, "table_name", None) is not None:
+        names[part] = ps.table_name
+    sheet = f"sheet {_q(names[part])}" if part in names else where
+    return WorkbookError(f"{name}: {sheet} has {_what(why)}, outside any sheet (the last cell of a "
+                         "sheet is XFD1048576); the file is damaged or was not written by a spreadsheet "
+                         "program: open it in one and save it again")
 
 
 def _num(v: str) -> str:

@@ -1603,34 +1603,62 @@ NS_C = "http://schemas.openxmlformats.org/drawingml/2006/chart"
 def _put_sheet(pkg: _Package, book: XlsxBook, sheet) -> None:
     """Write a whole sheet of lagsheet's (Summary, Quantities), replacing our earlier one."""
     name, ours = sheet_name_for(book, sheet.name, book.all_sheet_names())
-    if ours:
-        part = book._part(name)
-        pkg.owned.add(part)
-        for rel in _read_rels(pkg.zf, part):  # our old drawing and chart go with the old sheet
-            target = _rel_target(part, rel.get("Target", ""))
-            if rel.get("Type") == REL_DRAWING:
-                for r2 in _read_rels(pkg.zf, target):
-                    pkg.remove(_rel_target(target, r2.get("Target", "")))
-                    pkg.owned.add(pkg.actual(_rel_target(target, r2.get("Target", ""))))
-                pkg.remove(_rels_path(target))
-                pkg.remove(target)
-                pkg.owned.add(pkg.actual(target))
-        pkg.remove(_rels_path(part))
-    else:
-        part = pkg.free("xl/worksheets/sheet{}.xml")
-        wb_part = _workbook_part(pkg.zf)
-        rid = pkg.add_rel(wb_part, REL_WORKSHEET, posixpath.relpath(part, posixpath.dirname(wb_part)))
-        wb = pkg.read(wb_part)
-        ids = [int(x) for x in re.findall(r'\bsheetId="(\d+)"', wb)]
-        m = re.search(r"</(\w+:)?sheets>", wb)
-        p = m.group(1) or ""
-        rp = _rel_prefix(wb) or "r"
-        decl = "" if _rel_prefix(wb) else f' xmlns:r="{NS_REL}"'
-        wb = (wb[:m.start()] + f'<{p}sheet name="{_text(name)}" sheetId="{max(ids, default=0) + 1}"{decl} '
-              f'{rp}:id="{rid}"/>' + wb[m.start():])
-        pkg.write(wb_part, wb)
-        pkg.override(part, CT_WORKSHEET)
-    styles = pkg.styles
+    part = _clear_our_sheet(pkg, book, name) if ours else _add_sheet(pkg, name)
+    rows_xml = _sheet_rows(pkg.styles, sheet)
+    cols = "".join(f'<col min="{c + 1}" max="{c + 1}" width="{w:g}" customWidth="1"/>'
+                   for c, w in sorted(sheet.widths.items()))
+    drawing = _put_chart(pkg, part, name, sheet) if sheet.chart else ""
+    # printed landscape, as wide as the page; the chart (a row below the break) starts a page of its own
+    breaks = (f'<rowBreaks count="1" manualBreakCount="1"><brk id="{len(sheet.rows) + 1}" max="16383" man="1"/>'
+              "</rowBreaks>") if sheet.chart else ""
+    xml = (f'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<worksheet xmlns="{NS_MAIN}" '
+           f'xmlns:r="{NS_REL}"><sheetPr><pageSetUpPr fitToPage="1"/></sheetPr>'
+           f'<dimension ref="A1:{column_letter(max((len(r) for r in sheet.rows), default=1) - 1)}'
+           f'{max(len(sheet.rows), 1)}"/><sheetViews><sheetView workbookViewId="0"/></sheetViews>'
+           f'<sheetFormatPr defaultRowHeight="15"/>' + (f"<cols>{cols}</cols>" if cols else "")
+           + f'<sheetData>{"".join(rows_xml)}</sheetData><pageMargins left="0.5" right="0.5" top="0.75" '
+           f'bottom="0.75" header="0.3" footer="0.3"/>{_PAGE_SETUP.format(p="", wide=1)}{breaks}{drawing}</worksheet>')
+    pkg.write(part, xml)
+
+
+def _clear_our_sheet(pkg: _Package, book: XlsxBook, name: str) -> str:
+    """The part of our earlier sheet ``name``, emptied: its relationships, drawing and chart removed."""
+    part = book._part(name)
+    pkg.owned.add(part)
+    for rel in _read_rels(pkg.zf, part):  # our old drawing and chart go with the old sheet
+        target = _rel_target(part, rel.get("Target", ""))
+        if rel.get("Type") == REL_DRAWING:
+            for r2 in _read_rels(pkg.zf, target):
+                pkg.remove(_rel_target(target, r2.get("Target", "")))
+                pkg.owned.add(pkg.actual(_rel_target(target, r2.get("Target", ""))))
+            pkg.remove(_rels_path(target))
+            pkg.remove(target)
+            pkg.owned.add(pkg.actual(target))
+    pkg.remove(_rels_path(part))
+    return part
+
+
+def _add_sheet(pkg: _Package, name: str) -> str:
+    """A new worksheet part, listed last in the workbook as ``name``."""
+    part = pkg.free("xl/worksheets/sheet{}.xml")
+    wb_part = _workbook_part(pkg.zf)
+    rid = pkg.add_rel(wb_part, REL_WORKSHEET, posixpath.relpath(part, posixpath.dirname(wb_part)))
+    wb = pkg.read(wb_part)
+    ids = [int(x) for x in re.findall(r'\bsheetId="(\d+)"', wb)]
+    m = re.search(r"</(\w+:)?sheets>", wb)
+    p = m.group(1) or ""
+    rp = _rel_prefix(wb) or "r"
+    decl = "" if _rel_prefix(wb) else f' xmlns:r="{NS_REL}"'
+    wb = (wb[:m.start()] + f'<{p}sheet name="{_text(name)}" sheetId="{max(ids, default=0) + 1}"{decl} '
+          f'{rp}:id="{rid}"/>' + wb[m.start():])
+    pkg.write(wb_part, wb)
+    pkg.override(part, CT_WORKSHEET)
+    return part
+
+
+def _sheet_rows(styles, sheet) -> list[str]:
+    """The ``<row>`` elements of a sheet of ours: numbers as numbers (not NaN or infinite), the
+    rest as inline text (text a spreadsheet would read as a formula is quoted)."""
     rows_xml = []
     for r, row in enumerate(sheet.rows):
         cells = []
@@ -1653,33 +1681,23 @@ def _put_sheet(pkg: _Package, book: XlsxBook, sheet) -> None:
                 cells.append(f'<c r="{ref}"{sattr} t="inlineStr"><is><t xml:space="preserve">{_text(text)}</t></is></c>')
         if cells:
             rows_xml.append(f'<row r="{r + 1}">{"".join(cells)}</row>')
-    cols = "".join(f'<col min="{c + 1}" max="{c + 1}" width="{w:g}" customWidth="1"/>'
-                   for c, w in sorted(sheet.widths.items()))
-    drawing = ""
-    if sheet.chart:
-        d_part = pkg.free("xl/drawings/drawing{}.xml")
-        c_part = pkg.free("xl/charts/chart{}.xml")
-        drid = pkg.add_rel(part, REL_DRAWING, "../drawings/" + posixpath.basename(d_part))
-        crid = pkg.add_rel(d_part, REL_CHART, "../charts/" + posixpath.basename(c_part))
-        pkg.override(d_part, CT_DRAWING)
-        pkg.override(c_part, CT_CHART)
-        ncols = max(max((len(r) for r in sheet.rows), default=8), 8)
-        # a landscape page as wide as these columns is about 0.2 rows high per character of width
-        width = sum(sheet.widths.get(c, 8.43) for c in range(ncols))
-        pkg.write(d_part, _drawing_xml(crid, len(sheet.rows) + 2, ncols, max(15, min(40, int(width * 0.2)))))
-        pkg.write(c_part, _chart_xml(name, sheet))
-        drawing = f'<drawing r:id="{drid}"/>'
-    # printed landscape, as wide as the page; the chart (a row below the break) starts a page of its own
-    breaks = (f'<rowBreaks count="1" manualBreakCount="1"><brk id="{len(sheet.rows) + 1}" max="16383" man="1"/>'
-              "</rowBreaks>") if sheet.chart else ""
-    xml = (f'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<worksheet xmlns="{NS_MAIN}" '
-           f'xmlns:r="{NS_REL}"><sheetPr><pageSetUpPr fitToPage="1"/></sheetPr>'
-           f'<dimension ref="A1:{column_letter(max((len(r) for r in sheet.rows), default=1) - 1)}'
-           f'{max(len(sheet.rows), 1)}"/><sheetViews><sheetView workbookViewId="0"/></sheetViews>'
-           f'<sheetFormatPr defaultRowHeight="15"/>' + (f"<cols>{cols}</cols>" if cols else "")
-           + f'<sheetData>{"".join(rows_xml)}</sheetData><pageMargins left="0.5" right="0.5" top="0.75" '
-           f'bottom="0.75" header="0.3" footer="0.3"/>{_PAGE_SETUP.format(p="", wide=1)}{breaks}{drawing}</worksheet>')
-    pkg.write(part, xml)
+    return rows_xml
+
+
+def _put_chart(pkg: _Package, part: str, name: str, sheet) -> str:
+    """Write the sheet's chart (a drawing and a chart part, below the rows); gives its ``<drawing>``."""
+    d_part = pkg.free("xl/drawings/drawing{}.xml")
+    c_part = pkg.free("xl/charts/chart{}.xml")
+    drid = pkg.add_rel(part, REL_DRAWING, "../drawings/" + posixpath.basename(d_part))
+    crid = pkg.add_rel(d_part, REL_CHART, "../charts/" + posixpath.basename(c_part))
+    pkg.override(d_part, CT_DRAWING)
+    pkg.override(c_part, CT_CHART)
+    ncols = max(max((len(r) for r in sheet.rows), default=8), 8)
+    # a landscape page as wide as these columns is about 0.2 rows high per character of width
+    width = sum(sheet.widths.get(c, 8.43) for c in range(ncols))
+    pkg.write(d_part, _drawing_xml(crid, len(sheet.rows) + 2, ncols, max(15, min(40, int(width * 0.2)))))
+    pkg.write(c_part, _chart_xml(name, sheet))
+    return f'<drawing r:id="{drid}"/>'
 
 
 _PAGE_SETUP = '<{p}pageSetup orientation="landscape" fitToWidth="{wide}" fitToHeight="0"/>'

@@ -173,60 +173,17 @@ def quantities_table(inputs: Inputs, res: Results) -> SheetTable:
     """
     us = inputs.us_units
     t = inputs.lines
-    q = res.quantities
     s = SheetTable("Quantities")
     lu, au, vu = _UNITS["length"][us], _UNITS["area"][us], _UNITS["volume"][us]
     s.add(["lagsheet quantities", f"lagsheet {__version__}"], bold=True)
     s.add([])
     s.add(["Material", "Size", "Layers", "Lines", f"Pipe length [{lu}]", f"Surface area [{au}]",
            f"Insulation volume [{vu}]", f"Jacket area [{au}]"], bold=True)
-    if q is None:
+    if res.quantities is None:
         return s
     size_col = t.get("size")
     style = size_style([size_col[i] for i in range(res.n)] if size_col is not None else [], us)
-    groups: dict[tuple, dict] = {}
-    for i, L in enumerate(res.lines):
-        if res.status[i] == "error" or not np.isfinite(res.values["thickness"][i]):
-            continue
-        od = 2 * L.r_inner
-        if L.geometry == FLAT:
-            size, order = L.word, 1e9
-        elif L.geometry == SPHERE or L.word == "vessel":
-            size, order = f"{L.word}, OD {show(od, 'radius', us)}", round(od, 4)
-        else:
-            size, order = size_label(od, style, us)
-        # a line is one line of each material it holds: slots of one material (Insulation and
-        # Outer insulation alike) make one row of that line, their layers shown inner first
-        laid = [j for j in range(len(L.materials)) if res.chosen[i, j] > 0]
-        by_name: dict[str, list[int]] = {}
-        for j in laid:
-            by_name.setdefault(L.materials[j].name, []).append(j)
-        for name, slots in by_name.items():
-            th = float(sum(res.chosen[i, j] for j in slots))
-            g = groups.setdefault((name, order, size, th, _build(res.chosen[i], q.layers[i, 0], slots, us)),
-                                  {"lines": 0, "length": 0.0, "area": 0.0, "volume": 0.0, "jacket": 0.0})
-            g["lines"] += 1
-            if L.geometry == CYLINDER:
-                g["length"] += L.length
-            elif L.geometry == FLAT:
-                g["area"] += L.area
-            elif L.geometry == SPHERE:
-                g["area"] += math.pi * od**2  # the sphere's own surface, to be covered
-            g["volume"] += float(sum(q.volume[i, 0, j] for j in slots))
-            if laid[-1] in slots:  # the jacket goes on the outer material
-                g["jacket"] += float(q.jacket_area[i, 0])
-    fm = {4: "#,##0.0", 5: "#,##0.0", 6: "#,##0.00", 7: "#,##0.0"}
-    by_material: dict[str, list] = {}
-    for key in sorted(groups):  # per material and size, thin to thick
-        by_material.setdefault(key[0], []).append(key)
-    for mat, keys in by_material.items():
-        tot = {"lines": 0, "length": 0.0, "area": 0.0, "volume": 0.0, "jacket": 0.0}
-        for key in keys:
-            g = groups[key]
-            for k in tot:
-                tot[k] += g[k]
-            s.add(_q_row(mat, key[2], key[4], g, us), fm)
-        s.add(_q_row(f"{mat} total", "", "", tot, us), fm, bold=True)
+    _material_rows(s, _groups(res, style, us), us)
     s.add([])
     s.add([{"NPS": "Sizes as NPS, the way most lines of the sheet give them; ",
             "inch": "Sizes in inches, the way most lines of the sheet give them; ",
@@ -236,6 +193,66 @@ def quantities_table(inputs: Inputs, res: Results) -> SheetTable:
            "Pipe length for pipes and risers (a vessel's height), surface area for flats and spheres."])
     s.widths = {0: 26, 1: 14, 2: 22, 3: 8, 4: 16, 5: 16, 6: 18, 7: 16}
     return s
+
+
+def _size_of(L, style: str, us: bool) -> tuple[str, float]:
+    """(label, sort key) of a line's size in the Quantities: flats by their word, vessels and
+    spheres by their outside diameter, pipes in the sheet's own style (:func:`size_label`)."""
+    od = 2 * L.r_inner
+    if L.geometry == FLAT:
+        return L.word, 1e9
+    if L.geometry == SPHERE or L.word == "vessel":
+        return f"{L.word}, OD {show(od, 'radius', us)}", round(od, 4)
+    return size_label(od, style, us)
+
+
+def _groups(res: Results, style: str, us: bool) -> dict[tuple, dict]:
+    """(material, size order, size, thickness, build) -> its lines, length, area, volume and jacket
+    area, over the computed lines. A line is one line of each material it holds: slots of one
+    material (Insulation and Outer insulation alike) make one row, their layers inner first."""
+    q = res.quantities
+    groups: dict[tuple, dict] = {}
+    for i, L in enumerate(res.lines):
+        if res.status[i] == "error" or not np.isfinite(res.values["thickness"][i]):
+            continue
+        size, order = _size_of(L, style, us)
+        laid = [j for j in range(len(L.materials)) if res.chosen[i, j] > 0]
+        by_name: dict[str, list[int]] = {}
+        for j in laid:
+            by_name.setdefault(L.materials[j].name, []).append(j)
+        for name, slots in by_name.items():
+            th = float(sum(res.chosen[i, j] for j in slots))
+            g = groups.setdefault((name, order, size, th, _build(res.chosen[i], q.layers[i, 0], slots, us)),
+                                  {**dict.fromkeys(_AMOUNTS, 0.0), "lines": 0})
+            g["lines"] += 1
+            if L.geometry == CYLINDER:
+                g["length"] += L.length
+            elif L.geometry == FLAT:
+                g["area"] += L.area
+            elif L.geometry == SPHERE:
+                g["area"] += math.pi * (2 * L.r_inner) ** 2  # the sphere's own surface, to be covered
+            g["volume"] += float(sum(q.volume[i, 0, j] for j in slots))
+            if laid[-1] in slots:  # the jacket goes on the outer material
+                g["jacket"] += float(q.jacket_area[i, 0])
+    return groups
+
+
+_AMOUNTS = ("lines", "length", "area", "volume", "jacket")
+
+
+def _material_rows(s: SheetTable, groups: dict[tuple, dict], us: bool) -> None:
+    """One row per material, size and build (thin to thick), then the material's total."""
+    fm = {4: "#,##0.0", 5: "#,##0.0", 6: "#,##0.00", 7: "#,##0.0"}
+    by_material: dict[str, list] = {}
+    for key in sorted(groups):
+        by_material.setdefault(key[0], []).append(key)
+    for mat, keys in by_material.items():
+        tot = {**dict.fromkeys(_AMOUNTS, 0.0), "lines": 0}
+        for key in keys:
+            for k in tot:
+                tot[k] += groups[key][k]
+            s.add(_q_row(mat, key[2], key[4], groups[key], us), fm)
+        s.add(_q_row(f"{mat} total", "", "", tot, us), fm, bold=True)
 
 
 def _build(chosen, layers, slots: list[int], us: bool) -> str:

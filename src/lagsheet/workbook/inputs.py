@@ -6,7 +6,6 @@ sizes) and the defaults, and notes every doubt; it knows nothing of heat.
 
 from __future__ import annotations
 
-import difflib
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -18,6 +17,7 @@ from . import library, plausibility
 from .tables import Table, read_table, split_header, unused_columns
 from .tables import header_map as check_header_map
 from .units import UnitTextError, from_si, is_unit, parse_unit, split_currency, to_si, unit_label
+from .words import suggest
 
 
 @dataclass(frozen=True)
@@ -154,64 +154,79 @@ def _settings(book: Book, notes: list[Note]) -> dict[str, object]:
         key = by_name.get(fold(label))
         where = address(r, cv if cv is not None else cs)
         if key is None:
-            near = difflib.get_close_matches(fold(label), list(by_name), n=2, cutoff=0.6)
             notes.append(Note("warning", "unknown-setting", f"setting {label!r} is not known and is ignored"
-                              + (f"; did you mean {', '.join(near)}?" if near else ""), name, where))
+                              + suggest(label, by_name, show=str), name, where))
             continue
-        title, dim, si, default, kind = schema.SETTINGS[key]
-        value = raw.value(r, cv) if cv is not None else None
-        if value is None:
-            continue
-        if kind == schema.TEXT:
-            values[key] = str(value).strip()
-            values["_given"].add(key)
-            continue
-        unit_text = str(raw.value(r, cu)).strip() if cu is not None and raw.value(r, cu) is not None else dim
-        # a cell formatted as a percentage holds the fraction: a typed '88%' is stored as 0.88
-        percent_cell = (cv is not None and (r, cv) in raw.percent and isinstance(value, (int, float))
-                        and not isinstance(value, bool))
-        if (dim == "%" and (cu is None or raw.value(r, cu) is None) and isinstance(value, (int, float))
-                and not isinstance(value, bool) and 0 < value < 1 and not percent_cell):
-            unit_text = "1"  # no unit written and under 1: a fraction (0.85), not 0.85 %
-            notes.append(Note("info", "percent-fraction", f"setting {title!r}: {value!r} has no unit and is "
-                              f"read as the fraction {value:g} ({value * 100:g} %)", name, where))
-        currency, unit_text = split_currency(unit_text)
-        try:
-            number = float(value)
-            unit = parse_unit(unit_text if unit_text else "1")
-            if not is_unit(unit, dim):
-                raise UnitTextError(f"unit {unit_text!r} is not like {dim}")
-            if percent_cell and is_unit(unit, "1"):
-                number = float(from_si([number], "1", str(unit))[0])
-                label = unit_label(unit)
-                notes.append(Note("info", "percent-cell", f"setting {title!r} is formatted as a percentage "
-                                  f"({value * 100:g}%, stored as {value:g}): read as "
-                                  + (f"the fraction {number:g}" if label == "1" else f"{number:g} {label}"),
-                                  name, where))
-            converted = float(to_si([number], unit, si, difference=kind == schema.DIFFERENCE)[0])
-            lo, closed, hi = schema.SETTING_RANGES[key]
-            if not (np.isfinite(converted) and (converted >= lo if closed else converted > lo) and converted <= hi):
-                raise _SettingError(f"it must be {'from' if closed else 'above'} {_show_setting(lo, si, unit)} "
-                                 f"{'to' if closed else 'and at most'} {_show_setting(hi, si, unit)}")
-            if str(unit) == "percent" and 0 < number < 1:
-                words = (f"{number:g} % looks like {number * 100:g} % stored as a fraction (as a cell formatted "
-                         f"as a percentage stores it); write {number * 100:g} %, or the fraction with the unit 1")
-                if key == "heating_efficiency":  # no plant runs at under 1 %: the costs would be 100 × off
-                    raise _SettingError(words)
-                notes.append(Note("warning", "percent-fraction", f"setting {title!r}: {words}", name, where))
-            values[key] = converted
-            values["_given"].add(key)
-            if currency and "currency" not in values["_given"]:
-                values["currency"] = currency
-        except (TypeError, ValueError, OverflowError) as exc:
-            written = f"{value} {unit_text or ''}".strip()
-            if isinstance(exc, _SettingError):  # our words, with the fix in them
-                fix = f"cannot be used: {exc}; the default is used"
-            else:
-                why = f" ({exc})" if isinstance(exc, UnitTextError) else ""  # our words only
-                fix = f"cannot be used{why}; write a number with a unit like {dim or 'none'}; the default is used"
-            notes.append(Note("error", "bad-setting", f"setting {title!r}: '{written}' {fix}", name, where))
+        _setting_row(raw, r, key, (cv, cu), values, notes, name, where)
     return values
+
+
+def _setting_row(raw, r: int, key: str, value_unit: tuple[int | None, int | None], values: dict,
+                 notes: list[Note], name: str, where: str) -> None:
+    """Read the value of setting ``key`` on row ``r`` into ``values`` (SI), noting what it was read
+    as; a value that cannot be used is an error note and leaves the default."""
+    cv, cu = value_unit
+    title, dim, si, default, kind = schema.SETTINGS[key]
+    value = raw.value(r, cv) if cv is not None else None
+    if value is None:
+        return
+    if kind == schema.TEXT:
+        values[key] = str(value).strip()
+        values["_given"].add(key)
+        return
+    unit_text = str(raw.value(r, cu)).strip() if cu is not None and raw.value(r, cu) is not None else dim
+    # a cell formatted as a percentage holds the fraction: a typed '88%' is stored as 0.88
+    percent_cell = (cv is not None and (r, cv) in raw.percent and isinstance(value, (int, float))
+                    and not isinstance(value, bool))
+    if (dim == "%" and (cu is None or raw.value(r, cu) is None) and isinstance(value, (int, float))
+            and not isinstance(value, bool) and 0 < value < 1 and not percent_cell):
+        unit_text = "1"  # no unit written and under 1: a fraction (0.85), not 0.85 %
+        notes.append(Note("info", "percent-fraction", f"setting {title!r}: {value!r} has no unit and is "
+                          f"read as the fraction {value:g} ({value * 100:g} %)", name, where))
+    currency, unit_text = split_currency(unit_text)
+    try:
+        values[key] = _setting_si(key, value, unit_text, percent_cell, notes, name, where)
+        values["_given"].add(key)
+        if currency and "currency" not in values["_given"]:
+            values["currency"] = currency
+    except (TypeError, ValueError, OverflowError) as exc:
+        written = f"{value} {unit_text or ''}".strip()
+        if isinstance(exc, _SettingError):  # our words, with the fix in them
+            fix = f"cannot be used: {exc}; the default is used"
+        else:
+            why = f" ({exc})" if isinstance(exc, UnitTextError) else ""  # our words only
+            fix = f"cannot be used{why}; write a number with a unit like {dim or 'none'}; the default is used"
+        notes.append(Note("error", "bad-setting", f"setting {title!r}: '{written}' {fix}", name, where))
+
+
+def _setting_si(key: str, value, unit_text: str, percent_cell: bool, notes: list[Note], name: str,
+                where: str) -> float:
+    """A setting's number in SI, checked against its range; raises ValueError (a
+    :class:`_SettingError` in our words, a UnitTextError) or TypeError when it cannot be used."""
+    title, dim, si, default, kind = schema.SETTINGS[key]
+    number = float(value)
+    unit = parse_unit(unit_text if unit_text else "1")
+    if not is_unit(unit, dim):
+        raise UnitTextError(f"unit {unit_text!r} is not like {dim}")
+    if percent_cell and is_unit(unit, "1"):
+        number = float(from_si([number], "1", str(unit))[0])
+        label = unit_label(unit)
+        notes.append(Note("info", "percent-cell", f"setting {title!r} is formatted as a percentage "
+                          f"({value * 100:g}%, stored as {value:g}): read as "
+                          + (f"the fraction {number:g}" if label == "1" else f"{number:g} {label}"),
+                          name, where))
+    converted = float(to_si([number], unit, si, difference=kind == schema.DIFFERENCE)[0])
+    lo, closed, hi = schema.SETTING_RANGES[key]
+    if not (np.isfinite(converted) and (converted >= lo if closed else converted > lo) and converted <= hi):
+        raise _SettingError(f"it must be {'from' if closed else 'above'} {_show_setting(lo, si, unit)} "
+                            f"{'to' if closed else 'and at most'} {_show_setting(hi, si, unit)}")
+    if str(unit) == "percent" and 0 < number < 1:
+        words = (f"{number:g} % looks like {number * 100:g} % stored as a fraction (as a cell formatted "
+                 f"as a percentage stores it); write {number * 100:g} %, or the fraction with the unit 1")
+        if key == "heating_efficiency":  # no plant runs at under 1 %: the costs would be 100 × off
+            raise _SettingError(words)
+        notes.append(Note("warning", "percent-fraction", f"setting {title!r}: {words}", name, where))
+    return converted
 
 
 def _show_setting(x: float, si: str, unit) -> str:
@@ -330,80 +345,106 @@ def _materials(book: Book, notes: list[Note], columns: list[dict],
         notes.extend(t.cell_notes.get(i, []))
         if names is not None and names[i]:
             groups.setdefault(library.key(names[i]), []).append(i)
-    def unusable_here(idx, key_="name"):
-        where = f"{name}!{t.cell(idx[0], key_)}"
-        unusable[library.key(names[idx[0]])] = where
-        base_ = library.lookup(library.materials(), names[idx[0]])
-        if base_ is not None:
-            unusable[library.key(base_.name)] = where
-
     for idx in groups.values():
-        if any(t.bad[i] for i in idx):
-            unusable_here(idx)
-            notes.append(Note("error", "bad-material",
-                              f"material {names[idx[0]]!r} has cells in error and is not used", name,
-                              t.cell(idx[0], "name")))
+        label = names[idx[0]]
+        base = library.lookup(library.materials(), label)
+        try:
+            rec = _material(t, label, idx, base, notes)
+        except _Unusable as u:
+            where = f"{name}!{t.cell(idx[0], u.key)}"
+            unusable[library.key(label)] = where
+            if base is not None:
+                unusable[library.key(base.name)] = where
             continue
-        tm = np.array([_num(t, "mean_temperature", i) for i in idx])
-        kk = np.array([_num(t, "conductivity", i) for i in idx])
-        ok = np.isfinite(tm) & np.isfinite(kk)
-        base = library.lookup(library.materials(), names[idx[0]])
-        fields = {}
-        if ok.any():
-            order = np.argsort(tm[ok])
-            tm_s, k_s = tm[ok][order], kk[ok][order]
-            if np.any(np.diff(tm_s) <= 0):
-                notes.append(Note("error", "bad-material",
-                                  f"material {names[idx[0]]!r} lists the same mean temperature twice",
-                                  name, t.cell(idx[0], "mean_temperature")))
-                unusable_here(idx, "mean_temperature")
-                continue
-            fields.update(mean_temperatures=tuple(tm_s), conductivities=tuple(k_s))
-        elif base is None:
-            notes.append(Note("error", "bad-material",
-                              f"material {names[idx[0]]!r} needs 'Mean temperature' and 'Conductivity' "
-                              "on at least one row", name, t.cell(idx[0], "conductivity")))
-            unusable_here(idx, "conductivity")
-            continue
-        for key_, attr in (("max_temperature", "max_temperature"), ("min_temperature", "min_temperature"),
-                           ("cost_per_volume", "cost_per_volume"), ("max_layer", "max_layer")):
-            vals = [_num(t, key_, i) for i in idx]
-            vals = [v for v in vals if np.isfinite(v)]
-            if vals:
-                fields[attr] = vals[0]
-                if attr == "max_layer":
-                    fields["max_layer_us"] = vals[0]
-        th = t.get("thicknesses")
-        if th is not None:
-            texts = [th[i] for i in idx if th[i] not in (None, "")]
-            if texts:
-                col = t.columns["thicknesses"]
-                try:
-                    nums, unit = library.parse_thickness_cell(str(texts[0]))  # '1, 1½, 2 in': inches
-                    th_si = tuple(float(x) for x in to_si(nums, parse_unit(unit) if unit else col.unit, "m"))
-                    if not all(_THICKNESS[0] <= x <= _THICKNESS[1] for x in th_si):
-                        raise ValueError(f"thickness list {texts[0]!r} must hold thicknesses from "
-                                         f"{_THICKNESS[0] * 1000:g} mm to {_THICKNESS[1] * 1000:g} mm")
-                    fields["thicknesses"] = fields["thicknesses_us"] = th_si  # the user's list, either system
-                except (ValueError, OverflowError) as exc:
-                    notes.append(Note("error", "bad-thicknesses", f"{exc}; write e.g. '25, 40, 50'; material "
-                                      f"{names[idx[0]]!r} is not used until then", name, t.cell(idx[0], "thicknesses")))
-                    unusable_here(idx, "thicknesses")
-                    continue
-        if "conductivities" in fields:
-            floor = plausibility.below_still_air(str(names[idx[0]]), np.array(fields["mean_temperatures"]),
-                                                 np.array(fields["conductivities"]))
-            if floor is not None:
-                notes.append(Note("warning", "below-still-air",
-                                  f"material {names[idx[0]]!r} has a conductivity below still air "
-                                  f"({floor:.4f} W/(m·K) at that temperature, CoolProp); a conventional insulation "
-                                  "cannot do that (common practice): check the unit of 'Conductivity', or name "
-                                  "the material as an aerogel or vacuum insulation", name, t.cell(idx[0], "conductivity")))
-        if base is not None:
-            rec = replace(base, **fields, source=f"{name} sheet (overrides the built-in {base.name!r})")
-        else:
-            rec = library.Material(name=str(names[idx[0]]), source=f"{name} sheet", **fields)
-        out[library.key(base.name if base is not None else names[idx[0]])] = rec
-        if base is not None and library.key(names[idx[0]]) != library.key(base.name):
-            out[library.key(names[idx[0]])] = rec
+        out[library.key(base.name if base is not None else label)] = rec
+        if base is not None and library.key(label) != library.key(base.name):
+            out[library.key(label)] = rec
     return out
+
+
+class _Unusable(Exception):
+    """A material of the Materials sheet that cannot be used (its error is noted); ``key`` is the
+    field whose cell the lines naming it are pointed to."""
+
+    def __init__(self, key: str):
+        super().__init__(key)
+        self.key = key
+
+
+def _material(t: Table, label, idx: list[int], base: library.Material | None,
+              notes: list[Note]) -> library.Material:
+    """The material of rows ``idx`` (one name) of the Materials sheet, over the built-in ``base``
+    of that name if any; raises :class:`_Unusable` (with the error noted) when it cannot be used."""
+    name = t.sheet
+    if any(t.bad[i] for i in idx):
+        notes.append(Note("error", "bad-material", f"material {label!r} has cells in error and is not used",
+                          name, t.cell(idx[0], "name")))
+        raise _Unusable("name")
+    fields = _conductivity_curve(t, label, idx, base, notes)
+    for key_, attr in (("max_temperature", "max_temperature"), ("min_temperature", "min_temperature"),
+                       ("cost_per_volume", "cost_per_volume"), ("max_layer", "max_layer")):
+        vals = [_num(t, key_, i) for i in idx]
+        vals = [v for v in vals if np.isfinite(v)]
+        if vals:
+            fields[attr] = vals[0]
+            if attr == "max_layer":
+                fields["max_layer_us"] = vals[0]
+    fields.update(_thickness_list(t, label, idx, notes))
+    if "conductivities" in fields:
+        floor = plausibility.below_still_air(str(label), np.array(fields["mean_temperatures"]),
+                                             np.array(fields["conductivities"]))
+        if floor is not None:
+            notes.append(Note("warning", "below-still-air",
+                              f"material {label!r} has a conductivity below still air "
+                              f"({floor:.4f} W/(m·K) at that temperature, CoolProp); a conventional insulation "
+                              "cannot do that (common practice): check the unit of 'Conductivity', or name "
+                              "the material as an aerogel or vacuum insulation", name, t.cell(idx[0], "conductivity")))
+    if base is not None:
+        return replace(base, **fields, source=f"{name} sheet (overrides the built-in {base.name!r})")
+    return library.Material(name=str(label), source=f"{name} sheet", **fields)
+
+
+def _conductivity_curve(t: Table, label, idx: list[int], base: library.Material | None,
+                        notes: list[Note]) -> dict:
+    """The material's conductivity against mean temperature, sorted, from its rows (none given:
+    the built-in's, or :class:`_Unusable`); a mean temperature listed twice is :class:`_Unusable`."""
+    tm = np.array([_num(t, "mean_temperature", i) for i in idx])
+    kk = np.array([_num(t, "conductivity", i) for i in idx])
+    ok = np.isfinite(tm) & np.isfinite(kk)
+    if ok.any():
+        order = np.argsort(tm[ok])
+        tm_s, k_s = tm[ok][order], kk[ok][order]
+        if np.any(np.diff(tm_s) <= 0):
+            notes.append(Note("error", "bad-material", f"material {label!r} lists the same mean temperature twice",
+                              t.sheet, t.cell(idx[0], "mean_temperature")))
+            raise _Unusable("mean_temperature")
+        return {"mean_temperatures": tuple(tm_s), "conductivities": tuple(k_s)}
+    if base is None:
+        notes.append(Note("error", "bad-material",
+                          f"material {label!r} needs 'Mean temperature' and 'Conductivity' "
+                          "on at least one row", t.sheet, t.cell(idx[0], "conductivity")))
+        raise _Unusable("conductivity")
+    return {}
+
+
+def _thickness_list(t: Table, label, idx: list[int], notes: list[Note]) -> dict:
+    """The material's own list of sold thicknesses (its first 'Thicknesses' cell), for either unit
+    system; {} when none; :class:`_Unusable` when the list does not read."""
+    th = t.get("thicknesses")
+    if th is None:
+        return {}
+    texts = [th[i] for i in idx if th[i] not in (None, "")]
+    if not texts:
+        return {}
+    col = t.columns["thicknesses"]
+    try:
+        nums, unit = library.parse_thickness_cell(str(texts[0]))  # '1, 1½, 2 in': inches
+        th_si = tuple(float(x) for x in to_si(nums, parse_unit(unit) if unit else col.unit, "m"))
+        if not all(_THICKNESS[0] <= x <= _THICKNESS[1] for x in th_si):
+            raise ValueError(f"thickness list {texts[0]!r} must hold thicknesses from "
+                             f"{_THICKNESS[0] * 1000:g} mm to {_THICKNESS[1] * 1000:g} mm")
+    except (ValueError, OverflowError) as exc:
+        notes.append(Note("error", "bad-thicknesses", f"{exc}; write e.g. '25, 40, 50'; material "
+                          f"{label!r} is not used until then", t.sheet, t.cell(idx[0], "thicknesses")))
+        raise _Unusable("thicknesses") from None
+    return {"thicknesses": th_si, "thicknesses_us": th_si}  # the user's list, either system

@@ -7,7 +7,6 @@ Knows fields and units (``schema``, ``units``), nothing of heat. Every problem i
 from __future__ import annotations
 
 import datetime as dt
-import difflib
 import re
 from dataclasses import dataclass, field
 from operator import itemgetter
@@ -27,6 +26,7 @@ from .units import (
     to_si,
     unit_label,
 )
+from .words import did_you_mean, nearest, suggest
 
 _HEADER_UNIT = re.compile(r"^(.*?)\s*[\[(]\s*([^\[\]()]*(?:\([^()]*\)[^\[\]()]*)*)\s*[\])]\s*$")
 
@@ -95,11 +95,6 @@ class Table:
         return address(self.rows[i], c.col) if c else address(self.rows[i], 0)
 
 
-def _suggest(word: str, choices) -> str:
-    near = difflib.get_close_matches(fold(word), list(choices), n=3, cutoff=0.6)
-    return f"; did you mean {', '.join(repr(n) for n in near)}?" if near else ""
-
-
 def _known(fields, row: list) -> int:
     """How many of ``fields`` the cells of ``row`` name (as headers, with or without a unit)."""
     found = set()
@@ -121,7 +116,7 @@ def header_map(pairs: dict[str, str], fields) -> dict[str, str]:
     for theirs, ours in pairs.items():
         name = split_header(ours)[0]
         if schema.match(fields, fold(name)) is None:
-            near = _suggest(name, [f.header.lower() for f in fields])
+            near = suggest(name, [f.header.lower() for f in fields], n=3)
             raise InputError(f"--map: {ours!r} is not a column lagsheet reads on this sheet{near}")
         out[fold(split_header(theirs)[0])] = ours
     return out
@@ -247,12 +242,12 @@ def unused_columns(t: Table, fields, outputs=()) -> list[Note]:
                               "at its named 'Condition' (indoor when blank); put these values in a row of the "
                               "Conditions sheet and name that row in the line's 'Condition'", t.sheet, where))
             continue
-        near = difflib.get_close_matches(name, list(known), n=1, cutoff=0.75)
+        near = nearest(name, known, n=1, cutoff=0.75)
         if near:
             f = known[near[0]]
             aliases = ", ".join(repr(a) for a in f.aliases) or "none"
-            hint = (f"; did you mean {f.header!r}{' [' + f.unit + ']' if f.unit else ''}? "
-                    f"(also accepted: {aliases})")
+            hint = (did_you_mean([f"{f.header!r}{' [' + f.unit + ']' if f.unit else ''}"])
+                    + f" (also accepted: {aliases})")
         else:
             hint = "; it is kept as it is (rename it to a lagsheet header if it was meant as an input)"
         notes.append(Note("warning", "unknown-header",
@@ -339,34 +334,14 @@ def _parses(v) -> bool:
 
 
 def _convert(sheet: RawSheet, t: Table, c: Column) -> None:
+    """Read column ``c`` of ``t``'s rows into ``c.values`` (SI floats, or text), noting each cell in doubt."""
     f = c.field
     raw = _column(sheet, t.rows, c.col)
     here = address(t.header_row, c.col)
     if sheet.uncached:
-        for i, r in enumerate(t.rows):
-            if (r, c.col) in sheet.uncached:
-                t.add(i, Note("error", "formula-not-cached",
-                              f"{f.header!r} is a formula with no saved result; open the workbook in a "
-                              "spreadsheet program, recalculate and save it, then run lagsheet again",
-                              sheet.name, address(r, c.col)))
+        _uncached_formulas(sheet, t, c)
     if f.kind in (schema.TEXT, schema.YESNO) and f.key != "thicknesses":
-        texts = [None if v is None else v.strip() if type(v) is str else _text(v) for v in raw]
-        if f.kind == schema.YESNO:
-            for i, w in enumerate(texts):
-                if w is None:
-                    continue
-                w = fold(w)
-                if w in schema.YES:
-                    texts[i] = True
-                elif w in schema.NO:
-                    texts[i] = False
-                else:
-                    t.add(i, Note("error", "not-yes-no", f"{f.header!r} must be yes or no: {shown(raw[i])}",
-                                  sheet.name, address(t.rows[i], c.col)))
-                    texts[i] = None
-        vals = np.empty(len(raw), dtype=object)
-        vals[:] = texts
-        c.values = vals
+        _text_column(sheet, t, c, raw)
         return
     if f.key == "thicknesses":
         unit_ok = _column_unit(t, c, here)
@@ -381,6 +356,45 @@ def _convert(sheet: RawSheet, t: Table, c: Column) -> None:
                 t.add(i, Note("error", "column-unit", f"not computed: {c.message}",
                               sheet.name, address(t.rows[i], c.col)))
         return
+    _number_column(sheet, t, c, raw)
+
+
+def _uncached_formulas(sheet: RawSheet, t: Table, c: Column) -> None:
+    """An error on each cell of the column that is a formula with no saved result."""
+    for i, r in enumerate(t.rows):
+        if (r, c.col) in sheet.uncached:
+            t.add(i, Note("error", "formula-not-cached",
+                          f"{c.field.header!r} is a formula with no saved result; open the workbook in a "
+                          "spreadsheet program, recalculate and save it, then run lagsheet again",
+                          sheet.name, address(r, c.col)))
+
+
+def _text_column(sheet: RawSheet, t: Table, c: Column, raw: list) -> None:
+    """A text column as stripped text; a yes/no column as True, False or None (with an error)."""
+    f = c.field
+    texts = [None if v is None else v.strip() if type(v) is str else _text(v) for v in raw]
+    if f.kind == schema.YESNO:
+        for i, w in enumerate(texts):
+            if w is None:
+                continue
+            w = fold(w)
+            if w in schema.YES:
+                texts[i] = True
+            elif w in schema.NO:
+                texts[i] = False
+            else:
+                t.add(i, Note("error", "not-yes-no", f"{f.header!r} must be yes or no: {shown(raw[i])}",
+                              sheet.name, address(t.rows[i], c.col)))
+                texts[i] = None
+    vals = np.empty(len(raw), dtype=object)
+    vals[:] = texts
+    c.values = vals
+
+
+def _number_column(sheet: RawSheet, t: Table, c: Column, raw: list) -> None:
+    """A quantity column in SI: number cells converted from the column's unit, any other cell read
+    by :func:`_other_cell`; then the range and plausibility checks."""
+    f = c.field
     difference = f.kind == schema.DIFFERENCE
     # numbers as they are (float or int cells); every other cell is looked at below, in order
     nan = np.nan
@@ -390,60 +404,10 @@ def _convert(sheet: RawSheet, t: Table, c: Column) -> None:
     if sheet.percent and plain:
         raw = _percent_cells(sheet, t, c, plain, raw, nums)
     for i in others:
-        v = raw[i]
-        if isinstance(v, (dt.date, dt.time, dt.timedelta)):
-            kind = "time" if isinstance(v, (dt.time, dt.timedelta)) else "date"
-            t.add(i, Note("error", "not-a-number",
-                          f"{f.header!r} holds a {kind} ({shown(v)}) where a {_dimension_word(f)} belongs: the "
-                          f"cell is formatted as a {kind}. Format it as a number (Format Cells, Number) and check "
-                          "the value", sheet.name, address(t.rows[i], c.col)))
-            continue
-        if isinstance(v, bool) or not isinstance(v, (int, float, str)):
-            t.add(i, Note("error", "not-a-number", f"{f.header!r} must be a number: {shown(v)}",
-                          sheet.name, address(t.rows[i], c.col)))
-            continue
-        if isinstance(v, str):
-            try:
-                number, unit = parse_quantity_text(v)
-            except UnitTextError:
-                t.add(i, Note("error", "not-a-number",
-                              f"{f.header!r} must be a number in {unit_label(c.unit)}: {v!r}; "
-                              "type the number alone", sheet.name, address(t.rows[i], c.col)))
-                continue
-            if unit is not None and f.key == "outside_diameter" and str(unit) == "inch" and str(c.unit) != "inch":
-                od = _nominal_od(v)
-                if od is not None:  # '2"' among millimetres: a practitioner's nominal size, NPS 2
-                    nums[i] = od
-                    t.add(i, Note("warning", "od-as-nominal-size",
-                                  f"{v!r} in {c.header!r} is read as the nominal size NPS {_text(number)} "
-                                  f"(outside diameter {_fmt(to_si([od], parse_unit('m'), str(c.unit))[0])} "
-                                  f"{unit_label(c.unit)}, ASME B36.10M), not as {_fmt(to_si([number], unit, str(c.unit))[0])} "
-                                  f"{unit_label(c.unit)}; put sizes in 'Size', or type the diameter in "
-                                  f"{unit_label(c.unit)}", sheet.name, address(t.rows[i], c.col)))
-                    continue
-            if unit is not None:
-                si = _cell_si(unit, c)
-                if si is None:
-                    t.add(i, Note("error", "cell-unit",
-                                  f"{v!r} is not a {f.header.lower()} (column unit {unit_label(c.unit)})",
-                                  sheet.name, address(t.rows[i], c.col)))
-                    continue
-                if si != c.si_unit:
-                    c.alternate[i] = si  # e.g. '60 W/m²' typed in a W/m column
-                    nums[i] = to_si([number], unit, si, difference=difference)[0]
-                    t.add(i, Note("info", "text-quantity", f"{f.header!r} typed as text {v!r}: read "
-                                  f"as {_fmt(nums[i])} {si.replace('**2', '²')}",
-                                  sheet.name, address(t.rows[i], c.col)))
-                    continue
-                nums[i] = to_si([number], unit, c.si_unit, difference=difference)[0]
-                t.add(i, Note("info", "text-quantity",
-                              f"{f.header!r} typed as text {v!r}: read as "
-                              f"{_fmt(to_si([number], unit, str(c.unit), difference=difference)[0])} "
-                              f"{unit_label(c.unit)}", sheet.name, address(t.rows[i], c.col)))
-                continue
-            v = number
-        plain.append(i)
-        nums[i] = float(v)
+        number = _other_cell(sheet, t, c, i, raw[i], nums)
+        if number is not None:
+            plain.append(i)
+            nums[i] = float(number)
     if plain:
         idx = np.array(sorted(plain))
         vals = nums[idx]
@@ -451,6 +415,79 @@ def _convert(sheet: RawSheet, t: Table, c: Column) -> None:
         out = np.full(len(idx), np.nan)
         out[finite] = to_si(vals[finite], c.unit, c.si_unit, difference=difference)
         nums[idx] = out
+    _out_of_range(sheet, t, c, raw, nums)
+    c.values = nums
+    _plausibility(sheet, t, c, raw, nums)
+
+
+def _other_cell(sheet: RawSheet, t: Table, c: Column, i: int, v, nums) -> float | None:
+    """A cell of a quantity column that is no plain number: the number it holds in the column's
+    unit, or None when it is an error or was read into ``nums[i]`` already (with a note)."""
+    f = c.field
+    if isinstance(v, (dt.date, dt.time, dt.timedelta)):
+        kind = "time" if isinstance(v, (dt.time, dt.timedelta)) else "date"
+        t.add(i, Note("error", "not-a-number",
+                      f"{f.header!r} holds a {kind} ({shown(v)}) where a {_dimension_word(f)} belongs: the "
+                      f"cell is formatted as a {kind}. Format it as a number (Format Cells, Number) and check "
+                      "the value", sheet.name, address(t.rows[i], c.col)))
+        return None
+    if isinstance(v, bool) or not isinstance(v, (int, float, str)):
+        t.add(i, Note("error", "not-a-number", f"{f.header!r} must be a number: {shown(v)}",
+                      sheet.name, address(t.rows[i], c.col)))
+        return None
+    if isinstance(v, str):
+        return _quantity_text(sheet, t, c, i, v, nums)
+    return v
+
+
+def _quantity_text(sheet: RawSheet, t: Table, c: Column, i: int, v: str, nums) -> float | None:
+    """A quantity typed as text ('50', '2 in', '60 W/m²'): the bare number in the column's unit,
+    or None when it is an error or its own unit was converted into ``nums[i]`` (with a note)."""
+    f = c.field
+    where = address(t.rows[i], c.col)
+    try:
+        number, unit = parse_quantity_text(v)
+    except UnitTextError:
+        t.add(i, Note("error", "not-a-number",
+                      f"{f.header!r} must be a number in {unit_label(c.unit)}: {v!r}; "
+                      "type the number alone", sheet.name, where))
+        return None
+    if unit is None:
+        return number
+    if f.key == "outside_diameter" and str(unit) == "inch" and str(c.unit) != "inch":
+        od = _nominal_od(v)
+        if od is not None:  # '2"' among millimetres: a practitioner's nominal size, NPS 2
+            nums[i] = od
+            t.add(i, Note("warning", "od-as-nominal-size",
+                          f"{v!r} in {c.header!r} is read as the nominal size NPS {_text(number)} "
+                          f"(outside diameter {_fmt(to_si([od], parse_unit('m'), str(c.unit))[0])} "
+                          f"{unit_label(c.unit)}, ASME B36.10M), not as {_fmt(to_si([number], unit, str(c.unit))[0])} "
+                          f"{unit_label(c.unit)}; put sizes in 'Size', or type the diameter in "
+                          f"{unit_label(c.unit)}", sheet.name, where))
+            return None
+    difference = f.kind == schema.DIFFERENCE
+    si = _cell_si(unit, c)
+    if si is None:
+        t.add(i, Note("error", "cell-unit", f"{v!r} is not a {f.header.lower()} (column unit {unit_label(c.unit)})",
+                      sheet.name, where))
+        return None
+    if si != c.si_unit:
+        c.alternate[i] = si  # e.g. '60 W/m²' typed in a W/m column
+        nums[i] = to_si([number], unit, si, difference=difference)[0]
+        t.add(i, Note("info", "text-quantity", f"{f.header!r} typed as text {v!r}: read "
+                      f"as {_fmt(nums[i])} {si.replace('**2', '²')}", sheet.name, where))
+        return None
+    nums[i] = to_si([number], unit, c.si_unit, difference=difference)[0]
+    t.add(i, Note("info", "text-quantity",
+                  f"{f.header!r} typed as text {v!r}: read as "
+                  f"{_fmt(to_si([number], unit, str(c.unit), difference=difference)[0])} "
+                  f"{unit_label(c.unit)}", sheet.name, where))
+    return None
+
+
+def _out_of_range(sheet: RawSheet, t: Table, c: Column, raw: list, nums) -> None:
+    """An error on each cell whose SI value is outside the field's range (its value becomes NaN)."""
+    f = c.field
     # a cell is range-checked when it holds something that gave a number (or is a float: NaN)
     looked = np.array([v is not None for v in raw], dtype=bool)
     looked &= ~np.isnan(nums) | np.array([isinstance(v, float) for v in raw], dtype=bool)
@@ -464,8 +501,6 @@ def _convert(sheet: RawSheet, t: Table, c: Column) -> None:
         t.add(i, Note("error", "out-of-range", _range_message(f, c, raw[i]),
                       sheet.name, address(t.rows[i], c.col)))
         nums[i] = np.nan
-    c.values = nums
-    _plausibility(sheet, t, c, raw, nums)
 
 
 def _percent_cells(sheet: RawSheet, t: Table, c: Column, plain: list[int], raw: list, nums) -> list:
