@@ -298,3 +298,32 @@ def test_any_bytes_read_as_a_book_or_one_sentence(data):
         assert str(exc).startswith("x.csv: ") and "\n" not in str(exc)
         return
     assert book.sheet_names() == ["Lines"]
+
+
+def test_libreoffice_keeps_the_written_formula_like_text_as_text(tmp_path, cli):
+    """LibreOffice opening the filled CSV makes no formula of '=1+2' or '@cmd' (it does of an
+    unmarked '=1+2', checked alongside, so the check can fail); the lines' numbers stay numbers."""
+    from roundtrip.checks import require_soffice
+    from roundtrip.corpus import soffice
+
+    require_soffice()
+    src = write_csv(tmp_path / "f.csv", PIPE_HEADER, [pipe(service="=1+2"), pipe("P-2", "@cmd")])
+    assert cli("fill", src, "-o", tmp_path / "filled.csv", "-q").exit_code == 0
+    (tmp_path / "raw.csv").write_bytes(b"Tag,Service\r\nP-1,=1+2\r\n")
+    r = soffice(["--convert-to", "xlsx", "--outdir", str(tmp_path / "lo"), str(tmp_path / "filled.csv"),
+                 str(tmp_path / "raw.csv")], tmp_path / "profile")
+    assert r.returncode == 0, r.stderr
+    ws = openpyxl.load_workbook(tmp_path / "lo" / "filled.xlsx").active
+    assert [(ws[f"B{k}"].value, ws[f"B{k}"].data_type) for k in (2, 3)] == [("'=1+2", "s"), ("'@cmd", "s")]
+    assert ws["E2"].data_type == "n" and isinstance(ws["I2"].value, (int, float))  # Length; Thickness
+    raw = openpyxl.load_workbook(tmp_path / "lo" / "raw.xlsx").active
+    assert raw["B2"].data_type == "f"
+
+
+def test_the_workbook_written_from_a_csv_is_valid(demo_filled):
+    """The new .xlsx a CSV is filled to has no finding of the Open XML schema validator."""
+    from roundtrip.validators import findings, require_validators
+
+    require_validators()
+    d, _ = demo_filled
+    assert findings(d / "from-csv.xlsx") == set()
