@@ -7,14 +7,12 @@ from pathlib import Path
 import typer
 
 from . import __version__
+from .outputs.cautions import SHORT
 
 app = typer.Typer(add_completion=False, no_args_is_help=True, rich_markup_mode=None,
                   help="Size and check thermal insulation for every line of an equipment schedule.")
 
-CAUTION = ("Cautions: surface limits for personnel protection depend on contact time and surface "
-           "material (ASTM C1055, ISO 13732-1); cold lines need a continuous vapour retarder; results "
-           "are design estimates to be reviewed under the owner's specification, local codes and "
-           "licensed practice.")
+CAUTION = SHORT
 
 
 _WITH_HELP = ("For a .csv schedule: the workbook (.xlsx, .xlsm, .ods) whose other sheets (Conditions, "

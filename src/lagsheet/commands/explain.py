@@ -12,6 +12,7 @@ import numpy as np
 
 from ..design.select import Results
 from ..io.table import RawSheet, address, fold
+from ..outputs.cautions import SHORT
 from ..physics.balance import solve
 from ..physics.candidates import per_line
 from ..physics.layers import CYLINDER, FLAT, SPHERE
@@ -58,8 +59,7 @@ def explain(inputs: Inputs, raw: RawSheet, res: Results, i: int) -> list[str]:
             f"CO2 {v['co2'][i]:,.0f} kg/yr"]
     if res.notes[i]:
         out += ["", "Notes:"] + [f"  {n.level}: {n.message}" for n in res.notes[i]]
-    out += ["", "Cautions: surface limits depend on contact time and surface material (ASTM C1055, ISO 13732-1); "
-            "follow local codes, the owner's specification and licensed practice."]
+    out += ["", SHORT]
     return out
 
 

@@ -10,19 +10,11 @@ from .. import __version__
 from ..design.select import Results
 from ..workbook.inputs import Inputs
 from ..workbook.results import RESULTS
+from .cautions import CAUTIONS
 from .totals import covered, total
 
 REPORTED = tuple(r for r in RESULTS if r.json)  # a line's results in the report, in this order
 
-CAUTIONS = (
-    "Surface-temperature limits for personnel protection depend on contact time and surface "
-    "material (ASTM C1055, ISO 13732-1; 5 s contact is the usual industrial basis).",
-    "Cold lines need a continuous vapour retarder; moisture ingress is not calculated.",
-    "Insulation delays freezing but never prevents it: water that may stand longer than its time "
-    "to freeze needs heat tracing or to keep flowing.",
-    "Results are design estimates: review them under the owner's specification, local codes "
-    "and licensed engineering practice.",
-)
 
 
 def _clean(v):

@@ -21,7 +21,7 @@ from ..workbook import library
 from ..workbook.display import show
 from ..workbook.inputs import Inputs
 from ..workbook.units import from_si
-from .report import CAUTIONS
+from .cautions import CAUTIONS
 from .totals import covered, total
 
 # (key, SI unit, US unit) of the quantity columns
