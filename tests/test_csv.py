@@ -241,7 +241,8 @@ def test_without_with_the_built_in_sheets_are_used(tmp_path, cli):
 
 
 def test_check_and_audit_take_a_csv(tmp_path, cli):
-    """check lists a CSV's errors by cell; audit of a CSV lagsheet filled finds nothing to report."""
+    """check lists a CSV's errors by cell (and annotates an .xlsx copy, never a CSV); audit of a CSV
+    lagsheet filled finds nothing to report."""
     src = write_csv(tmp_path / "c.csv", PIPE_HEADER, [pipe(), pipe("P-2", temperature="hot")])
     r = cli("check", src)
     assert r.exit_code == 1 and "Lines!F3" in r.output
@@ -251,6 +252,9 @@ def test_check_and_audit_take_a_csv(tmp_path, cli):
     assert r.exit_code == 0 and "2 lines" in r.output, r.output
     r = cli("check", src, "--annotate", tmp_path / "c-notes.csv")
     assert r.exit_code == 2 and "give --annotate OUT.xlsx" in r.output
+    assert cli("check", src, "--annotate", tmp_path / "c-notes.xlsx").exit_code == 1
+    comment = openpyxl.load_workbook(tmp_path / "c-notes.xlsx")["Lines"]["F3"].comment
+    assert comment is not None and "'hot'" in comment.text
 
 
 @pytest.mark.parametrize(("args", "message"), [
