@@ -15,6 +15,10 @@ app = typer.Typer(add_completion=False, no_args_is_help=True, rich_markup_mode=N
 CAUTION = SHORT
 
 
+_WITH_HELP = ("For a .csv schedule: the workbook (.xlsx, .xlsm, .ods) whose other sheets (Conditions, "
+              "Materials, Settings, Codes, Fittings, Fluids) it uses; without it, the built-in ones.")
+
+
 _MAP_HELP = ("'Their header=Our header': read a column of yours as one of lagsheet's inputs, e.g. "
              "'Insul. mat.=Insulation' or 'Pipe OD=Outside diameter [in]' (their unit wins if their header "
              "has one). Repeat for more columns.")
@@ -78,8 +82,9 @@ def _print_summary(outcome, out: Path, quiet: bool) -> None:
 
 @app.command(help="Size and evaluate every line and write the filled workbook to OUT.\n\n" + CAUTION)
 def fill(
-    file: Path = typer.Argument(..., exists=True, dir_okay=False, help="The schedule (.xlsx, .xlsm or .ods)."),
-    output: Path = typer.Option(None, "-o", "--output", dir_okay=False, help="Where to write the filled workbook."),
+    file: Path = typer.Argument(..., exists=True, dir_okay=False, help="The schedule (.xlsx, .xlsm, .ods or .csv)."),
+    output: Path = typer.Option(None, "-o", "--output", dir_okay=False,
+                                help="Where to write the filled workbook (a .csv schedule: .csv or .xlsx)."),
     report: Path = typer.Option(None, "--report", dir_okay=False, help="Also write the JSON report here."),
     sheet: str = typer.Option("Lines", "--sheet", help="The sheet holding the lines."),
     in_place: bool = typer.Option(False, "--in-place", help="Overwrite the input (a backup copy is kept)."),
@@ -92,6 +97,7 @@ def fill(
                                           "is open (for a stale lock left by a crash)."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="Print errors only."),
     map_: list[str] = typer.Option([], "--map", help=_MAP_HELP),
+    with_: Path = typer.Option(None, "--with", exists=True, dir_okay=False, help=_WITH_HELP),
 ):
     from .commands.fill import fill as run
 
@@ -99,7 +105,7 @@ def fill(
     with _progress(quiet) as stage:
         outcome = _guarded(lambda: run(file, output, sheet=sheet, report_path=report, in_place=in_place,
                                        ignore_lock=ignore_lock, allow_loss=allow_loss, progress=stage,
-                                       header_map=mapping))
+                                       header_map=mapping, companion=with_))
     _print_summary(outcome, file if in_place else output, quiet)
     raise typer.Exit(outcome.exit_code)
 
@@ -241,23 +247,24 @@ def _refuse_unsafe(file: Path, *targets: tuple[Path | None, str]) -> None:
     _guarded(job)
 
 
-def _open_and_specify(file: Path, sheet: str):
+def _open_and_specify(file: Path, sheet: str, companion: Path | None = None):
     from .commands.fill import load
     from .design.select import specify
 
-    book, inputs = load(file, sheet)
+    book, inputs = load(file, sheet, companion=companion)
     return book, inputs, specify(inputs)
 
 
 @app.command(help="Check every column, unit and cell of FILE and list what is wrong, with the fix. "
                   "Writes nothing unless --annotate OUT (a copy with a comment on every offending cell).")
 def check(
-    file: Path = typer.Argument(..., exists=True, dir_okay=False, help="The workbook (.xlsx/.xlsm/.ods)."),
+    file: Path = typer.Argument(..., exists=True, dir_okay=False, help="The workbook (.xlsx/.xlsm/.ods/.csv)."),
     annotate: Path = typer.Option(None, "--annotate", dir_okay=False, help="Save a commented copy here."),
     report: Path = typer.Option(None, "--report", dir_okay=False, help="Also write the findings as JSON."),
     sheet: str = typer.Option("Lines", "--sheet", help="The sheet holding the lines."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="Print errors only."),
     map_: list[str] = typer.Option([], "--map", help=_MAP_HELP),
+    with_: Path = typer.Option(None, "--with", exists=True, dir_okay=False, help=_WITH_HELP),
 ):
     from rich.console import Console
     from rich.markup import escape
@@ -269,11 +276,13 @@ def check(
     from .io.save import writing
 
     _refuse_unsafe(file, (annotate, "annotated copy"), (report, "report"))
+    if with_ is not None:  # the companion workbook is an input too
+        _refuse_unsafe(with_, (annotate, "annotated copy"), (report, "report"))
 
     def job():
         # the annotated copy and the report are both written and verified before either is renamed
         with writing(inputs=[file], deferred=True):
-            outcome = run(file, sheet, annotate, mapping)
+            outcome = run(file, sheet, annotate, mapping, companion=with_)
             if report is not None:
                 from .outputs.report import write_json
 
@@ -309,12 +318,15 @@ def explain(
     tag: str = typer.Argument(..., help="The Tag of the line."),
     plot: Path = typer.Option(None, "--plot", dir_okay=False, help="Also draw the line's curves to this PNG."),
     sheet: str = typer.Option("Lines", "--sheet", help="The sheet holding the lines."),
+    with_: Path = typer.Option(None, "--with", exists=True, dir_okay=False, help=_WITH_HELP),
 ):
     from .commands.explain import explain as words
     from .commands.explain import find_line
 
     _refuse_unsafe(file, (plot, "plot"))
-    book, inputs, res = _guarded(lambda: _open_and_specify(file, sheet))
+    if with_ is not None:  # the companion workbook is an input too
+        _refuse_unsafe(with_, (plot, "plot"))
+    book, inputs, res = _guarded(lambda: _open_and_specify(file, sheet, with_))
     i = find_line(res, tag)
     if i is None:
         typer.echo(f"lagsheet: no line with Tag {tag!r} in {inputs.lines.sheet}", err=True)
@@ -341,6 +353,7 @@ def audit(
     loss_pct: float = typer.Option(5.0, "--loss-tolerance", help="Heat loss tolerance [%]."),
     sheet: str = typer.Option("Lines", "--sheet", help="The sheet holding the lines."),
     report: Path = typer.Option(None, "--report", dir_okay=False, help="Also write the findings as JSON."),
+    with_: Path = typer.Option(None, "--with", exists=True, dir_okay=False, help=_WITH_HELP),
 ):
     from dataclasses import asdict
 
@@ -348,7 +361,9 @@ def audit(
 
     mapping = _map_pairs(map_, "Thickness")
     _refuse_unsafe(file, (report, "report"))
-    book, inputs, res = _guarded(lambda: _open_and_specify(file, sheet))
+    if with_ is not None:  # the companion workbook is an input too
+        _refuse_unsafe(with_, (report, "report"))
+    book, inputs, res = _guarded(lambda: _open_and_specify(file, sheet, with_))
     result = _guarded(lambda: run(inputs, book.sheet(inputs.lines.sheet), res, mapping, surface_k,
                                   loss_pct / 100))
     for f in result.findings:
@@ -402,7 +417,7 @@ def calcs(
 
 # what --help shows after an option or argument: words a user types, not Python types ('<list[str]>')
 _METAVARS = {"output": "OUT", "report": "REPORT.json", "annotate": "OUT", "plot": "PNG", "sheet": "NAME",
-             "map_": "'THEIRS=OURS'", "surface_k": "KELVIN", "loss_pct": "PERCENT"}
+             "map_": "'THEIRS=OURS'", "with_": "BOOK", "surface_k": "KELVIN", "loss_pct": "PERCENT"}
 
 
 def _name_metavars() -> None:

@@ -33,8 +33,11 @@ class CheckOutcome:
 
 
 def check(path: Path, sheet: str = "Lines", annotate: Path | None = None,
-          header_map: dict[str, str] | None = None) -> CheckOutcome:
-    book = open_book(Path(path))
+          header_map: dict[str, str] | None = None, companion: Path | None = None) -> CheckOutcome:
+    if annotate is not None and Path(annotate).suffix.lower() == ".csv":
+        raise WorkbookError(f"{Path(annotate).name}: a CSV file holds no comments; give --annotate OUT.xlsx "
+                            "for a copy with a comment on every offending cell")
+    book = open_book(Path(path), companion, sheet)
     inputs = read_inputs(book, sheet, header_map)
     out = CheckOutcome(inputs)
     out.notes.extend(inputs.notes)

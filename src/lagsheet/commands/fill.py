@@ -46,10 +46,11 @@ def backup_path(path: Path) -> Path:
     raise WorkbookError(f"{path.name}: 9,999 backups of it exist beside it; move some away")
 
 
-def load(path: Path, sheet: str = "Lines", header_map: dict[str, str] | None = None):
+def load(path: Path, sheet: str = "Lines", header_map: dict[str, str] | None = None,
+         companion: Path | None = None):
     """Open and check a workbook; exit-2 problems (no Lines sheet, header or required column, a
     --map that names no column) raise."""
-    book = open_book(Path(path))
+    book = open_book(Path(path), companion, sheet)
     inputs = read_inputs(book, sheet, header_map)
     fatal = [n for n in inputs.notes if n.level == "error" and n.code in
              ("no-lines-sheet", "no-header", "missing-column", "map-unused")]
@@ -60,20 +61,21 @@ def load(path: Path, sheet: str = "Lines", header_map: dict[str, str] | None = N
 
 def fill(path: Path, out: Path | None, *, sheet: str = "Lines", report_path: Path | None = None,
          in_place: bool = False, ignore_lock: bool = False, allow_loss: bool = False,
-         progress=None, header_map: dict[str, str] | None = None) -> Outcome:
+         progress=None, header_map: dict[str, str] | None = None, companion: Path | None = None) -> Outcome:
     """Size and evaluate every line of ``path`` and write the filled workbook to ``out``.
 
     ``progress``, if given, is called with the name of each stage as it starts
-    ('reading', 'solving', 'writing'); the CLI shows it.
+    ('reading', 'solving', 'writing'); the CLI shows it. ``companion``: for a ``.csv``
+    schedule, the workbook its other sheets come from (``--with``).
     """
     step = progress or (lambda stage: None)
     path = Path(path)
     out = _output_path(path, out, in_place)
-    rules = {"inputs": [path], "in_place": path if in_place else None, "lock_option": "--ignore-lock"}
+    rules = {"inputs": [path, *([Path(companion)] if companion is not None else [])], "in_place": path if in_place else None, "lock_option": "--ignore-lock"}
     report_path = Path(report_path) if report_path is not None else None
     notes = _refuse_unsafe_paths(path, out, report_path, in_place, ignore_lock, rules)
     step("reading")
-    book, inputs = load(path, sheet, header_map)
+    book, inputs = load(path, sheet, header_map, companion)
     inputs.notes[:0] = notes
     step("solving")
     res = specify(inputs)
@@ -87,7 +89,8 @@ def fill(path: Path, out: Path | None, *, sheet: str = "Lines", report_path: Pat
 
 def _output_path(path: Path, out: Path | None, in_place: bool) -> Path:
     """The file to write (the input itself with ``in_place``); refuses a missing input, an output
-    that would overwrite the input without ``in_place``, and an output of another file type."""
+    that would overwrite the input without ``in_place``, and an output of another file type
+    (but for a ``.csv`` schedule, which may also be written as a new ``.xlsx``)."""
     if in_place:
         out = path
     if out is None:
@@ -99,7 +102,10 @@ def _output_path(path: Path, out: Path | None, in_place: bool) -> Path:
         raise WorkbookError(f"{out}: the output would overwrite the input; choose another -o, "
                             "or give --in-place (a backup copy is kept)")
     if out.suffix.lower() != path.suffix.lower():
-        raise WorkbookError(f"{out.name}: the output must have the input's type ({path.suffix})")
+        if path.suffix.lower() != ".csv":
+            raise WorkbookError(f"{out.name}: the output must have the input's type ({path.suffix})")
+        if out.suffix.lower() != ".xlsx":
+            raise WorkbookError(f"{out.name}: a CSV schedule is written as .csv or .xlsx")
     return out
 
 
@@ -112,7 +118,7 @@ def _refuse_unsafe_paths(path: Path, out: Path, report_path: Path | None, in_pla
             raise WorkbookError(f"{report_path}: the report would overwrite the workbook; "
                                 "choose another --report file")
         refuse_unsafe(report_path, what="report", ignore_lock=ignore_lock,
-                      **{**rules, "inputs": [path, out]})
+                      **{**rules, "inputs": [*rules["inputs"], out]})
     notes: list[Note] = []
     lock = refuse_unsafe(out, ignore_lock=ignore_lock, **rules)
     if lock is not None:
