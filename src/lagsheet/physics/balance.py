@@ -1,10 +1,11 @@
 """The outer-surface energy balance, solved for every line at once.
 
-Conduction in through the layers equals convection plus radiation out. The unknown is
+Conduction in through the layers plus the absorbed sunlight α·G equals convection plus
+radiation out. The unknown is
 the outer heat flux q [W/m²], scaled by q₀, the flux the outer surface would give up at
 the operating temperature: x = q/q₀ lies in [0, 1] for hot and cold lines alike, and
 the residual x − q_surf(T_s(x q₀))/q₀ rises monotonically from −1 to ≥ 0 across that
-bracket. scipy's elementwise Chandrupatla root finder solves all lines together.
+bracket (with sunlight q_surf is net of α·G, and q₀ too: the bracket still holds). scipy's elementwise Chandrupatla root finder solves all lines together.
 """
 
 from __future__ import annotations
@@ -47,6 +48,9 @@ class System:
     # a fixed combined surface coefficient [W/(m²·K)] in place of the correlations and radiation,
     # NaN where not fixed (None: nowhere). For audits that reproduce simplified hand methods.
     h_fixed: np.ndarray | None = None
+    # absorbed solar irradiation α·G·F [W/m²] at the outer surface, one more gain in the balance
+    # (None: none). The caller decides G's geometry factor F and where the sun may count.
+    absorbed: np.ndarray | None = None
 
 
 @dataclass(frozen=True)
@@ -86,12 +90,14 @@ def _solve(s: System, table: MaterialTable) -> Solution:
     d_out = 2.0 * radii[:, -1]
     flow = np.ones(n) if s.flow_length is None else s.flow_length
     fixed = np.full(n, np.nan) if s.h_fixed is None else np.asarray(s.h_fixed, dtype=float)
+    sun = np.zeros(n) if s.absorbed is None else np.asarray(s.absorbed, dtype=float)
 
     def flux(rows, ts):
+        """What conduction must bring to the surface: convection + radiation out − sun in."""
         q, c = surface_flux(s.shape[rows], ts, s.t_air[rows], s.t_surroundings[rows], s.wind[rows],
                             s.emissivity[rows], d_out[rows], s.height[rows], flow[rows])
         hf = fixed[rows]
-        return np.where(np.isfinite(hf), hf * (ts - s.t_air[rows]), q), c
+        return np.where(np.isfinite(hf), hf * (ts - s.t_air[rows]), q) - sun[rows], c
 
     every = np.arange(n)
     q0, _ = flux(every, s.t_operating)
