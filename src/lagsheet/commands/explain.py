@@ -90,8 +90,17 @@ def _layers(L, s1, sol, res: Results, us: bool) -> list[str]:
         m = int(s1.material[0, j])
         k = float(res.table.mean_conductivity(np.array([m]), faces[j:j + 1], faces[j + 1:j + 2])[0])
         out.append(f"  {show(th, 'thickness', us)} {res.table.names[m]}: {show(faces[j], 'temperature', us)} -> "
-                   f"{show(faces[j + 1], 'temperature', us)}, k = {k:.4f} W/(m·K)")
+                   f"{show(faces[j + 1], 'temperature', us)}, k = {k:.4f} W/(m·K)"
+                   + _declared(L, res.table.names[m], k))
     return out
+
+
+def _declared(L, name: str, k: float) -> str:
+    """' (design value: declared 0.0400 × 'Design factor' 1.1)' when the material's k is multiplied, else ''."""
+    mat = next((m for m in L.materials if m.name == name), None)
+    if mat is None or mat.design_factor == 1.0:
+        return ""
+    return f" (design value: declared {k / mat.design_factor:.4f} × 'Design factor' {mat.design_factor:g})"
 
 
 def _outer_surface(L, s1, sol, v, i: int, us: bool) -> list[str]:
