@@ -263,3 +263,13 @@ def test_a_code_minimum_under_a_warmer_target_does_not_govern(tmp_path, cli):
     assert res["governing"] == "surface temperature"
     assert res["thickness_m"] > res["code_thickness_m"] + 0.01
     assert math.isfinite(res["code_thickness_m"])
+
+
+def test_explain_prints_the_row_the_line_k_and_the_corrected_thickness(tmp_path, cli):
+    src = write_xlsx(tmp_path / "in.xlsx", sheets_si({"A-200": CASES["A-200"]}))
+    r = cli("explain", src, "A-200")
+    assert r.exit_code == 0, r.output
+    line = next(x for x in r.output.splitlines() if x.strip().startswith("code ASHRAE 90.1"))
+    assert "heating above 350 °F" in line and "127 mm at k 0.0462 to 0.0490 W/(m·K), 121.1 °C" in line
+    assert f"design k there {k40(F250):.4f}" in line
+    assert line.endswith(f"{CASES['A-200'][1] * 1000:.1f} mm")

@@ -141,10 +141,24 @@ def _targets(res: Results, i: int, us: bool) -> list[str]:
             m, kind = margins[name]
             text += f"; margin {_signed(m, kind, us)}"
         out.append(f"  {name}: {text}")
+    out += _code(res.lines[i], us)
     out.append(f"  governing: {v['governing'][i]}" + (f" at '{v['governing_condition'][i]}'"
                                                       if v["governing_condition"][i] else ""))
     out.append(f"  chosen: {v['layers'][i]}")
     return out
+
+
+def _code(L, us: bool) -> list[str]:
+    """How the line's code minimum was found: the row, its thickness and the correction."""
+    if not L.code_basis:
+        return []
+    name, t, k_line = L.code_basis
+    row = L.code_row
+    rng = (f"{row.k_low:.4f} to {row.k_rating:.4f}" if np.isfinite(row.k_low) else f"{row.k_rating:.4f}")
+    return [f"    code {name} ({row.where}): {show(t, 'thickness', us)} at k {rng} W/(m·K), "
+            f"{show(row.t_rating, 'temperature', us)}; the line's design k there {k_line:.4f} W/(m·K); "
+            f"T = r[(1 + t/r)^(K/k) - 1] with r = {show(L.r_inner, 'radius', us)}: "
+            f"{show(L.code_thickness, 'radius', us)}"]
 
 
 def convection_lengths(L, s1, sol) -> tuple[tuple[str, float], tuple[str, float], tuple[str, float]]:

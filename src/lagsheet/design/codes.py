@@ -119,5 +119,7 @@ def apply(L, cells, code: Code) -> None:
                    "no code minimum applied; give 'Min thickness' or add a row on the Codes sheet")
         return
     t = row_thickness(row, d, outdoor(L))
-    L.code_thickness = corrected(row, t, L.r_inner, line_k(L.materials, row.t_rating))
+    k_line = line_k(L.materials, row.t_rating)
+    L.code_thickness = corrected(row, t, L.r_inner, k_line)
     L.code_row = row
+    L.code_basis = (code.name, t, k_line)

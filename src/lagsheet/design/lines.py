@@ -63,6 +63,7 @@ class Line:
     process: Process = field(default_factory=Process)
     code_thickness: float = np.nan  # the 'Code' minimum corrected to the line's material [m] (design.codes)
     code_row: object = None  # the code's row that gave it
+    code_basis: tuple = ()  # (code name, its thickness for this line [m], the line's design k there [W/(m·K)])
 
     @property
     def per_length(self) -> bool:
