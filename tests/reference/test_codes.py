@@ -114,7 +114,7 @@ def _line(tag: str, c: dict) -> list:
 
 
 def sheets_si(cases=CASES) -> dict[str, list[list]]:
-    return {"Lines": [HEAD] + [_line(tag, c) for tag, (c, _) in cases.items()], "Materials": MATERIALS,
+    return {"Lines": [list(HEAD)] + [_line(tag, c) for tag, (c, _) in cases.items()], "Materials": MATERIALS,
             "Codes": CODES}
 
 
@@ -273,3 +273,14 @@ def test_explain_prints_the_row_the_line_k_and_the_corrected_thickness(tmp_path,
     assert "heating above 350 °F" in line and "127 mm at k 0.0462 to 0.0490 W/(m·K), 121.1 °C" in line
     assert f"design k there {k40(F250):.4f}" in line
     assert line.endswith(f"{CASES['A-200'][1] * 1000:.1f} mm")
+
+
+def test_a_bare_line_naming_a_code_is_warned_not_passed(tmp_path, cli):
+    sheets = sheets_si({"G-20": CASES["G-20"]})
+    sheets["Lines"][0].append("Fixed thickness [mm]")
+    sheets["Lines"][1][9] = None  # no insulation
+    sheets["Lines"][1].append(0)
+    lines, _ = fill(cli, tmp_path, sheets, "xlsx")
+    notes = [n for n in lines["G-20"]["notes"] if n["code"] == "code-bare"]
+    assert lines["G-20"]["status"] == "warning" and len(notes) == 1
+    assert "asks for 20 mm at its rating conductivity (GEG Anlage 8)" in notes[0]["message"]

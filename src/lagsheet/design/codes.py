@@ -101,7 +101,7 @@ def apply(L, cells, code: Code) -> None:
         cells.info("code-shape", "code", f"'Code' {code.name} is a table for pipes and risers: no code "
                    f"minimum for a {L.word}; give 'Min thickness' for it")
         return
-    if not (L.materials and np.isfinite(L.r_inner) and np.isfinite(L.t_op)):
+    if not (np.isfinite(L.r_inner) and np.isfinite(L.t_op)) or not (L.materials or L.fixed):
         return  # the line's own errors say what is missing
     if code.basis == INSIDE:
         d, why = bore_of(L, cells)
@@ -119,6 +119,11 @@ def apply(L, cells, code: Code) -> None:
                    "no code minimum applied; give 'Min thickness' or add a row on the Codes sheet")
         return
     t = row_thickness(row, d, outdoor(L))
+    if not L.materials:  # a bare line ('Fixed thickness' 0): nothing to correct, and nothing meets it
+        if t > 0:
+            cells.warn("code-bare", "fixed_thickness", f"the bare line does not meet code {code.name!r}, which "
+                       f"asks for {show(t, 'thickness', us)} at its rating conductivity ({row.where})")
+        return
     k_line = line_k(L.materials, row.t_rating)
     L.code_thickness = corrected(row, t, L.r_inner, k_line)
     L.code_row = row
