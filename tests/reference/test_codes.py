@@ -284,3 +284,18 @@ def test_a_bare_line_naming_a_code_is_warned_not_passed(tmp_path, cli):
     notes = [n for n in lines["G-20"]["notes"] if n["code"] == "code-bare"]
     assert lines["G-20"]["status"] == "warning" and len(notes) == 1
     assert "asks for 20 mm at its rating conductivity (GEG Anlage 8)" in notes[0]["message"]
+
+
+@pytest.mark.parametrize("deg_f, row", [(140.0, "heating 105–140 °F"), (140.5, "heating 141–200 °F"),
+                                        (105.0, "heating 105–140 °F"), (350.0, "heating 251–350 °F"),
+                                        (350.5, "heating above 350 °F"), (60.0, "cooling 40–60 °F"),
+                                        (40.0, "cooling 40–60 °F"), (39.9, "cooling below 40 °F"),
+                                        (80.0, None), (104.9, None)])
+def test_the_ashrae_rows_meet_at_the_published_whole_degrees(deg_f, row):
+    """'105–140', '141–200', ..., 'above 350', '40–60', 'below 40' °F: each published value in its row,
+    nothing between 60 and 105 °F."""
+    from lagsheet.design.codes import find_row
+    from lagsheet.workbook.codes import builtin
+
+    found = find_row(builtin()["ashrae 90.1"], (deg_f - 32) / 1.8 + 273.15, 0.0603)
+    assert (found.where.split(", ")[1] if found else None) == row
