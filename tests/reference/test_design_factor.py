@@ -68,3 +68,16 @@ def test_check_refuses_a_factor_below_1_or_implausibly_large_naming_the_cell(tmp
     assert bad and "'Design factor' must be >= 1 and <= 5" in bad[0]["message"]
     line = [n for n in notes if n["sheet"] == "Lines" and n["code"] == "bad-material"]
     assert line and "Materials!A4" in line[0]["message"]  # the line naming it points to the material's row
+
+
+def test_the_calculation_package_lists_the_design_k_and_says_so(tmp_path, cli):
+    from test_calcs import _require_poppler, pages
+
+    _require_poppler()
+    assert cli("fill", book(tmp_path), "-o", tmp_path / "o.xlsx").exit_code == 0
+    r = cli("calcs", tmp_path / "o.xlsx", "-o", tmp_path / "c.pdf", "--all")
+    assert r.exit_code == 0, r.output
+    text = "\n".join(pages(tmp_path / "c.pdf"))
+    block = text[text.index("\naged"):][:1500]  # the material's block: its words and its k(T) table
+    assert "design value: declared × 'Design factor' 1.25" in " ".join(block.split())
+    assert "0.0500" in block and "0.1000" in block  # 0.040 and 0.080 declared, × 1.25
