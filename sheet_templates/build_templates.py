@@ -109,6 +109,9 @@ _HELP = {
                        "contents: the warmest they may reach).",
     "part_of": "Process: the Tag of the vessel this line is a head or bottom of; its heat loss "
                "counts in the vessel's Hold time.",
+    "code": "Target: an energy code's minimum thickness: ASHRAE 90.1 (by fluid temperature and "
+            "nominal size), GEG (by inside diameter; 200 % outdoors) or a table of the Codes sheet. "
+            "Pipes and risers. Corrected to the material's conductivity; gives Code thickness [mm].",
 }
 _WIDTH = {
     "tag": 14, "area": 16, "service": 28, "shape": 10, "size": 10, "outside_diameter": 13,
@@ -118,7 +121,7 @@ _WIDTH = {
     "economic": 10, "min_thickness": 13, "fixed_thickness": 14,
     "flow_rate": 12, "fluid": 12, "operating_pressure": 14, "inside_diameter": 13, "schedule": 10,
     "max_temperature_drop": 15, "freeze_protection": 13, "contents_volume": 13, "hold_time": 10,
-    "min_temperature": 14, "part_of": 12,
+    "min_temperature": 14, "part_of": 12, "code": 13,
 }
 # Units shown in headers where the field's own unit text is not the one to show.
 _SHOW_UNIT = {"cost_per_volume": f"{CURRENCY}/m³", "operating_hours": "h/yr"}
@@ -209,6 +212,9 @@ def _lines_sheet() -> Sheet:
                                "fill checks every name."))
     for key, title in (("prevent_condensation", "Prevent condensation"), ("economic", "Economic")):
         dd.append(Dropdown(COL[key], yes_no, title=title, message="Write yes or no."))
+    dd.append(Dropdown(COL["code"], ("ASHRAE 90.1", "GEG"), title="Code",
+                       message="Not a built-in code. Keep it if the Codes sheet has a table of that name; "
+                               "fill checks every name."))
     return Sheet("Lines", rows, [_WIDTH[f.key] for f in schema.LINE_FIELDS], header_row=0,
                  freeze=(1, 1), dropdowns=dd)
 
@@ -223,7 +229,7 @@ def _conditions_sheet() -> Sheet:
 
 def _materials_sheet() -> Sheet:
     return Sheet("Materials", [[header(f) for f in schema.MATERIAL_FIELDS]],
-                 [18, 16, 14, 16, 16, 16, 26, 11], header_row=0, freeze=(1, 0))
+                 [18, 16, 14, 16, 16, 16, 26, 11, 12], header_row=0, freeze=(1, 0))
 
 
 _SETTING_MEANING = {
@@ -245,6 +251,11 @@ _SETTING_MEANING = {
                        "common practice).",
 }
 _SETTING_UNIT = {"year": "yr"}
+
+
+def _codes_sheet() -> Sheet:
+    return Sheet("Codes", [[header(f) for f in schema.CODE_FIELDS]], [16, 16, 16, 11, 11, 14, 16, 18],
+                 header_row=0, freeze=(1, 0))
 
 
 def _fluids_sheet() -> Sheet:
@@ -290,8 +301,8 @@ def _paragraphs() -> list[tuple[str | None, str | None]]:
         ("Every line needs", "Tag, Shape and Operating temperature; pipes also Size or Outside diameter, "
                              "and Length; flat shapes (wall, top, underside) Surface area; and Insulation, "
                              "unless Fixed thickness is 0."),
-        ("Targets", "Give any of Max surface temperature, Max heat loss, Prevent condensation, Economic "
-                    "and Min thickness: fill picks the thinnest sold thickness that meets all of them. "
+        ("Targets", "Give any of Max surface temperature, Max heat loss, Prevent condensation, Economic, "
+                    "Min thickness and Code: fill picks the thinnest sold thickness that meets all of them. "
                     "Fixed thickness evaluates a thickness you give instead."),
         ("Dropdowns", "Shape, Condition, Insulation, Outer insulation, Finish, Prevent condensation and "
                       "Economic offer lists. Other entries are allowed (aliases, your own materials, "
@@ -309,14 +320,22 @@ def _paragraphs() -> list[tuple[str | None, str | None]]:
                        "wind speed, relative humidity and operating hours a year. The two rows given are "
                        "lagsheet's built-in placeholders (indoor, outdoor); change them and add your own."),
         ("Materials", "One row for each point of a material's conductivity curve: Name, Mean temperature "
-                      "and Conductivity; limits, cost, sold Thicknesses (e.g. 25, 40, 50) and Max layer "
-                      "on any row of the material. A name here replaces the built-in material of that "
+                      "and Conductivity; limits, cost, sold Thicknesses (e.g. 25, 40, 50), Max layer "
+                      "and Design factor (1 or more: declared to design conductivity for ageing, moisture "
+                      "and installation, ISO 23993; it multiplies k everywhere) on any row of the material. A name here replaces the built-in material of that "
                       "name. Leave the sheet empty to use the built-in library (lagsheet materials lists "
                       "it, with the source of every value)."),
         ("Process limits", "Flowing lines (Flow rate, Fluid, Max temperature drop) get their Outlet "
                            "temperature; steam lines their Condensate for trap sizing; water lines with "
                            "Freeze protection their Time to freeze; vessels with Hold time their Time to "
                            "cool. These columns appear only when a line uses them."),
+        ("Codes", "Optional: your own minimum-thickness tables, one row each: Code (the table's name, "
+                  "written in the Code column of Lines), Min and Max fluid temperature (min included, max "
+                  "not; blank = open), Min and Max size (a nominal size such as NPS 4 or DN 100, or an "
+                  "outside diameter with its unit such as 114.3 mm), Thickness, and the Rating "
+                  "conductivity and Rating mean temperature the thickness holds for. fill corrects the "
+                  "thickness to the line's material: T = r[(1 + t/r)^(K/k) - 1]. A table named like a "
+                  "built-in one (ASHRAE 90.1, GEG) replaces it."),
         ("Fluids", "Optional: process fluids that CoolProp does not name (thermal oils, brines): Name, "
                    "Specific heat and Density. Name them in the Fluid column of Lines."),
         ("Settings", "Prices, efficiencies and economics. The values given are lagsheet's defaults, "
@@ -362,7 +381,7 @@ def _instructions_sheet() -> Sheet:
 def sheets() -> list[Sheet]:
     """The sheets of both templates, in order."""
     return [_instructions_sheet(), _lines_sheet(), _conditions_sheet(), _materials_sheet(),
-            _fluids_sheet(), _settings_sheet()]
+            _fluids_sheet(), _codes_sheet(), _settings_sheet()]
 
 
 # --------------------------------------------------------------------------------------

@@ -42,10 +42,12 @@ LINE_HEADERS = [
     "Flow rate [kg/s]", "Fluid", "Operating pressure [bar]", "Inside diameter [mm]", "Schedule",
     "Max temperature drop [K]", "Freeze protection [h]", "Contents volume [m³]", "Hold time [h]",
     "Min temperature [°C]", "Part of",
+    "Code",  # energy-code minimums
 ]
 MATERIAL_HEADERS = ["Name", "Mean temperature [°C]", "Conductivity [W/(m·K)]", "Max temperature [°C]",
-                    "Min temperature [°C]", "Cost per volume [EUR/m³]", "Thicknesses [mm]", "Max layer [mm]"]
-SHEETS = ["Instructions", "Lines", "Conditions", "Materials", "Fluids", "Settings"]
+                    "Min temperature [°C]", "Cost per volume [EUR/m³]", "Thicknesses [mm]", "Max layer [mm]",
+                    "Design factor [1]"]
+SHEETS = ["Instructions", "Lines", "Conditions", "Materials", "Fluids", "Codes", "Settings"]
 
 
 def _letter(header: str) -> str:
@@ -65,6 +67,7 @@ DROPDOWNS = {
     _letter("Finish"): _list(f.name for f in library.finishes().values()),
     _letter("Prevent condensation"): '"yes,no"',
     _letter("Economic"): '"yes,no"',
+    _letter("Code"): '"ASHRAE 90.1,GEG"',
 }
 
 
@@ -363,7 +366,7 @@ def test_ods_dropdowns_and_frozen_rows_in_the_package():
             frozen[entry.get(f"{_C}name")] = (items["VerticalSplitMode"], items["VerticalSplitPosition"],
                                               items["HorizontalSplitPosition"])
     assert frozen == {"Instructions": ("0", "0", "0"), "Lines": ("2", "1", "1"), "Conditions": ("2", "1", "0"),
-                      "Materials": ("2", "1", "0"), "Fluids": ("2", "1", "0"),
+                      "Materials": ("2", "1", "0"), "Fluids": ("2", "1", "0"), "Codes": ("2", "1", "0"),
                       "Settings": ("2", "1", "0")}
 
 

@@ -74,6 +74,9 @@ def _limit_and_value(name: str, inputs: Inputs, res: Results, i: int, m: float, 
     if name == "minimum":
         lim = float(t.get("min_thickness")[i])
         return f"≥ {show(lim, 'thickness', us)}", show(lim + m, "thickness", us)
+    if name == "code minimum":
+        lim = L.code_thickness
+        return f"≥ {show(lim, 'thickness', us)} ({L.code_basis[0]})", show(lim + m, "thickness", us)
     if name == "interface":
         lim = L.materials[1].max_temperature
         return f"≤ {show(lim, 'temperature', us)} ({L.materials[1].name})", show(lim - m, "temperature", us)

@@ -90,8 +90,17 @@ def _layers(L, s1, sol, res: Results, us: bool) -> list[str]:
         m = int(s1.material[0, j])
         k = float(res.table.mean_conductivity(np.array([m]), faces[j:j + 1], faces[j + 1:j + 2])[0])
         out.append(f"  {show(th, 'thickness', us)} {res.table.names[m]}: {show(faces[j], 'temperature', us)} -> "
-                   f"{show(faces[j + 1], 'temperature', us)}, k = {k:.4f} W/(m·K)")
+                   f"{show(faces[j + 1], 'temperature', us)}, k = {k:.4f} W/(m·K)"
+                   + _declared(L, res.table.names[m], k))
     return out
+
+
+def _declared(L, name: str, k: float) -> str:
+    """' (design value: declared 0.0400 × 'Design factor' 1.1)' when the material's k is multiplied, else ''."""
+    mat = next((m for m in L.materials if m.name == name), None)
+    if mat is None or mat.design_factor == 1.0:
+        return ""
+    return f" (design value: declared {k / mat.design_factor:.4f} × 'Design factor' {mat.design_factor:g})"
 
 
 def _outer_surface(L, s1, sol, v, i: int, us: bool) -> list[str]:
@@ -132,10 +141,24 @@ def _targets(res: Results, i: int, us: bool) -> list[str]:
             m, kind = margins[name]
             text += f"; margin {_signed(m, kind, us)}"
         out.append(f"  {name}: {text}")
+    out += _code(res.lines[i], us)
     out.append(f"  governing: {v['governing'][i]}" + (f" at '{v['governing_condition'][i]}'"
                                                       if v["governing_condition"][i] else ""))
     out.append(f"  chosen: {v['layers'][i]}")
     return out
+
+
+def _code(L, us: bool) -> list[str]:
+    """How the line's code minimum was found: the row, its thickness and the correction."""
+    if not L.code_basis:
+        return []
+    name, t, k_line = L.code_basis
+    row = L.code_row
+    rng = (f"{row.k_low:.4f} to {row.k_rating:.4f}" if np.isfinite(row.k_low) else f"{row.k_rating:.4f}")
+    return [f"    code {name} ({row.where}): {show(t, 'thickness', us)} at k {rng} W/(m·K), "
+            f"{show(row.t_rating, 'temperature', us)}; the line's design k there {k_line:.4f} W/(m·K); "
+            f"T = r[(1 + t/r)^(K/k) - 1] with r = {show(L.r_inner, 'radius', us)}: "
+            f"{show(L.code_thickness, 'radius', us)}"]
 
 
 def convection_lengths(L, s1, sol) -> tuple[tuple[str, float], tuple[str, float], tuple[str, float]]:

@@ -61,6 +61,9 @@ class Line:
     fixed: bool = False
     economic: bool = False
     process: Process = field(default_factory=Process)
+    code_thickness: float = np.nan  # the 'Code' minimum corrected to the line's material [m] (design.codes)
+    code_row: object = None  # the code's row that gave it
+    code_basis: tuple = ()  # (code name, its thickness for this line [m], the line's design k there [W/(m·K)])
 
     @property
     def per_length(self) -> bool:
@@ -167,7 +170,10 @@ def resolve(t: Table, inputs: Inputs, i: int, notes: list[Note], cols: Columns |
     def warn(code: str, key: str, message: str):
         notes.append(Note("warning", code, message, sheet, t.cell(i, key)))
 
-    cells = Cells(t, i, num, text, err, warn, st)
+    def info(code: str, key: str, message: str):
+        notes.append(Note("info", code, message, sheet, t.cell(i, key)))
+
+    cells = Cells(t, i, num, text, err, warn, st, inputs, info)
     fluid_known = resolve_process(t, inputs, i, L, num, text, err, warn)
     for target in CHECK_ORDER:  # each target checks the inputs it reads
         if fluid_known or not target.needs_fluid:
@@ -221,6 +227,8 @@ class Cells:
     err: Callable
     warn: Callable
     settings: dict
+    inputs: Inputs | None = None
+    info: Callable | None = None
 
 
 def resolve_lines(inputs: Inputs) -> tuple[list[Line], list[list[Note]]]:

@@ -122,7 +122,7 @@ def _material_table(lines: list[Line]) -> MaterialTable:
             used.setdefault(m.name, m)
     if not used:
         used["mineral wool"] = library.materials()["mineral wool"]
-    return MaterialTable.build({k: (np.array(m.mean_temperatures), np.array(m.conductivities))
+    return MaterialTable.build({k: (np.array(m.mean_temperatures), np.array(m.design_conductivities))
                                 for k, m in used.items()})
 
 
@@ -420,6 +420,7 @@ def _values(ctx: Context, ch: Choice, rep: Solved, res: Results, inst: np.ndarra
         "installed_cost": inst,
         "payback": np.where(saving > 0, inst / np.where(saving > 0, saving, 1.0), np.nan),
         "interface_temperature": np.where(np.sum(rep.chosen_th > 0, axis=1) == 2, sol.faces[:, 1], np.nan),
+        "code_thickness": np.array([L.code_thickness for L in lines]),
     }
     v = res.values
     for key, arr in values.items():

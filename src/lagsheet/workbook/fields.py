@@ -52,7 +52,7 @@ LINE_FIELDS = (
     Field("prevent_condensation", "Prevent condensation", YESNO, aliases=("condensation control", "anti-condensation")),
     Field("economic", "Economic", YESNO, aliases=("economic thickness",)),
     Field("min_thickness", "Min thickness", NUMBER, "mm", "m",
-          ("minimum thickness", "code thickness"), -1e-12, 2.0),
+          ("minimum thickness",), -1e-12, 2.0),  # 'Code thickness' is an output (the Code column's)
     Field("fixed_thickness", "Fixed thickness", NUMBER, "mm", "m",
           ("thickness given", "existing thickness"), -1e-12, 2.0),
     # process limits (extensions of the contract): flowing lines, steam, freezing, hold time
@@ -72,6 +72,7 @@ LINE_FIELDS = (
     Field("min_temperature", "Min temperature", TEMPERATURE, "°C", "K",
           ("minimum temperature", "hold temperature", "limit temperature"), 0.0, 2000.0),
     Field("part_of", "Part of", aliases=("vessel tag", "parent")),
+    Field("code", "Code", aliases=("energy code", "code table", "minimum thickness table")),
 )
 
 CONDITION_FIELDS = (
@@ -99,6 +100,9 @@ MATERIAL_FIELDS = (
     Field("cost_per_volume", "Cost per volume", NUMBER, "1/m³", "1/m**3", ("cost", "installed cost"), -1e-12, 1e12),
     Field("thicknesses", "Thicknesses", TEXT, "mm", "m", ("sizes", "available thicknesses")),
     Field("max_layer", "Max layer", NUMBER, "mm", "m", ("max layer thickness",), 1e-3, 2.0),
+    # declared -> design conductivity (ISO 23993, VDI 2055-1): at least 1; 5 bounds typing slips
+    Field("design_factor", "Design factor", NUMBER, "1", "dimensionless",
+          ("conductivity factor", "k factor"), 1.0 - 1e-9, 5.0),
 )
 
 # Process fluids the user defines (thermal oils, brines): used where 'Fluid' names them.
@@ -107,6 +111,28 @@ FLUID_FIELDS = (
     Field("specific_heat", "Specific heat", NUMBER, "kJ/(kg·K)", "J/(kg*K)", ("cp", "heat capacity"), 50.0, 1e5),
     Field("density", "Density", NUMBER, "kg/m³", "kg/m**3", ("rho",), 1e-2, 3e4),
 )
+
+# One row of a minimum-thickness table (the Codes sheet; lagsheet.workbook.codes): ranges
+# include their min and exclude their max; sizes are nominal sizes or outside diameters with a unit.
+CODE_FIELDS = (
+    Field("code", "Code", aliases=("code name", "table")),
+    Field("min_fluid_temperature", "Min fluid temperature", TEMPERATURE, "°C", "K",
+          ("from fluid temperature", "min temperature"), 0.0, 2000.0),
+    Field("max_fluid_temperature", "Max fluid temperature", TEMPERATURE, "°C", "K",
+          ("to fluid temperature", "max temperature"), 0.0, 2000.0),
+    Field("min_size", "Min size", aliases=("from size",)),
+    Field("max_size", "Max size", aliases=("to size",)),
+    Field("thickness", "Thickness", NUMBER, "mm", "m", ("min thickness", "minimum thickness"), -1e-12, 2.0),
+    Field("rating_conductivity", "Rating conductivity", NUMBER, "W/(m·K)", "W/(m*K)",
+          ("reference conductivity", "rating k"), 1e-4, 5.0),
+    Field("rating_mean_temperature", "Rating mean temperature", TEMPERATURE, "°C", "K",
+          ("reference mean temperature", "rating temperature"), 0.0, 2000.0),
+)
+
+
+def code_header(key: str) -> str:
+    return next(f.header for f in CODE_FIELDS if f.key == key)
+
 
 # Settings: key -> (name, dimension unit, SI unit, default in SI, kind)
 SETTINGS = {

@@ -12,6 +12,7 @@ import numpy as np
 
 from ..errors import Note
 from ..io.table import Book, address, fold
+from . import codes as codes_
 from . import fields as schema
 from . import library, plausibility
 from .tables import Table, read_table, split_header, unused_columns
@@ -61,6 +62,8 @@ class Inputs:
     fluids: dict[str, UserFluid] = field(default_factory=dict)  # folded name -> fluid
     unusable: dict[str, str] = field(default_factory=dict)  # material key -> its Materials cell in error
     bad_conditions: dict[str, str] = field(default_factory=dict)  # folded condition name -> its row's cell
+    codes: dict[str, codes_.Code] = field(default_factory=codes_.builtin)  # folded name -> minimum-thickness table
+    bad_codes: dict[str, str] = field(default_factory=dict)  # folded code name -> the Codes cell in error
 
 
 def _find(book: Book, wanted: str) -> str | None:
@@ -82,6 +85,7 @@ def read_inputs(book: Book, lines_sheet: str = "Lines", header_map: dict[str, st
     unusable: dict[str, str] = {}
     materials = _materials(book, notes, columns, unusable)
     fluids = _fluids(book, notes, columns)
+    codes, bad_codes = codes_.read_codes(book, notes, columns)
     name = _find(book, lines_sheet)
     lines = read_table(book.sheet(name), schema.LINE_FIELDS, "Tag", mapping) if name else None
     if name is None:
@@ -106,7 +110,7 @@ def read_inputs(book: Book, lines_sheet: str = "Lines", header_map: dict[str, st
                                   address(lines.header_row, 0)))
     us = _us_units(lines)
     return Inputs(lines, conditions, materials, dict(library.finishes()), settings, notes, columns, us,
-                  fluids, unusable, bad_conditions)
+                  fluids, unusable, bad_conditions, codes, bad_codes)
 
 
 def _us_units(t: Table | None) -> bool:
@@ -382,7 +386,8 @@ def _material(t: Table, label, idx: list[int], base: library.Material | None,
         raise _Unusable("name")
     fields = _conductivity_curve(t, label, idx, base, notes)
     for key_, attr in (("max_temperature", "max_temperature"), ("min_temperature", "min_temperature"),
-                       ("cost_per_volume", "cost_per_volume"), ("max_layer", "max_layer")):
+                       ("cost_per_volume", "cost_per_volume"), ("max_layer", "max_layer"),
+                       ("design_factor", "design_factor")):
         vals = [_num(t, key_, i) for i in idx]
         vals = [v for v in vals if np.isfinite(v)]
         if vals:

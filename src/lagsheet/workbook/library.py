@@ -33,6 +33,14 @@ class Material:
     cost_per_volume: float = np.nan  # currency per m³ installed
     aliases: tuple[str, ...] = ()
     source: str = ""
+    # declared -> design conductivity (ISO 23993: ageing, moisture, installation; VDI 2055-1 §4.1.2):
+    # the engine, the code correction and the calculation package use k × design_factor
+    design_factor: float = 1.0
+
+    @property
+    def design_conductivities(self) -> tuple[float, ...]:
+        """The conductivities the calculation uses [W/(m·K)]: declared × 'Design factor'."""
+        return tuple(k * self.design_factor for k in self.conductivities)
 
 
 @dataclass(frozen=True)

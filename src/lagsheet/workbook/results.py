@@ -70,6 +70,8 @@ RESULTS: tuple[Result, ...] = (
     R("condensate", "Condensate", "kg/h", "lb/h", "condensate_kg_per_s", "0.00", optional=True, total=True),
     R("time_to_freeze", "Time to freeze", "h", "h", "time_to_freeze_s", optional=True),
     R("time_to_cool", "Time to cool", "h", "h", "time_to_cool_s", optional=True),
+    # the 'Code' column's minimum corrected to the line's material, before rounding up to a sold size
+    R("code_thickness", "Code thickness", "mm", "in", "code_thickness_m", optional=True),
 )
 del R
 

@@ -572,7 +572,8 @@ def _range_message(f: schema.Field, c: Column, raw) -> str:
         return f"{f.header!r} must be above absolute zero and at most {hi - 273.15:.0f} °C: {raw!r}"
     parts = []
     if lo is not None:
-        parts.append(f"> {max(lo, 0):g}" if lo >= 0 else ">= 0")
+        whole = round(lo)  # a bound just below a whole number (1 - 1e-9) lets that number in: '>= 1'
+        parts.append(f">= {whole:g}" if 0 < whole - lo < 1e-6 else f"> {max(lo, 0):g}" if lo >= 0 else ">= 0")
     if hi is not None:
         parts.append(f"<= {hi:g} {c.si_unit}")
     return f"{f.header!r} must be {' and '.join(parts)} (in SI): {raw!r}"

@@ -19,6 +19,7 @@ bisect (two materials' candidates run by total thickness, not by either layer: n
 from __future__ import annotations
 
 from .base import Context, Judgement, ProcessTarget, Target
+from .code_minimum import CodeMinimum
 from .condensation import Condensation
 from .economic import Economic
 from .freeze_protection import FreezeProtection
@@ -29,13 +30,13 @@ from .minimum import Minimum
 from .surface_temperature import SurfaceTemperature
 from .temperature_drop import TemperatureDrop
 
-__all__ = ["BY_NAME", "BY_ORDER", "CHECK_ORDER", "ECONOMIC", "GOVERNING_ORDER", "TARGETS", "Condensation",
+__all__ = ["BY_NAME", "BY_ORDER", "CHECK_ORDER", "ECONOMIC", "GOVERNING_ORDER", "TARGETS", "CodeMinimum", "Condensation",
            "Context", "Economic", "FreezeProtection", "HeatLoss", "HoldTime", "Interface", "Judgement", "Minimum",
            "ProcessTarget", "SurfaceTemperature", "Target", "TemperatureDrop", "judge"]
 
 # The registry, in the order targets are judged and listed (``explain``); ties go by ``order``.
 TARGETS: tuple[Target, ...] = (SurfaceTemperature(), HeatLoss(), Minimum(), Condensation(), Interface(),
-                               TemperatureDrop(), FreezeProtection(), HoldTime())
+                               TemperatureDrop(), FreezeProtection(), HoldTime(), CodeMinimum())
 BY_ORDER: tuple[Target, ...] = tuple(sorted(TARGETS, key=lambda x: x.order))
 GOVERNING_ORDER = tuple(x.name for x in BY_ORDER)
 BY_NAME: dict[str, Target] = {x.name: x for x in TARGETS}

@@ -128,7 +128,7 @@ def _materials(pdf: Document, res: Results, us: bool) -> None:
     pdf.heading("1.3 Materials and their conductivity k(T)", 2)
     k_unit = "Btu·in/(h·ft²·°F)" if us else "W/(m·K)"
     for m in used.values():
-        k = np.asarray(m.conductivities, dtype=float)
+        k = np.asarray(m.design_conductivities, dtype=float)  # the design values the calculation used
         k_shown = from_si(k, "W/(m*K)", "Btu*inch/(hour*foot**2*delta_degF)") if us else k
         t_shown = [float(show(t, "temperature", us).split()[0]) for t in m.mean_temperatures]
         pdf.need(max(len(m.conductivities) * (3.6 + 0.6) + 8, 48) + 16)  # the block stays on one page
@@ -137,7 +137,9 @@ def _materials(pdf: Document, res: Results, us: bool) -> None:
         lo, hi = show(m.min_temperature, "temperature", us), show(m.max_temperature, "temperature", us)
         sold = ", ".join(show(t, "thickness", us) for t in (m.thicknesses_us if us and m.thicknesses_us
                                                               else m.thicknesses)) or "every step"
-        pdf.para(f"Service {lo} to {hi}; sold {sold}; source: {m.source or 'not given'}", SMALL)
+        factor = (f"; k below is the design value: declared × 'Design factor' {m.design_factor:g} (ISO 23993)"
+                  if m.design_factor != 1.0 else "")
+        pdf.para(f"Service {lo} to {hi}; sold {sold}; source: {m.source or 'not given'}{factor}", SMALL)
         y = pdf.get_y()
         rows = [[show(t, "temperature", us), f"{kk:.4f}"] for t, kk in zip(m.mean_temperatures, k_shown,
                                                                             strict=True)]
