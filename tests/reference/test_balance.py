@@ -14,8 +14,6 @@ from __future__ import annotations
 
 from dataclasses import dataclass, replace
 
-from dataclasses import replace
-
 import numpy as np
 import pytest
 from CoolProp.CoolProp import PropsSI
