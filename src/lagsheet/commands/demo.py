@@ -5,7 +5,8 @@ The plant has steam, process and building-services pipes, a vessel, duct walls, 
 roof, a duct underside, a chilled sphere, an economic line, a two-material
 high-temperature line, lines judged at two conditions, and process limits (steam
 condensate, a flowing line's temperature drop, freeze times of standing water and a
-hot-hold tank's cool-down). The problems (a diameter typed as an inch size in the
+hot-hold tank's cool-down), a steam line on a sunny pipe rack (its own 'Solar irradiance',
+sized to the touch check in still air and full sun). The problems (a diameter typed as an inch size in the
 millimetre column, a size that disagrees with its diameter, a chilled line left without
 condensation control, a hot line with no surface limit, lines with no target, a water
 line with no pipe schedule) produce warnings, not errors; nothing else is warned about.
@@ -26,7 +27,7 @@ HEADERS = ["Tag", "Area", "Service", "Shape", "Size", "Outside diameter [mm]", "
 # process columns, filled from PROCESS below (tag -> {header: value})
 PROCESS_HEADERS = ["Fluid", "Flow rate [kg/s]", "Operating pressure [bar]", "Max temperature drop [K]",
                    "Freeze protection [h]", "Schedule", "Contents volume [m³]", "Hold time [h]",
-                   "Min temperature [°C]", "Part of"]
+                   "Min temperature [°C]", "Part of", "Solar irradiance [W/m²]"]
 
 # (tag, area, service, shape, size, od, length, T, condition, insulation, finish, Tsmax, qmax, cond,
 #  tmin, fixed[, surface area, outer insulation, economic])
@@ -88,6 +89,7 @@ LINES = [
     ("FW-9002", "Utilities", "Make-up water, outdoor", "pipe", "NPS 1", None, 60, 12, "outdoor; winter", "elastomeric foam", "pvc", None, None, None, None, None),
     ("VS-8002", "Process area", "Hot-hold product tank shell", "vessel", None, 2400, 4, 85, "outdoor; winter", "mineral wool", "aluminium", 60, None, None, None, None),
     ("VS-8002-R", "Process area", "Hot-hold product tank roof", "top", None, None, None, 85, "outdoor; winter", "mineral wool", "aluminium", 60, None, None, None, None, 4.5),
+    ("SD-2011", "Steam distribution", "MP steam on the sunny pipe rack", "pipe", "NPS 6", None, 120, 185, "outdoor", "mineral wool", "aluminium", 55, None, None, None, None),
 ]
 
 # invented process data: steam mains (condensate), a flowing hot-water line with a drop limit,
@@ -103,6 +105,7 @@ PROCESS = {
     "FW-9002": {"Freeze protection [h]": 8},
     "VS-8002": {"Fluid": "water", "Contents volume [m³]": 16, "Hold time [h]": 90, "Min temperature [°C]": 65},
     "VS-8002-R": {"Part of": "VS-8002"},
+    "SD-2011": {"Solar irradiance [W/m²]": 1000},  # full sun on the rack: sized to the touch check in still air
 }
 
 CONDITIONS = [
