@@ -143,7 +143,7 @@ def _touch_note(ctx, ch, res, i: int, limit: float) -> None:
     k = max(cases, key=lambda k: touch[k, p])
     design, sunny = ctx.c.t_surface[k, p], ctx.ts("sun")[k, p]
     still = ctx.ts("still")[k, p] if "still" in ctx.surface else -np.inf
-    plain = ctx.all_cases(ctx.c.t_surface <= limit + 1e-9)[i] & ctx.valid[i]  # at the named wind, in the shade
+    plain = (ctx.c.t_surface[cases] <= limit + 1e-9).all(axis=0) & ctx.valid[i]  # at the named wind, in the shade
     first = int(np.argmax(plain)) if plain.any() else -1
     if first == p or not (sunny > design + 1e-6 or still > design + 1e-6):
         return  # neither the sun nor still air changed the choice
