@@ -72,28 +72,36 @@ def grids(ctx, words: np.ndarray, alpha: np.ndarray, touch_still: bool) -> dict[
     full = absorbed(words[at], alpha[at], solar, average=False)
     limit = ctx.t.get("max_surface_temperature")
     touched = np.isfinite(limit)[at] & ctx.ok[at] if limit is not None else np.zeros(len(at), bool)
+    # more sun and less wind only warm a surface: a candidate over the limit at the design case is
+    # over it in these too, and is not solved again (Nu of free and forced combined >= Nu free alone)
+    open_ = ctx.c.t_surface <= np.where(np.isfinite(limit), limit, np.inf)[at][:, None] if limit is not None else None
     out = {"shade": _regrid(ctx, design_abs > 0, absorbed=np.zeros(len(at))),
-           "sun": _regrid(ctx, touched & (full != design_abs), absorbed=full)}
+           "sun": _regrid(ctx, touched & (full != design_abs), open_, absorbed=full)}
     touch = np.fmax(ctx.c.t_surface, out["sun"])
     if touch_still:
-        out["still"] = _regrid(ctx, touched & ((cases.wind > 0) | (full != design_abs)), absorbed=full,
+        out["still"] = _regrid(ctx, touched & ((cases.wind > 0) | (full != design_abs)), open_, absorbed=full,
                                wind=np.zeros(len(at)))
         touch = np.fmax(touch, out["still"])
     out["touch"] = touch
     return out
 
 
-def _regrid(ctx, rows: np.ndarray, **replace) -> np.ndarray:
+def _regrid(ctx, rows: np.ndarray, only: np.ndarray | None = None, **replace) -> np.ndarray:
     """The design cases' surface temperatures with the cases ``rows`` solved again with the case
-    fields ``replace`` (per case) in place of theirs."""
+    fields ``replace`` (per case) in place of theirs; ``only`` (cases × candidates) the candidates
+    worth solving (the others keep the design value)."""
+    if only is not None:
+        rows = rows & only.any(axis=1)
     rows = np.flatnonzero(rows)
     if rows.size == 0:
         return ctx.c.t_surface
     sub = per_line(ctx.cases, rows, **{k: np.asarray(v)[rows] for k, v in replace.items()})
-    line = ctx.case_line[rows]
-    r = evaluate(sub, ctx.cand[line], ctx.cases.material[rows], ctx.table)
+    cand = ctx.cand[ctx.case_line[rows]]
+    if only is not None:
+        cand = np.where(only[rows][:, :, None], cand, np.nan)
+    r = evaluate(sub, cand, ctx.cases.material[rows], ctx.table)
     out = ctx.c.t_surface.copy()
-    out[rows] = np.where(r.converged, r.t_surface, np.nan)
+    out[rows] = np.where(np.isfinite(cand).all(axis=2), np.where(r.converged, r.t_surface, np.nan), out[rows])
     return out
 
 
