@@ -112,6 +112,14 @@ _HELP = {
     "code": "Target: an energy code's minimum thickness: ASHRAE 90.1 (by fluid temperature and "
             "nominal size), GEG (by inside diameter; 200 % outdoors) or a table of the Codes sheet. "
             "Pipes and risers. Corrected to the material's conductivity; gives Code thickness [mm].",
+    "ambient_temperature": "This line's air temperature, in place of its named conditions'. Optional.",
+    "wind_speed": "This line's wind, in place of its named conditions' (0 = still air). Optional.",
+    "relative_humidity": "This line's relative humidity, in place of its named conditions'. Optional.",
+    "surroundings_temperature": "This line's surroundings (radiation), in place of its named "
+                                "conditions'. Blank: follows the line's ambient. Optional.",
+    "solar_irradiance": "Sun on a surface facing it, W/m² (1000: full sun), in place of the named "
+                        "conditions'. Counts only where it makes a result worse. Optional.",
+    "solar_absorptance": "Overrides the finish's solar absorptance (0 to 1). Optional.",
 }
 _WIDTH = {
     "tag": 14, "area": 16, "service": 28, "shape": 10, "size": 10, "outside_diameter": 13,
@@ -122,6 +130,8 @@ _WIDTH = {
     "flow_rate": 12, "fluid": 12, "operating_pressure": 14, "inside_diameter": 13, "schedule": 10,
     "max_temperature_drop": 15, "freeze_protection": 13, "contents_volume": 13, "hold_time": 10,
     "min_temperature": 14, "part_of": 12, "code": 13,
+    "ambient_temperature": 14, "wind_speed": 11, "relative_humidity": 12, "surroundings_temperature": 16,
+    "solar_irradiance": 13, "solar_absorptance": 12,
 }
 # Units shown in headers where the field's own unit text is not the one to show.
 _SHOW_UNIT = {"cost_per_volume": f"{CURRENCY}/m³", "operating_hours": "h/yr"}
@@ -223,8 +233,8 @@ def _conditions_sheet() -> Sheet:
     rows = [[header(f) for f in schema.CONDITION_FIELDS]]
     for c in BUILTIN_CONDITIONS.values():
         rows.append([c.name, _number(c.t_air - 273.15), _number(c.t_surroundings - 273.15),
-                     _number(c.wind), _number(c.rh * 100), _number(c.hours)])
-    return Sheet("Conditions", rows, [14, 16, 16, 11, 12, 12], header_row=0, freeze=(1, 0))
+                     _number(c.wind), _number(c.rh * 100), _number(c.hours), _number(c.solar)])
+    return Sheet("Conditions", rows, [14, 16, 16, 11, 12, 12, 13], header_row=0, freeze=(1, 0))
 
 
 def _materials_sheet() -> Sheet:
@@ -249,6 +259,8 @@ _SETTING_MEANING = {
     "bare_emissivity": "Emissivity of the bare line, for the bare heat loss.",
     "freeze_fraction": "Share of standing water allowed to freeze for Freeze protection (25 % is "
                        "common practice).",
+    "touch_still_air": "yes: Max surface temperature is also judged with no wind and full sun (a "
+                       "person touches a line on a calm day; common practice). no: at the named wind only.",
 }
 _SETTING_UNIT = {"year": "yr"}
 
@@ -266,6 +278,9 @@ def _fluids_sheet() -> Sheet:
 def _settings_sheet() -> Sheet:
     rows: list[list] = [["Setting", "Value", "Unit", "Meaning"]]
     for key, (name, dim, si, default, kind) in schema.SETTINGS.items():
+        if kind == schema.YESNO:
+            rows.append([name, "yes" if default else "no", None, _SETTING_MEANING.get(key)])
+            continue
         if kind == schema.TEXT:
             rows.append([name, default, None, _SETTING_MEANING.get(key)])
             continue

@@ -43,6 +43,9 @@ LINE_HEADERS = [
     "Max temperature drop [K]", "Freeze protection [h]", "Contents volume [m³]", "Hold time [h]",
     "Min temperature [°C]", "Part of",
     "Code",  # energy-code minimums
+    # per-line conditions and the sun
+    "Ambient temperature [°C]", "Wind speed [m/s]", "Relative humidity [%]", "Surroundings temperature [°C]",
+    "Solar irradiance [W/m²]", "Solar absorptance [1]",
 ]
 MATERIAL_HEADERS = ["Name", "Mean temperature [°C]", "Conductivity [W/(m·K)]", "Max temperature [°C]",
                     "Min temperature [°C]", "Cost per volume [EUR/m³]", "Thicknesses [mm]", "Max layer [mm]",
@@ -266,7 +269,7 @@ def test_settings_sheet_lists_every_setting_with_a_unit():
     assert rows[0][:3] == ("Setting", "Value", "Unit")
     assert [r[0] for r in rows[1:]] == [v[0] for v in schema.SETTINGS.values()]
     for r, (name, _dim, _si, _default, kind) in zip(rows[1:], schema.SETTINGS.values(), strict=True):
-        assert (r[2] is None) == (kind == schema.TEXT), name
+        assert (r[2] is None) == (kind in (schema.TEXT, schema.YESNO)), name
 
 
 def test_instructions_say_what_to_fill_and_the_cautions():

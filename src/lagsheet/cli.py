@@ -214,6 +214,7 @@ def materials():
     typer.echo("")
     for f in finishes().values():
         typer.echo(f"finish {f.name}: emissivity {f.emissivity:.2f}; source: {f.source}")
+        typer.echo(f"    solar absorptance {f.absorptance:.2f}; source: {f.absorptance_source}")
 
 
 @app.command(help="Write a blank workbook FILE (.xlsx or .ods, by its suffix) with the Lines, Conditions, "

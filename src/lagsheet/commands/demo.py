@@ -5,7 +5,9 @@ The plant has steam, process and building-services pipes, a vessel, duct walls, 
 roof, a duct underside, a chilled sphere, an economic line, a two-material
 high-temperature line, lines judged at two conditions, and process limits (steam
 condensate, a flowing line's temperature drop, freeze times of standing water and a
-hot-hold tank's cool-down), and a heating main sized to an energy code's minimum. The problems (a diameter typed as an inch size in the
+hot-hold tank's cool-down), a heating main sized to an energy code's minimum, a steam line on a
+sunny pipe rack (its own 'Solar irradiance', sized to the touch check in still air and full sun).
+The problems (a diameter typed as an inch size in the
 millimetre column, a size that disagrees with its diameter, a chilled line left without
 condensation control, a hot line with no surface limit, lines with no target, a water
 line with no pipe schedule) produce warnings, not errors; nothing else is warned about.
@@ -26,7 +28,7 @@ HEADERS = ["Tag", "Area", "Service", "Shape", "Size", "Outside diameter [mm]", "
 # process columns, filled from PROCESS below (tag -> {header: value})
 PROCESS_HEADERS = ["Fluid", "Flow rate [kg/s]", "Operating pressure [bar]", "Max temperature drop [K]",
                    "Freeze protection [h]", "Schedule", "Contents volume [m³]", "Hold time [h]",
-                   "Min temperature [°C]", "Part of", "Code"]
+                   "Min temperature [°C]", "Part of", "Code", "Solar irradiance [W/m²]"]
 
 # (tag, area, service, shape, size, od, length, T, condition, insulation, finish, Tsmax, qmax, cond,
 #  tmin, fixed[, surface area, outer insulation, economic])
@@ -89,6 +91,7 @@ LINES = [
     ("VS-8002", "Process area", "Hot-hold product tank shell", "vessel", None, 2400, 4, 85, "outdoor; winter", "mineral wool", "aluminium", 60, None, None, None, None),
     ("VS-8002-R", "Process area", "Hot-hold product tank roof", "top", None, None, None, 85, "outdoor; winter", "mineral wool", "aluminium", 60, None, None, None, None, 4.5),
     ("HW-5006", "Building services", "LTHW main to the offices (GEG)", "pipe", "DN 100", None, 180, 80, "plant room", "mineral wool", "none", None, None, None, None, None),
+    ("SD-2011", "Steam distribution", "MP steam on the sunny pipe rack", "pipe", "NPS 6", None, 120, 185, "outdoor", "mineral wool", "aluminium", 55, None, None, None, None),
 ]
 
 # invented process data: steam mains (condensate), a flowing hot-water line with a drop limit,
@@ -105,6 +108,7 @@ PROCESS = {
     "VS-8002": {"Fluid": "water", "Contents volume [m³]": 16, "Hold time [h]": 90, "Min temperature [°C]": 65},
     "VS-8002-R": {"Part of": "VS-8002"},
     "HW-5006": {"Schedule": "40", "Code": "GEG"},  # sized to a code minimum (the 'Code' column)
+    "SD-2011": {"Solar irradiance [W/m²]": 1000},  # full sun on the rack: sized to the touch check in still air
 }
 
 CONDITIONS = [

@@ -50,6 +50,7 @@ def explain(inputs: Inputs, raw: RawSheet, res: Results, i: int) -> list[str]:
     sol = solve(s1, res.table)
     out += _layers(L, s1, sol, res, us)
     out += _outer_surface(L, s1, sol, res.values, i, us)
+    out += _sun(L, s1, sol, res.values, i, us)
     out += _targets(res, i, us)
     v = res.values
     out += _process(L, v, i, us)
@@ -126,6 +127,24 @@ def _outer_surface(L, s1, sol, v, i: int, us: bool) -> list[str]:
         rule = "2k/h" if L.geometry == SPHERE else "k/h"
         out.append(f"  critical radius {show(float(v['critical_radius'][i]), 'radius', us)} "
                    f"({rule} with h = h_conv + h_rad = {h_c + h_r:.3f} W/(m²·K))")
+    return out
+
+
+def _sun(L, s1, sol, v, i: int, us: bool) -> list[str]:
+    """The sun on the line (README, 'Sun on outdoor surfaces'): what the balance above takes in, and
+    the reported surface where it is not the one above."""
+    g = L.conditions[0].solar
+    if not g > 0:
+        return []
+    gain = 0.0 if s1.absorbed is None else float(s1.absorbed[0])
+    out = ["", f"Sun: {g:g} W/m², solar absorptance {L.absorptance:g}"]
+    if gain > 0:
+        out.append(f"  a line colder than the air: {gain:.2f} W/m² absorbed, averaged over the surface, is one "
+                   "more gain in the balance above (conduction in + sun = convection + radiation out); the "
+                   "reported surface temperature and the dew point are in the shade")
+    else:
+        out.append("  the balance above is in the shade (the sun never reduces a loss); the reported surface "
+                   f"temperature is the sun-facing side's, {show(float(v['surface_temperature'][i]), 'temperature', us)}")
     return out
 
 

@@ -11,7 +11,7 @@ import itertools
 import math
 import re
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from functools import lru_cache
 
 import numpy as np
@@ -56,6 +56,7 @@ class Line:
     materials: list[library.Material] = field(default_factory=list)  # inner first
     emissivity: float = np.nan
     bare_emissivity: float = np.nan
+    absorptance: float = np.nan  # solar absorptance of the outer surface
     candidates: Sequence[tuple[float, ...]] = ()  # thickness per slot [m]; may be shared, never mutate
     series: list[tuple[tuple[float, ...], float]] = field(default_factory=list)  # per slot: (listed, max layer)
     fixed: bool = False
@@ -160,9 +161,11 @@ def resolve(t: Table, inputs: Inputs, i: int, notes: list[Note], cols: Columns |
     if not np.isfinite(L.t_op):
         err("no-temperature", "operating_temperature", "'Operating temperature' is blank")
     _conditions(L, inputs, text("condition") or "indoor", err)
+    L.conditions = line_conditions(L.conditions, {k: num(k) for k in OVERRIDES})
     fixed = num("fixed_thickness")
     _materials(L, inputs, text("insulation"), text("outer_insulation"), fixed, err, us)
     eps = _finish(L, inputs, text("finish") or "aluminium", num("surface_emissivity"), err)
+    L.absorptance = _absorptance(inputs, text("finish") or "aluminium", num("solar_absorptance"), fixed)
     economic = cols.get("economic")
     L.economic = economic is not None and economic[i] is True
     _candidates(L, fixed, eps, st, us, err)
@@ -190,6 +193,38 @@ def _finish(L: Line, inputs: Inputs, fname: str, eps: float, err) -> float:
     L.emissivity = eps if np.isfinite(eps) else (fin.emissivity if fin else np.nan)
     L.bare_emissivity = float(inputs.settings["bare_emissivity"])
     return eps
+
+
+def _absorptance(inputs: Inputs, fname: str, alpha: float, fixed: float) -> float:
+    """The surface's solar absorptance: 'Solar absorptance', else the finish's (a bare line's:
+    bare steel's); NaN when the finish is unknown (that is an error already)."""
+    if np.isfinite(alpha):
+        return alpha
+    if np.isfinite(fixed) and fixed == 0:
+        fname = "bare steel"
+    fin = library.lookup(inputs.finishes, fname)
+    return fin.absorptance if fin is not None else np.nan
+
+
+# Lines columns that override that field of every condition the line names: column -> Condition field
+OVERRIDES = {"ambient_temperature": "t_air", "surroundings_temperature": "t_surroundings", "wind_speed": "wind",
+             "relative_humidity": "rh", "solar_irradiance": "solar"}
+
+
+def line_conditions(conditions: list[Condition], given: dict[str, float]) -> list[Condition]:
+    """The line's named conditions with the fields its own columns give replaced (``given``:
+    column -> SI value, NaN where blank). A condition whose surroundings were its ambient (blank
+    on the Conditions sheet) follows a new ambient unless the line gives its surroundings too."""
+    change = {OVERRIDES[k]: v for k, v in given.items() if np.isfinite(v)}
+    if not change:
+        return conditions
+    out = []
+    for c in conditions:
+        new = dict(change)
+        if "t_air" in new and "t_surroundings" not in new and c.t_surroundings == c.t_air:
+            new["t_surroundings"] = new["t_air"]
+        out.append(replace(c, **new))
+    return out
 
 
 def _candidates(L: Line, fixed: float, eps: float, st: dict, us: bool, err) -> None:

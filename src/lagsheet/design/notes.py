@@ -109,19 +109,20 @@ def _surface_notes(ctx: Context, ch, rep, res, i: int) -> None:
     """A hot surface without a limit, condensation on a cold one, a correlation outside its
     range, the payback of an economic choice."""
     L, sol, us = ctx.lines[i], rep.sol, ctx.us
+    ts = rep.t_surface  # the reported: sun-facing on a hot line, shade on a cold one
     hot = L.t_op >= L.conditions[0].t_air
     tmax = ctx.t.get("max_surface_temperature")
     has_limit = tmax is not None and np.isfinite(tmax[i])
-    if hot and sol.t_surface[i] > PERSONNEL_LIMIT_K and not has_limit:
+    if hot and ts[i] > PERSONNEL_LIMIT_K and not has_limit:
         _note(ctx, res, i, "caution", "hot-surface",
-              f"surface {show(sol.t_surface[i], 'temperature', us)} is above 60 °C, the usual "
+              f"surface {show(ts[i], 'temperature', us)} is above 60 °C, the usual "
               "personnel-protection limit (common practice; ASTM C1055 limits depend on contact "
               "time and surface material): guard it or set 'Max surface temperature'")
     if not hot:
         dew = ctx.dew[ctx.starts[i]]
-        if sol.t_surface[i] < dew + ctx.margin - 1e-9:
+        if ts[i] < dew + ctx.margin - 1e-9:
             _note(ctx, res, i, "warning", "condensation",
-                  f"surface {show(sol.t_surface[i], 'temperature', us)} is below the dew point "
+                  f"surface {show(ts[i], 'temperature', us)} is below the dew point "
                   f"{show(dew, 'temperature', us)} plus margin: condensation is expected; "
                   "set 'Prevent condensation' yes")
         _note(ctx, res, i, "caution", "vapour-retarder",

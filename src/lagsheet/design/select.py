@@ -24,7 +24,7 @@ from ..physics.surface import linearised_h
 from ..workbook import library
 from ..workbook.inputs import Condition, Inputs
 from ..workbook.results import NUMBERS, WORDS
-from . import economics, notes, targets
+from . import economics, notes, sun, targets
 from . import process as limits
 from .build import Quantities, quantities
 from .lines import Line, resolve_lines
@@ -106,6 +106,7 @@ def _specify(inputs: Inputs) -> Results:
     _values(ctx, ch, rep, res, cost[np.arange(n), ch.pick])
     for i in np.flatnonzero(rep.put):
         notes.line_notes(ctx, judged, ch, rep, res, i)
+    sun.notes(ctx, ch, res)
     limits.results(ctx, rep.put, rep.chosen_th, rep.loss, res)
     for i in range(n):
         lv = {nt.level for nt in res.notes[i]}
@@ -181,10 +182,13 @@ def _context(inputs: Inputs, lines: list[Line], table: MaterialTable) -> tuple[C
     case_line = np.array(case_line)
     starts = np.flatnonzero(np.r_[True, case_line[1:] != case_line[:-1]])
     base = _base_system(lines, ok, table, slots)
-    cases = per_line(base, case_line,
-                     t_air=np.array([c.t_air for c in case_cond]),
+    words, alpha = np.array([L.word for L in lines]), np.array([L.absorptance for L in lines], dtype=float)
+    t_air = np.array([c.t_air for c in case_cond])
+    gain = sun.design(words[case_line], alpha[case_line], [c.solar for c in case_cond],
+                      base.t_operating[case_line], t_air)
+    cases = per_line(base, case_line, t_air=t_air,
                      t_surroundings=np.array([c.t_surroundings for c in case_cond]),
-                     wind=np.array([c.wind for c in case_cond]))
+                     wind=np.array([c.wind for c in case_cond]), absorbed=gain if gain.any() else None)
     cand = _candidates(lines, ok, slots)
     total = cand.sum(axis=2)
     c = evaluate(cases, cand[case_line], base.material[case_line], table)
@@ -193,6 +197,7 @@ def _context(inputs: Inputs, lines: list[Line], table: MaterialTable) -> tuple[C
                   total=total, table=table, c=c, dew=np.array([_dew(cc) for cc in case_cond]),
                   margin=float(inputs.settings["condensation_margin"]))
     ctx.valid = np.isfinite(total) & ctx.all_cases(c.converged & c.in_range)
+    ctx.surface = sun.grids(ctx, words, alpha, bool(inputs.settings["touch_still_air"]))
     return ctx, base
 
 
@@ -356,6 +361,7 @@ class Solved:
     rate: np.ndarray  # heat rate per metre or per square metre
     r_crit: np.ndarray | None = None
     hours: np.ndarray | None = None  # operating hours a year at the first condition
+    t_surface: np.ndarray | None = None  # reported: sun-facing on hot lines, shade on cold (design.sun)
 
 
 def _solve_chosen(ctx: Context, base: System, ch: Choice, res: Results, hours) -> Solved:
@@ -366,7 +372,9 @@ def _solve_chosen(ctx: Context, base: System, ch: Choice, res: Results, hours) -
     sol = solve(first_sys, table)
     bare_eps = np.where(ch.fixed & (np.nan_to_num(ctx.total[:, 0]) == 0), base.emissivity,
                         np.array([L.bare_emissivity for L in lines]))
-    bare_sys = per_line(first_sys, rows, thickness=np.zeros((n, ctx.slots)), emissivity=bare_eps)
+    bare_abs = sun.bare(lines, first_sys)
+    bare_sys = per_line(first_sys, rows, thickness=np.zeros((n, ctx.slots)), emissivity=bare_eps,
+                        absorbed=bare_abs if bare_abs.any() else None)
     bare = solve(bare_sys, table)
     res.system = first_sys
     res.quantities = quantities(lines, chosen_th[:, None, :], base)
@@ -382,6 +390,8 @@ def _solve_chosen(ctx: Context, base: System, ch: Choice, res: Results, hours) -
     loss, bare_loss = limits.flowing_lines(ctx, put, first_sys, bare_sys, chosen_th, loss, bare_loss, res)
     rep = Solved(put, chosen_th, first_sys, sol, bare, loss, bare_loss, rate)
     rep.r_crit = _critical_radius(ctx, base, rep)
+    rep.t_surface = sun.reported(first_sys, sol.t_surface, [L.word for L in lines], [L.absorptance for L in lines],
+                                 [ctx.case_cond[k].solar for k in ctx.starts], table)
     rep.hours = hours
     return rep
 
@@ -411,11 +421,11 @@ def _values(ctx: Context, ch: Choice, rep: Solved, res: Results, inst: np.ndarra
     dew = ctx.dew[ctx.starts]
     has_mat = np.array([bool(L.materials) for L in lines])
     values = {
-        "thickness": rep.chosen_th.sum(axis=1), "surface_temperature": sol.t_surface, "heat_flux": sol.q,
+        "thickness": rep.chosen_th.sum(axis=1), "surface_temperature": rep.t_surface, "heat_flux": sol.q,
         "heat_loss_per_length": np.where(rep.first_sys.geometry == CYLINDER, rep.rate, np.nan),
         "heat_loss": rep.loss, "bare_heat_loss": rep.bare_loss, "annual_energy": energy,
         "annual_cost": bought * price, "annual_saving": saving, "co2": bought * float(st["emission_factor"]),
-        "dew_point": np.where(_dew_matters(lines, ctx.t.get("prevent_condensation"), sol.t_surface, dew,
+        "dew_point": np.where(_dew_matters(lines, ctx.t.get("prevent_condensation"), rep.t_surface, dew,
                                            ctx.margin) & np.isfinite(dew), dew, np.nan),
         "installed_cost": inst,
         "payback": np.where(saving > 0, inst / np.where(saving > 0, saving, 1.0), np.nan),

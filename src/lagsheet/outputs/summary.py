@@ -77,6 +77,8 @@ def summary(inputs: Inputs, res: Results, today: _dt.date | None = None) -> Shee
                 "kg/kWh": "kg/kWh", "year": "years", "": ""}.get(si, si)
         if dim == "%" and isinstance(value, float):
             value, unit = value * 100, "%"
+        if isinstance(value, bool):
+            value = "yes" if value else "no"
         if isinstance(value, float) and not math.isfinite(value):
             value = None
         s.add([title, value, unit, "given" if key in given else ("default" if value is not None else "not set")])

@@ -12,6 +12,10 @@ from .results import COLUMNS
 
 TEXT, NUMBER, TEMPERATURE, DIFFERENCE, YESNO = "text", "number", "temperature", "difference", "yes/no"
 
+# the largest solar irradiance accepted [W/m²]: the solar constant is about 1361 W/m² above the
+# atmosphere (from memory); no surface on the ground receives more than that from the sun alone
+SOLAR_MAX = 1400.0
+
 
 @dataclass(frozen=True)
 class Field:
@@ -73,6 +77,17 @@ LINE_FIELDS = (
           ("minimum temperature", "hold temperature", "limit temperature"), 0.0, 2000.0),
     Field("part_of", "Part of", aliases=("vessel tag", "parent")),
     Field("code", "Code", aliases=("energy code", "code table", "minimum thickness table")),
+    # per-line conditions (WORKBOOK.md section 4): override that field of every condition the line names
+    Field("ambient_temperature", "Ambient temperature", TEMPERATURE, "°C", "K",
+          ("ambient", "air temperature", "ambient temp"), 0.0, 400.0),
+    Field("wind_speed", "Wind speed", NUMBER, "m/s", "m/s", ("wind", "air velocity"), -1e-12, 60.0),
+    Field("relative_humidity", "Relative humidity", NUMBER, "%", "dimensionless", ("rh", "humidity"), -1e-12, 1.0),
+    Field("surroundings_temperature", "Surroundings temperature", TEMPERATURE, "°C", "K",
+          ("surroundings", "radiant temperature", "mean radiant temperature"), 0.0, 600.0),
+    Field("solar_irradiance", "Solar irradiance", NUMBER, "W/m²", "W/m**2",
+          ("solar", "irradiance", "solar radiation"), -1e-12, SOLAR_MAX),
+    Field("solar_absorptance", "Solar absorptance", NUMBER, "1", "dimensionless",
+          ("absorptance", "absorptivity", "solar absorptivity"), -1e-12, 1.0),
 )
 
 CONDITION_FIELDS = (
@@ -86,6 +101,8 @@ CONDITION_FIELDS = (
           ("rh", "humidity"), -1e-12, 1.0),
     Field("operating_hours", "Operating hours", NUMBER, "h", "hour",
           ("hours", "hours per year", "annual hours"), -1e-12, 8784.0),
+    Field("solar_irradiance", "Solar irradiance", NUMBER, "W/m²", "W/m**2",
+          ("solar", "irradiance", "solar radiation"), -1e-12, SOLAR_MAX),
 )
 
 MATERIAL_FIELDS = (
@@ -152,6 +169,8 @@ SETTINGS = {
     "max_thickness": ("Max thickness", "mm", "m", 0.300, NUMBER),
     "bare_emissivity": ("Bare emissivity", "1", "dimensionless", 0.80, NUMBER),
     "freeze_fraction": ("Freeze fraction", "%", "dimensionless", 0.25, NUMBER),
+    # 'Max surface temperature' also judged with no wind and full sun (a person touches a line on a calm day)
+    "touch_still_air": ("Touch check in still air", "", "", True, YESNO),
 }
 # Settings' valid ranges in SI: key -> (lowest, lowest allowed itself?, highest).
 SETTING_RANGES = {

@@ -30,6 +30,7 @@ class Condition:
     rh: float  # 0-1
     hours: float  # h per year
     source: str = "built-in"
+    solar: float = 0.0  # solar irradiance on a surface facing the sun [W/m²]
 
 
 # Built-in design conditions: placeholders a project replaces with its own (documented).
@@ -178,6 +179,15 @@ def _setting_row(raw, r: int, key: str, value_unit: tuple[int | None, int | None
         values[key] = str(value).strip()
         values["_given"].add(key)
         return
+    if kind == schema.YESNO:
+        word = fold(str(value)) if not isinstance(value, bool) else ("yes" if value else "no")
+        if word in schema.YES or word in schema.NO:
+            values[key] = word in schema.YES
+            values["_given"].add(key)
+        else:
+            notes.append(Note("error", "bad-setting", f"setting {title!r}: {value!r} cannot be used; write yes "
+                              f"or no; the default ({'yes' if default else 'no'}) is used", name, where))
+        return
     unit_text = str(raw.value(r, cu)).strip() if cu is not None and raw.value(r, cu) is not None else dim
     # a cell formatted as a percentage holds the fraction: a typed '88%' is stored as 0.88
     percent_cell = (cv is not None and (r, cv) in raw.percent and isinstance(value, (int, float))
@@ -281,7 +291,8 @@ def _conditions(book: Book, notes: list[Note], columns: list[dict], bad: dict[st
         out[fold(label)] = Condition(
             str(label), ta, tsur if np.isfinite(tsur) else ta,
             max(0.0, _or(_num(t, "wind_speed", i), 0.0)), _or(_num(t, "relative_humidity", i), base.rh),
-            _or(_num(t, "operating_hours", i), 8760.0), source=f"{name}!{t.cell(i, 'name')}")
+            _or(_num(t, "operating_hours", i), 8760.0), source=f"{name}!{t.cell(i, 'name')}",
+            solar=_or(_num(t, "solar_irradiance", i), 0.0))
     return out
 
 

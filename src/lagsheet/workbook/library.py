@@ -49,6 +49,8 @@ class Finish:
     emissivity: float
     aliases: tuple[str, ...] = ()
     source: str = ""
+    absorptance: float = float("nan")  # solar absorptance α [-]
+    absorptance_source: str = ""
 
 
 def _rows(name: str) -> list[dict]:
@@ -172,7 +174,8 @@ def finishes() -> dict[str, Finish]:
     return {
         key(r["finish"]): Finish(
             r["finish"], float(r["emissivity"]),
-            tuple(a.strip() for a in r["aliases"].split(";") if a.strip()), r["source"])
+            tuple(a.strip() for a in r["aliases"].split(";") if a.strip()), r["source"],
+            float(r["absorptance"]), r["absorptance_source"])
         for r in _rows("finishes.csv")
     }
 

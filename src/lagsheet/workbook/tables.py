@@ -208,21 +208,9 @@ def read_table(sheet: RawSheet, fields, marker: str, mapping: dict[str, str] | N
     return t
 
 
-# Per-line condition fields (WORKBOOK.md section 4) that the Lines sheet does not apply yet.
-LINE_CONDITION_HEADERS = {"ambient temperature": "Ambient temperature", "wind speed": "Wind speed",
-                          "relative humidity": "Relative humidity",
-                          "surroundings temperature": "Surroundings temperature",
-                          "solar irradiance": "Solar irradiance"}
-_CONDITION_WORDS = {**{k: v for k, v in LINE_CONDITION_HEADERS.items()},
-                    **{a: f.header for f in schema.CONDITION_FIELDS if f.header in LINE_CONDITION_HEADERS.values()
-                       for a in f.aliases},
-                    "solar": "Solar irradiance", "irradiance": "Solar irradiance", "solar radiation": "Solar irradiance"}
-
-
 def unused_columns(t: Table, fields, outputs=()) -> list[Note]:
     """A warning for every header of ``t`` that is no field and none of ``outputs``: the column is
-    not used, with the nearest field if one is close. On Lines, a per-line condition column says
-    that it is not applied and that the line is computed at its named condition."""
+    not used, with the nearest field if one is close."""
     known = {}
     for f in fields:
         known.setdefault(fold(f.header), f)
@@ -235,13 +223,6 @@ def unused_columns(t: Table, fields, outputs=()) -> list[Note]:
         if name in skip:
             continue
         where = address(t.header_row, c)
-        cond = _CONDITION_WORDS.get(name) if fields is schema.LINE_FIELDS else None
-        if cond is not None:
-            notes.append(Note("warning", "condition-column",
-                              f"column {text!r} ({cond!r} of a line) is not applied yet: each line is computed "
-                              "at its named 'Condition' (indoor when blank); put these values in a row of the "
-                              "Conditions sheet and name that row in the line's 'Condition'", t.sheet, where))
-            continue
         near = nearest(name, known, n=1, cutoff=0.75)
         if near:
             f = known[near[0]]

@@ -40,6 +40,9 @@ class Context:
     valid: np.ndarray | None = None  # lines × candidates: converged, conductivity in range, every case
     picked: np.ndarray | None = None  # lines × slots: the chosen systems, for late targets
     parts: dict[int, list[int]] = field(default_factory=dict)  # vessel -> its linked lines
+    # surface temperature per role, cases × candidates (:func:`lagsheet.design.sun.grids`): 'shade'
+    # (no sun), 'sun' (full sun at the named wind), 'still' (full sun, no wind), 'touch' (the worst)
+    surface: dict[str, np.ndarray] = field(default_factory=dict)
 
     @property
     def n(self) -> int:
@@ -48,6 +51,11 @@ class Context:
     @property
     def slots(self) -> int:
         return self.cand.shape[2]
+
+    def ts(self, role: str) -> np.ndarray:
+        """The surface temperature of every case and candidate in ``role`` (the design cases' when
+        that role was not solved: it would be the same)."""
+        return self.surface.get(role, self.c.t_surface)
 
     def all_cases(self, m: np.ndarray) -> np.ndarray:
         """Per line and candidate: ``m`` holds at every one of the line's cases."""

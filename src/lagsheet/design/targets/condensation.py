@@ -1,4 +1,5 @@
-"""'Prevent condensation': the surface stays above the dew point plus the margin, every named condition."""
+"""'Prevent condensation': the surface stays above the dew point plus the margin, every named condition,
+judged in the shade (the sun never keeps a cold surface dry: it may set or be clouded over)."""
 
 from __future__ import annotations
 
@@ -18,7 +19,7 @@ class Condensation(Target):
         return None if prevent is None else np.array([v is True for v in prevent])
 
     def measure(self, ctx, given):
-        return -(ctx.c.t_surface - (ctx.dew + ctx.margin)[:, None])  # how far below; larger is worse
+        return -(ctx.ts("shade") - (ctx.dew + ctx.margin)[:, None])  # how far below; larger is worse
 
     def meets(self, ctx, given, measure):
         return ctx.all_cases(-measure >= -1e-9)
@@ -27,7 +28,7 @@ class Condensation(Target):
         return finite(j.given, -worst_at(ctx, j.worst, case_pick), "difference")
 
     def unmet(self, ctx, j, i, last, thick, names):
-        us, ts, dew = ctx.us, ctx.c.t_surface, ctx.dew
+        us, ts, dew = ctx.us, ctx.ts("shade"), ctx.dew
         k = min(ctx.cases_of(i), key=lambda k: ts[k, last] - dew[k])
         return (f"condensation is not prevented by any sold thickness: surface "
                 f"{show(ts[k, last], 'temperature', us)} at {thick}{ctx.at(i, k)} against a dew "

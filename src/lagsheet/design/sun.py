@@ -1,0 +1,172 @@
+"""Sun on outdoor surfaces: the absorbed irradiation α·G·F each case's surface balance gains.
+
+``G`` is the condition's (or the line's) 'Solar irradiance', the beam on a surface facing
+the sun; ``α`` the finish's (or the line's) solar absorptance. Two geometry factors per
+shape:
+
+* ``face``: the sun-facing element of the surface, which sees the beam squarely (F = 1);
+  an underside sees no beam (F = 0; light reflected from the ground neglected, common
+  practice). Used where the *hottest* spot matters: the surface temperature of a hot line
+  (its 'Surface temperature' and the 'Max surface temperature' target).
+* ``average``: the absorbed power averaged over the whole surface, the projected area the
+  beam meets over the surface area. Used where the heat *through* the whole surface matters:
+  the heat gain of a cold line.
+
+The sun counts only where it makes a result worse: it never reduces a hot line's loss
+(the design cases of a line hotter than the air get none), and a cold surface is judged
+against its dew point without it (:mod:`lagsheet.design.targets.condensation`).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ..errors import Note
+from ..physics.balance import System, solve
+from ..physics.candidates import evaluate, per_line
+from ..workbook import library
+from ..workbook.display import show
+
+# shape word -> (face, average, where the average comes from)
+FACTORS = {
+    # beam across the axis: projected width D over perimeter πD (closed form)
+    "pipe": (1.0, 1 / math.pi, "horizontal cylinder: projected width over perimeter, 1/π (closed form)"),
+    # a vertical cylinder meets the beam at elevation β with D·H·cos β over πD·H: at most 1/π (sun low)
+    "riser": (1.0, 1 / math.pi, "vertical cylinder: D·H·cos β over πD·H, at most 1/π (closed form, sun low)"),
+    "vessel": (1.0, 1 / math.pi, "vertical cylinder: D·H·cos β over πD·H, at most 1/π (closed form, sun low)"),
+    # projected disc πr² over the sphere's 4πr² (closed form)
+    "sphere": (1.0, 0.25, "sphere: projected disc over surface, 1/4 (closed form)"),
+    # a flat surface facing the beam squarely takes all of it (cos 0 = 1): the upper bound
+    "top": (1.0, 1.0, "horizontal surface facing up, sun overhead: 1 (closed form, upper bound)"),
+    "wall": (1.0, 1.0, "vertical surface facing the sun squarely: 1 (upper bound, common practice)"),
+    "underside": (0.0, 0.0, "horizontal surface facing down sees no beam: 0 (common practice)"),
+}
+
+
+def absorbed(words, alpha, solar, average: bool) -> np.ndarray:
+    """α·G·F per case: ``words`` the shape word, ``alpha`` the absorptance, ``solar`` G [W/m²];
+    the averaged factor where ``average``, else the sun-facing one. 0 where anything is unknown."""
+    f = np.array([FACTORS.get(w, (0.0, 0.0, ""))[1 if average else 0] for w in words], dtype=float)
+    out = np.asarray(alpha, dtype=float) * np.asarray(solar, dtype=float) * f
+    return np.where(np.isfinite(out) & (out > 0), out, 0.0)
+
+
+def design(words, alpha, solar, t_operating, t_air) -> np.ndarray:
+    """The design cases' sun: averaged over the surface on lines colder than the air (a gain),
+    none on the others (it would reduce their loss)."""
+    cold = np.asarray(t_operating, dtype=float) < np.asarray(t_air, dtype=float)
+    return np.where(cold, absorbed(words, alpha, solar, average=True), 0.0)
+
+
+def grids(ctx, words: np.ndarray, alpha: np.ndarray, touch_still: bool) -> dict[str, np.ndarray]:
+    """The surface temperature of every case and candidate in the roles other than design,
+    each solved only for the cases where it differs from the design cases (elsewhere it is the
+    same array): 'shade' (no sun: condensation), 'sun' (full sun on the sun-facing side at the
+    named wind) and 'still' (full sun, no wind) for the lines that give a 'Max surface
+    temperature', and 'touch', the worst of design, sun and still."""
+    cases, at = ctx.cases, ctx.case_line
+    solar = np.array([c.solar for c in ctx.case_cond], dtype=float)
+    design_abs = np.zeros(len(at)) if cases.absorbed is None else cases.absorbed
+    full = absorbed(words[at], alpha[at], solar, average=False)
+    limit = ctx.t.get("max_surface_temperature")
+    touched = np.isfinite(limit)[at] & ctx.ok[at] if limit is not None else np.zeros(len(at), bool)
+    # more sun and less wind only warm a surface: a candidate over the limit at the design case is
+    # over it in these too, and is not solved again (Nu of free and forced combined >= Nu free alone)
+    open_ = ctx.c.t_surface <= np.where(np.isfinite(limit), limit, np.inf)[at][:, None] if limit is not None else None
+    out = {"shade": _regrid(ctx, design_abs > 0, absorbed=np.zeros(len(at))),
+           "sun": _regrid(ctx, touched & (full != design_abs), open_, absorbed=full)}
+    touch = np.fmax(ctx.c.t_surface, out["sun"])
+    if touch_still:
+        out["still"] = _regrid(ctx, touched & ((cases.wind > 0) | (full != design_abs)), open_, absorbed=full,
+                               wind=np.zeros(len(at)))
+        touch = np.fmax(touch, out["still"])
+    out["touch"] = touch
+    return out
+
+
+def _regrid(ctx, rows: np.ndarray, only: np.ndarray | None = None, **replace) -> np.ndarray:
+    """The design cases' surface temperatures with the cases ``rows`` solved again with the case
+    fields ``replace`` (per case) in place of theirs; ``only`` (cases × candidates) the candidates
+    worth solving (the others keep the design value)."""
+    if only is not None:
+        rows = rows & only.any(axis=1)
+    rows = np.flatnonzero(rows)
+    if rows.size == 0:
+        return ctx.c.t_surface
+    sub = per_line(ctx.cases, rows, **{k: np.asarray(v)[rows] for k, v in replace.items()})
+    cand = ctx.cand[ctx.case_line[rows]]
+    if only is not None:
+        cand = np.where(only[rows][:, :, None], cand, np.nan)
+    r = evaluate(sub, cand, ctx.cases.material[rows], ctx.table)
+    out = ctx.c.t_surface.copy()
+    out[rows] = np.where(np.isfinite(cand).all(axis=2), np.where(r.converged, r.t_surface, np.nan), out[rows])
+    return out
+
+
+def reported(first: System, t_surface: np.ndarray, words, alpha, solar, table) -> np.ndarray:
+    """The reported surface temperature of the chosen systems (``first``, solved to
+    ``t_surface``, at the first named condition, ``solar`` its G): on the sun-facing side of a
+    line not colder than the air (full sun), in the shade on a colder one (as its dew point is
+    judged); solved again where that differs from the design case."""
+    cold = first.t_operating < first.t_air
+    want = np.where(cold, 0.0, absorbed(words, alpha, solar, average=False))
+    have = np.zeros(len(want)) if first.absorbed is None else first.absorbed
+    rows = np.flatnonzero(want != have)
+    if rows.size == 0:
+        return t_surface
+    out = t_surface.copy()
+    out[rows] = solve(per_line(first, rows, absorbed=want[rows]), table).t_surface
+    return out
+
+
+def bare(lines, first: System) -> np.ndarray:
+    """The bare comparison's sun: the design cases' rule with bare steel's absorptance (a line
+    left bare on purpose: its own)."""
+    steel = library.finishes()["bare steel"].absorptance
+    alpha = [L.absorptance if L.fixed and not sum(map(sum, L.candidates)) else steel for L in lines]
+    return design([L.word for L in lines], alpha, [L.conditions[0].solar if L.conditions else 0.0 for L in lines],
+                  first.t_operating, first.t_air)
+
+
+def notes(ctx, ch, res) -> None:
+    """Words on the lines the sun or the still-air touch check changed: where the surface limit
+    governs, how hot the surface gets in still air and how much the sun raises it (and what
+    would have done without them); on a cold line in the sun, the gain it adds."""
+    limit = ctx.t.get("max_surface_temperature")
+    for i in np.flatnonzero(ctx.ok & (ch.chosen >= 0)):
+        if limit is not None and np.isfinite(limit[i]) and ch.governing[i] == "surface temperature":
+            _touch_note(ctx, ch, res, int(i), float(limit[i]))
+        k = ctx.starts[i]
+        if ctx.cases.absorbed is not None and ctx.cases.absorbed[k] > 0:
+            _note(ctx, res, int(i), "sun-gain", f"the sun adds {show(ctx.cases.absorbed[k], 'per_area', ctx.us)} "
+                  f"(α {ctx.lines[i].absorptance:g} × {ctx.case_cond[k].solar:g} W/m², averaged over the "
+                  "surface) to the heat gain; the surface and the dew point are judged in the shade")
+
+
+def _touch_note(ctx, ch, res, i: int, limit: float) -> None:
+    p, cases = int(ch.chosen[i]), ctx.cases_of(i)
+    touch = ctx.ts("touch")
+    k = max(cases, key=lambda k: touch[k, p])
+    design, sunny = ctx.c.t_surface[k, p], ctx.ts("sun")[k, p]
+    still = ctx.ts("still")[k, p] if "still" in ctx.surface else -np.inf
+    plain = (ctx.c.t_surface[cases] <= limit + 1e-9).all(axis=0) & ctx.valid[i]  # at the named wind, in the shade
+    first = int(np.argmax(plain)) if plain.any() else -1
+    if first == p or not (sunny > design + 1e-6 or still > design + 1e-6):
+        return  # neither the sun nor still air changed the choice
+    us, c = ctx.us, ctx.case_cond[k]
+    words = []
+    if still >= sunny and still > design + 1e-6:
+        words.append(f"in still air{' and full sun' if sunny > design + 1e-6 else ''} the surface reaches "
+                     f"{show(still, 'temperature', us)} (touch check in still air)")
+    if sunny > design + 1e-6:
+        words.append(f"the sun raises the sun-facing surface by {show(sunny - design, 'difference', us)}, to "
+                     f"{show(sunny, 'temperature', us)}, at {c.wind:g} m/s wind")
+    without = show(float(ctx.total[i, first]), "thickness", us) if first >= 0 else "no sold thickness"
+    _note(ctx, res, i, "surface-governs", f"'Max surface temperature' governs{ctx.at(i, k)}: " + "; ".join(words)
+          + f"; judged at the condition's wind in the shade, {without} would do")
+
+
+def _note(ctx, res, i: int, code: str, message: str) -> None:
+    res.notes[i].append(Note("info", code, message, ctx.t.sheet, ctx.t.cell(i, "tag")))
