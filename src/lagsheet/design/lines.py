@@ -26,6 +26,7 @@ from ..workbook.display import show
 from ..workbook.inputs import Condition, Inputs
 from ..workbook.tables import Table
 from ..workbook.words import suggest
+from . import tracing
 from .process import Process, resolve_process
 from .targets import CHECK_ORDER
 
@@ -61,6 +62,9 @@ class Line:
     fixed: bool = False
     economic: bool = False
     process: Process = field(default_factory=Process)
+    maintain: float = np.nan  # 'Maintain temperature' [K], NaN where not traced (design.tracing)
+    fittings: dict[str, int] = field(default_factory=dict)  # item -> count on the line
+    allowance: float = np.nan  # 'Heat loss allowance' as a fraction (the line's or the setting's)
 
     @property
     def per_length(self) -> bool:
@@ -172,6 +176,7 @@ def resolve(t: Table, inputs: Inputs, i: int, notes: list[Note], cols: Columns |
     for target in CHECK_ORDER:  # each target checks the inputs it reads
         if fluid_known or not target.needs_fluid:
             target.check(L, cells)
+    tracing.check(L, cells, us)
     return L
 
 

@@ -13,6 +13,7 @@ import numpy as np
 from ..errors import Note
 from ..io.table import Book, address, fold
 from . import fields as schema
+from . import fittings as fitting_rows
 from . import library, plausibility
 from .tables import Table, read_table, split_header, unused_columns
 from .tables import header_map as check_header_map
@@ -61,6 +62,7 @@ class Inputs:
     fluids: dict[str, UserFluid] = field(default_factory=dict)  # folded name -> fluid
     unusable: dict[str, str] = field(default_factory=dict)  # material key -> its Materials cell in error
     bad_conditions: dict[str, str] = field(default_factory=dict)  # folded condition name -> its row's cell
+    fittings: tuple = fitting_rows.BUILTIN  # equivalent lengths: the Fittings sheet's rows, then the built-in
 
 
 def _find(book: Book, wanted: str) -> str | None:
@@ -82,6 +84,7 @@ def read_inputs(book: Book, lines_sheet: str = "Lines", header_map: dict[str, st
     unusable: dict[str, str] = {}
     materials = _materials(book, notes, columns, unusable)
     fluids = _fluids(book, notes, columns)
+    fittings = fitting_rows.read(book, notes, columns)
     name = _find(book, lines_sheet)
     lines = read_table(book.sheet(name), schema.LINE_FIELDS, "Tag", mapping) if name else None
     if name is None:
@@ -106,7 +109,7 @@ def read_inputs(book: Book, lines_sheet: str = "Lines", header_map: dict[str, st
                                   address(lines.header_row, 0)))
     us = _us_units(lines)
     return Inputs(lines, conditions, materials, dict(library.finishes()), settings, notes, columns, us,
-                  fluids, unusable, bad_conditions)
+                  fluids, unusable, bad_conditions, fittings)
 
 
 def _us_units(t: Table | None) -> bool:

@@ -70,6 +70,9 @@ RESULTS: tuple[Result, ...] = (
     R("condensate", "Condensate", "kg/h", "lb/h", "condensate_kg_per_s", "0.00", optional=True, total=True),
     R("time_to_freeze", "Time to freeze", "h", "h", "time_to_freeze_s", optional=True),
     R("time_to_cool", "Time to cool", "h", "h", "time_to_cool_s", optional=True),
+    R("tracing_duty", "Tracing duty", "W/m", "Btu/(h·ft)", "tracing_duty_W_m", optional=True),
+    R("fittings_heat_loss", "Fittings heat loss", "W", "Btu/h", "fittings_heat_loss_W", "#,##0", optional=True,
+      total=True),
 )
 del R
 
