@@ -45,12 +45,13 @@ class Fitting:
 
 
 # The bare valve: a bare 6-inch gate valve at 400 °F loses about 5,800 Btu/h, 1.7 kW (US DOE steam
-# tip sheet table, REFERENCES.md), as much as about 1.2 m of the bare NPS 6 pipe beside it at 204 °C in
-# still air at 21 °C (1.4 kW/m by this tool's own surface balance; tests/reference/test_tracing.py).
+# tip sheet table, REFERENCES.md), as much as about 1.0 m of the bare NPS 6 pipe beside it at 204 °C in
+# still air at 21 °C (1.77 kW/m with emissivity 0.8 by a separate surface balance: 0.96 m;
+# tests/reference/test_tracing.py).
 _MEMORY = "from memory: a rough value; give your own on the Fittings sheet"
 BUILTIN: tuple[Fitting, ...] = (
     Fitting("valve", 0.0, math.inf, True, 1.5, "built-in, " + _MEMORY + " (a removable box over the valve)"),
-    Fitting("valve", 0.0, math.inf, False, 1.2, "built-in, from a bare 6-inch gate valve (US DOE steam tip "
+    Fitting("valve", 0.0, math.inf, False, 1.0, "built-in, from a bare 6-inch gate valve (US DOE steam tip "
             "sheet, 1.7 kW at 400 °F) against the bare pipe; other sizes and valve types " + _MEMORY),
     Fitting("flange", 0.0, math.inf, True, 0.6, "built-in, " + _MEMORY + " (a cover over the flange pair)"),
     Fitting("flange", 0.0, math.inf, False, 0.5, "built-in, " + _MEMORY + " (a bare flange pair)"),
