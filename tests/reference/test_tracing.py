@@ -191,3 +191,35 @@ def test_the_built_in_bare_valve_is_the_published_valve_loss_over_the_bare_pipe(
     loss = 5800 * 0.29307107  # Btu/h -> W (1 Btu/h = 0.29307107 W)
     metres = loss / q_bare(168.3, (400 - 32) / 1.8, t_air_c=(70 - 32) / 1.8, eps=0.8)
     assert find(BUILTIN, "valve", 0.1683, False).length == pytest.approx(metres, abs=0.05)
+
+
+def test_check_names_sheet_cell_and_fix_for_every_new_input(tmp_path, cli):
+    """`check`: each bad tracing, fittings or Fittings-sheet input is one error on its own cell."""
+    head = ["Tag", "Shape", "Size", "Length [m]", "Operating temperature [°C]", "Condition", "Insulation",
+            "Maintain temperature [°C]", "Valves", "Flanges", "Supports", "Heat loss allowance [%]"]
+    base = {"Shape": "pipe", "Size": "NPS 4", "Length [m]": 10, "Operating temperature [°C]": 80,
+            "Insulation": "testfoam"}
+    rows = [{**base, "Tag": "A", "Condition": "windy", "Maintain temperature [°C]": 5},  # air at 10 °C
+            {**base, "Tag": "B", "Maintain temperature [°C]": 160},  # testfoam: 150 °C at most
+            {**base, "Tag": "C", "Valves": -1, "Flanges": "two", "Supports": 1.5, "Heat loss allowance [%]": 200},
+            {**base, "Tag": "D", "Shape": "vessel", "Size": "NPS 24", "Valves": 2, "Maintain temperature [°C]": 50}]
+    fittings = [["Item", "Min size", "Max size", "Insulated", "Equivalent length [m]"],
+                ["gasket", None, None, None, 1], ["valve", "NPS 9x", None, "yes", 1],
+                ["valve", "NPS 8", "NPS 4", None, 1], ["flange", None, None, "maybe", 1],
+                ["support", "60 mm", "100 mm", "yes", None]]
+    src = write_book(tmp_path / "in.xlsx", rows, head,
+                     sheets={"Materials": MATERIALS, "Conditions": CONDITIONS, "Fittings": fittings})
+    cli("check", src, "--report", tmp_path / "c.json")
+    notes = json.loads((tmp_path / "c.json").read_text())["notes"]
+    found = {(n["sheet"], n["cell"]): (n["level"], n["code"], n["message"]) for n in notes if n["cell"]}
+    expected = {("Lines", "H2"): "tracing-below-air", ("Lines", "H3"): "tracing-over-material",
+                ("Lines", "I4"): "out-of-range", ("Lines", "J4"): "not-a-number", ("Lines", "K4"): "bad-count",
+                ("Lines", "L4"): "out-of-range", ("Fittings", "A2"): "bad-fitting", ("Fittings", "B3"): "bad-fitting",
+                ("Fittings", "C4"): "bad-fitting", ("Fittings", "D5"): "not-yes-no", ("Fittings", "E6"): "bad-fitting"}
+    for where, code in expected.items():
+        assert found[where][:2] == ("error", code), (where, found.get(where))
+    assert found[("Lines", "H5")][:2] == ("warning", "tracing-shape")
+    assert found[("Lines", "I5")][:2] == ("warning", "fittings-shape")
+    assert "raise it or leave it blank" in found[("Lines", "H2")][2]
+    assert "lower it or choose another material" in found[("Lines", "H3")][2]
+    assert "fix the size or leave it blank" in found[("Fittings", "B3")][2]

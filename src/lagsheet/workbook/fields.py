@@ -81,7 +81,7 @@ LINE_FIELDS = (
     Field("supports", "Supports", NUMBER, "", "dimensionless", ("pipe supports", "number of supports"),
           -1e-12, 1e6),
     Field("heat_loss_allowance", "Heat loss allowance", NUMBER, "%", "dimensionless",
-          ("thermal bridge allowance", "thermal bridges"), -1e-12, 10.0),
+          ("thermal bridge allowance", "thermal bridges"), -1e-12, 1.0),
 )
 
 CONDITION_FIELDS = (
@@ -168,7 +168,7 @@ SETTING_RANGES = {
     "bare_emissivity": (0.0, True, 1.0),
     "freeze_fraction": (0.0, False, 1.0),
     "tracing_margin": (0.0, True, 2.0),
-    "heat_loss_allowance": (0.0, True, 10.0),
+    "heat_loss_allowance": (0.0, True, 1.0),
 }
 SETTING_ALIASES = {"heating efficiency": "heating_efficiency", "boiler efficiency": "heating_efficiency",
                    "cop": "cooling_cop", "co2 factor": "emission_factor", "interest rate": "discount_rate"}
