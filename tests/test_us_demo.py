@@ -26,6 +26,7 @@ US_HEADERS = {
     "Max temperature drop [K]": ("Max temperature drop [°F]", lambda v: v * 1.8),
     "Contents volume [m³]": ("Contents volume [ft³]", lambda v: v / 0.3048**3),
     "Min temperature [°C]": ("Min temperature [°F]", lambda v: v * 9 / 5 + 32),
+    "Maintain temperature [°C]": ("Maintain temperature [°F]", lambda v: v * 9 / 5 + 32),
 }
 HEADERS = demo.HEADERS + demo.PROCESS_HEADERS
 

@@ -26,7 +26,8 @@ HEADERS = ["Tag", "Area", "Service", "Shape", "Size", "Outside diameter [mm]", "
 # process columns, filled from PROCESS below (tag -> {header: value})
 PROCESS_HEADERS = ["Fluid", "Flow rate [kg/s]", "Operating pressure [bar]", "Max temperature drop [K]",
                    "Freeze protection [h]", "Schedule", "Contents volume [m³]", "Hold time [h]",
-                   "Min temperature [°C]", "Part of"]
+                   "Min temperature [°C]", "Part of", "Maintain temperature [°C]", "Valves", "Flanges", "Supports",
+                   "Heat loss allowance [%]"]
 
 # (tag, area, service, shape, size, od, length, T, condition, insulation, finish, Tsmax, qmax, cond,
 #  tmin, fixed[, surface area, outer insulation, economic])
@@ -88,11 +89,13 @@ LINES = [
     ("FW-9002", "Utilities", "Make-up water, outdoor", "pipe", "NPS 1", None, 60, 12, "outdoor; winter", "elastomeric foam", "pvc", None, None, None, None, None),
     ("VS-8002", "Process area", "Hot-hold product tank shell", "vessel", None, 2400, 4, 85, "outdoor; winter", "mineral wool", "aluminium", 60, None, None, None, None),
     ("VS-8002-R", "Process area", "Hot-hold product tank roof", "top", None, None, None, 85, "outdoor; winter", "mineral wool", "aluminium", 60, None, None, None, None, 4.5),
+    ("TF-4005", "Tank farm", "Traced fuel oil suction", "pipe", "NPS 3", None, 120, 50, "outdoor; winter", "mineral wool", "aluminium", None, 20, None, None, None),
+    ("ST-1011", "Boiler house", "Steam valve station", "pipe", "NPS 6", None, 30, 185, "indoor", "mineral wool", "aluminium", 55, None, None, None, None),
 ]
 
 # invented process data: steam mains (condensate), a flowing hot-water line with a drop limit,
-# hot oil by volume flow (a fluid of the Fluids sheet), stagnant outdoor water (freeze time)
-# and a hot-hold tank whose roof is linked to its shell (cool-down time)
+# hot oil by volume flow (a fluid of the Fluids sheet), stagnant outdoor water (freeze time),
+# a hot-hold tank whose roof is linked to its shell (cool-down time), a traced line and fittings
 PROCESS = {
     "ST-1001": {"Fluid": "steam"},
     "SD-2001": {"Fluid": "steam", "Operating pressure [bar]": 11.2},
@@ -103,6 +106,9 @@ PROCESS = {
     "FW-9002": {"Freeze protection [h]": 8},
     "VS-8002": {"Fluid": "water", "Contents volume [m³]": 16, "Hold time [h]": 90, "Min temperature [°C]": 65},
     "VS-8002-R": {"Part of": "VS-8002"},
+    # heat tracing holds the oil at 40 °C in winter; a valve station with its fittings and 10 % for the rest
+    "TF-4005": {"Maintain temperature [°C]": 40},
+    "ST-1011": {"Valves": 6, "Flanges": 8, "Supports": 10, "Heat loss allowance [%]": 10},
 }
 
 CONDITIONS = [
