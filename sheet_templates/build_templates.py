@@ -109,6 +109,15 @@ _HELP = {
                        "contents: the warmest they may reach).",
     "part_of": "Process: the Tag of the vessel this line is a head or bottom of; its heat loss "
                "counts in the vessel's Hold time.",
+    "maintain_temperature": "Heat tracing (pipes and risers): hold the pipe at this temperature; gives "
+                            "Tracing duty in W/m at the coldest named condition, Tracing margin included. "
+                            "Must be above that condition's air.",
+    "valves": "Fittings: number of valves on the line; each adds its Equivalent length of pipe (Fittings "
+              "sheet). Insulated (a box) when the line is insulated.",
+    "flanges": "Fittings: number of flange pairs (flanged joints) on the line, as Valves.",
+    "supports": "Fittings: number of pipe supports on the line, as Valves.",
+    "heat_loss_allowance": "Extra heat loss for thermal bridges not counted as fittings, as a share of "
+                           "the line's (ISO 12241, VDI 2055). Blank: the Settings value.",
 }
 _WIDTH = {
     "tag": 14, "area": 16, "service": 28, "shape": 10, "size": 10, "outside_diameter": 13,
@@ -119,6 +128,7 @@ _WIDTH = {
     "flow_rate": 12, "fluid": 12, "operating_pressure": 14, "inside_diameter": 13, "schedule": 10,
     "max_temperature_drop": 15, "freeze_protection": 13, "contents_volume": 13, "hold_time": 10,
     "min_temperature": 14, "part_of": 12,
+    "maintain_temperature": 15, "valves": 9, "flanges": 9, "supports": 10, "heat_loss_allowance": 14,
 }
 # Units shown in headers where the field's own unit text is not the one to show.
 _SHOW_UNIT = {"cost_per_volume": f"{CURRENCY}/m³", "operating_hours": "h/yr"}
@@ -243,12 +253,21 @@ _SETTING_MEANING = {
     "bare_emissivity": "Emissivity of the bare line, for the bare heat loss.",
     "freeze_fraction": "Share of standing water allowed to freeze for Freeze protection (25 % is "
                        "common practice).",
+    "tracing_margin": "Tracing duty = heat loss at the Maintain temperature × (1 + this); 10-25 % is usual "
+                      "in IEEE 515 / IEC/IEEE 60079-30-2 designs (common practice).",
+    "heat_loss_allowance": "Extra heat loss for thermal bridges not counted as fittings, for lines that "
+                           "give none (ISO 12241, VDI 2055).",
 }
 _SETTING_UNIT = {"year": "yr"}
 
 
 def _fluids_sheet() -> Sheet:
     return Sheet("Fluids", [[header(f) for f in schema.FLUID_FIELDS]], [18, 16, 14], header_row=0,
+                 freeze=(1, 0))
+
+
+def _fittings_sheet() -> Sheet:
+    return Sheet("Fittings", [[header(f) for f in schema.FITTING_FIELDS]], [10, 12, 12, 10, 18], header_row=0,
                  freeze=(1, 0))
 
 
@@ -319,6 +338,18 @@ def _paragraphs() -> list[tuple[str | None, str | None]]:
                            "cool. These columns appear only when a line uses them."),
         ("Fluids", "Optional: process fluids that CoolProp does not name (thermal oils, brines): Name, "
                    "Specific heat and Density. Name them in the Fluid column of Lines."),
+        ("Heat tracing", "A Maintain temperature on a pipe or riser gives its Tracing duty: the heat per metre "
+                         "that holds it there with the chosen insulation at its coldest named condition, times "
+                         "1 + Tracing margin (Settings), in the Tracing duty column. The Summary and "
+                         "Quantities total it per area."),
+        ("Fittings", "Valves, Flanges (pairs) and Supports on a line each lose as much as their Equivalent "
+                     "length of the same pipe: insulated (boxes, covers) when the line is insulated, bare "
+                     "when it is bare. Built in, all sizes: valve 1.5 m insulated, 1.0 m bare (from a "
+                     "published bare-valve loss); flange pair 0.6 m / 0.5 m; support 0.3 m / 0.2 m (these "
+                     "from memory, rough). Rows of the optional Fittings sheet (Item, Min size, Max size as "
+                     "NPS 2, DN 50 or 60.3 mm, blank for all; Insulated yes/no, blank for both; Equivalent "
+                     "length) replace or come before them. Their heat is in Heat loss and shown as "
+                     "Fittings heat loss."),
         ("Settings", "Prices, efficiencies and economics. The values given are lagsheet's defaults, "
                      "placeholders to replace; a blank value takes the default. Economic lines also need "
                      "Jacket cost per area, Labour per layer and a Cost per volume for the material."),
@@ -362,7 +393,7 @@ def _instructions_sheet() -> Sheet:
 def sheets() -> list[Sheet]:
     """The sheets of both templates, in order."""
     return [_instructions_sheet(), _lines_sheet(), _conditions_sheet(), _materials_sheet(),
-            _fluids_sheet(), _settings_sheet()]
+            _fluids_sheet(), _fittings_sheet(), _settings_sheet()]
 
 
 # --------------------------------------------------------------------------------------
