@@ -223,3 +223,28 @@ def test_check_names_sheet_cell_and_fix_for_every_new_input(tmp_path, cli):
     assert "raise it or leave it blank" in found[("Lines", "H2")][2]
     assert "lower it or choose another material" in found[("Lines", "H3")][2]
     assert "fix the size or leave it blank" in found[("Fittings", "B3")][2]
+
+
+def test_the_economic_thickness_prices_the_allowance_and_fittings_as_reported(tmp_path):
+    """Z = 100 % doubles every candidate's loss, so it must choose what twice the energy price
+    chooses without it (an exact equivalence); insulated valves worth 30 m on a 30 m line likewise."""
+    from test_reported_values import SETTINGS as COSTS
+
+    def economic(extra, price):
+        r = row("E-1", **{"Fixed thickness [mm]": None, "Condition": "calm", "Size": "NPS 8", "Length [m]": 30,
+                          "Operating temperature [°C]": 250, **extra})
+        r["Economic"] = "yes"
+        head = HEAD + ["Economic"]
+        from lagsheet.commands.fill import fill as run
+
+        src = write_book(tmp_path / "e.xlsx", [r], head, sheets={
+            "Materials": MATERIALS, "Conditions": CONDITIONS, "Settings": COSTS + [["Energy price", price, "EUR/kWh"]]})
+        run(src, tmp_path / "e-out.xlsx", report_path=tmp_path / "e.json")
+        return json.loads((tmp_path / "e.json").read_text())["lines"][0]["results"]["thickness_m"]
+
+    plain = {p: economic({}, p) for p in (0.02, 0.04, 0.08)}
+    assert len(set(plain.values())) > 1  # the price moves the choice here, so the check can fail
+    for p in (0.02, 0.04):
+        assert economic({"Heat loss allowance [%]": 100}, p) == plain[2 * p]
+        # 20 valves × 1.5 m (the built-in insulated valve) = 30 m: the line's own length again
+        assert economic({"Valves": 20}, p) == plain[2 * p]

@@ -65,6 +65,7 @@ class Line:
     maintain: float = np.nan  # 'Maintain temperature' [K], NaN where not traced (design.tracing)
     fittings: dict[str, int] = field(default_factory=dict)  # item -> count on the line
     allowance: float = np.nan  # 'Heat loss allowance' as a fraction (the line's or the setting's)
+    l_eq: tuple[float, float] = (0.0, 0.0)  # Σ count × equivalent length of its fittings [m]: insulated, bare
 
     @property
     def per_length(self) -> bool:
@@ -176,7 +177,7 @@ def resolve(t: Table, inputs: Inputs, i: int, notes: list[Note], cols: Columns |
     for target in CHECK_ORDER:  # each target checks the inputs it reads
         if fluid_known or not target.needs_fluid:
             target.check(L, cells)
-    tracing.check(L, cells, us)
+    tracing.check(L, cells, us, inputs.fittings)
     return L
 
 

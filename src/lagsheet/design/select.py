@@ -103,7 +103,7 @@ def _specify(inputs: Inputs) -> Results:
     econ, annualised, cost, hours = _economics(ctx, base)
     ch = _select(ctx, judged, econ, annualised, res)
     rep = _solve_chosen(ctx, base, ch, res, hours)
-    tracing.add_fittings(ctx, rep, res, inputs.fittings)
+    tracing.add_fittings(ctx, rep, res)
     _values(ctx, ch, rep, res, cost[np.arange(n), ch.pick])
     for i in np.flatnonzero(rep.put):
         notes.line_notes(ctx, judged, ch, rep, res, i)

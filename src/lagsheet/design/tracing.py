@@ -38,66 +38,79 @@ ITEM_COLUMNS = (("valve", "valves"), ("flange", "flanges"), ("support", "support
 FREEZE_HOLD = 278.15  # K: 5 °C, the usual maintain temperature of freeze protection (common practice)
 
 
-def check(L, cells, us: bool) -> None:
-    """Read and check the line's tracing and fittings inputs onto ``L`` (each problem one note)."""
-    num, err, warn = cells.num, cells.err, cells.warn
-    maintain = num("maintain_temperature")
-    if np.isfinite(maintain):
-        if L.word not in TRACED:
-            warn("tracing-shape", "maintain_temperature", f"'Maintain temperature' gives a tracing duty per "
-                 f"metre of pipe; a {L.word} gets none: leave it blank here")
-        elif L.conditions:
-            cold = min(L.conditions, key=lambda c: c.t_air)
-            if maintain <= cold.t_air:
-                err("tracing-below-air", "maintain_temperature",
-                    f"'Maintain temperature' {show(maintain, 'temperature', us)} is not above the air at condition "
-                    f"'{cold.name}' (the coldest named, {show(cold.t_air, 'temperature', us)}): tracing only adds "
-                    "heat; raise it or leave it blank")
-            elif L.materials and maintain > L.materials[0].max_temperature:
-                err("tracing-over-material", "maintain_temperature",
-                    f"'Maintain temperature' {show(maintain, 'temperature', us)} is above the service limit of "
-                    f"{L.materials[0].name} ({show(L.materials[0].max_temperature, 'temperature', us)}); "
-                    "lower it or choose another material")
-            else:
-                L.maintain = maintain
+def check(L, cells, us: bool, table: tuple = fitting_rows.BUILTIN) -> None:
+    """Read and check the line's tracing and fittings inputs onto ``L`` (each problem one note);
+    ``table`` is the Fittings rows (the sheet's, then the built-in) its equivalent lengths come from."""
+    _maintain(L, cells, us)
     for item, key in ITEM_COLUMNS:
-        n = num(key)
+        n = cells.num(key)
         if not np.isfinite(n) or n == 0:
             continue
         if n < 0 or abs(n - round(n)) > 1e-9:
-            err("bad-count", key, f"'{key.capitalize()}' must be a whole number of items (0, 1, 2 ...)")
+            cells.err("bad-count", key, f"'{key.capitalize()}' must be a whole number of items (0, 1, 2 ...)")
         elif L.word not in TRACED:
-            warn("fittings-shape", key, f"'{key.capitalize()}' count equivalent lengths of pipe; a {L.word} has "
-                 "none: use 'Heat loss allowance' for its thermal bridges")
+            cells.warn("fittings-shape", key, f"'{key.capitalize()}' count equivalent lengths of pipe; a {L.word} "
+                       "has none: use 'Heat loss allowance' for its thermal bridges")
         else:
             L.fittings[item] = int(round(n))
-    allowance = num("heat_loss_allowance")
+    L.l_eq = (_sum_lengths(L, cells, table, True), _sum_lengths(L, cells, table, False))
+    allowance = cells.num("heat_loss_allowance")
     L.allowance = allowance if np.isfinite(allowance) else float(cells.settings["heat_loss_allowance"])
 
 
-def _lengths(ctx, table, insulated: np.ndarray, notes_out=None) -> np.ndarray:
-    """Σ nᵢ L_eq,i [m] per line, each fitting in the state ``insulated`` gives."""
-    out = np.zeros(ctx.n)
-    for i, L in enumerate(ctx.lines):
-        for item, count in L.fittings.items():
-            row = fitting_rows.find(table, item, 2 * L.r_inner, bool(insulated[i]))
-            if row is None:
-                if notes_out is not None:
-                    notes_out.append((i, item))
-                continue
-            out[i] += count * row.length
-    return out
+def _maintain(L, cells, us: bool) -> None:
+    maintain = cells.num("maintain_temperature")
+    if not np.isfinite(maintain):
+        return
+    if L.word not in TRACED:
+        cells.warn("tracing-shape", "maintain_temperature", f"'Maintain temperature' gives a tracing duty per "
+                   f"metre of pipe; a {L.word} gets none: leave it blank here")
+        return
+    if not L.conditions:
+        return
+    cold = min(L.conditions, key=lambda c: c.t_air)
+    if maintain <= cold.t_air:
+        cells.err("tracing-below-air", "maintain_temperature",
+                  f"'Maintain temperature' {show(maintain, 'temperature', us)} is not above the air at condition "
+                  f"'{cold.name}' (the coldest named, {show(cold.t_air, 'temperature', us)}): tracing only adds "
+                  "heat; raise it or leave it blank")
+    elif L.materials and maintain > L.materials[0].max_temperature:
+        cells.err("tracing-over-material", "maintain_temperature",
+                  f"'Maintain temperature' {show(maintain, 'temperature', us)} is above the service limit of "
+                  f"{L.materials[0].name} ({show(L.materials[0].max_temperature, 'temperature', us)}); "
+                  "lower it or choose another material")
+    else:
+        L.maintain = maintain
 
 
-def add_fittings(ctx, rep, res, table) -> None:
+def _sum_lengths(L, cells, table, insulated: bool) -> float:
+    """Σ nᵢ L_eq,i [m] of the line's fittings in one state; an item without a row is a warning."""
+    total = 0.0
+    for item, count in L.fittings.items():
+        row = fitting_rows.find(table, item, 2 * L.r_inner, insulated)
+        if row is None:
+            cells.warn("no-fitting-row", item + "s", f"no Fittings row for {'an insulated' if insulated else 'a bare'} "
+                       f"{item} of this size: its heat loss is left out; add a row to the Fittings sheet")
+            continue
+        total += count * row.length
+    return total
+
+
+def loss_factor(lines) -> np.ndarray:
+    """Per line: whole-line heat loss with fittings and allowance / without, for an insulated system
+    (1 + Z + Σ nᵢ L_eq,i / L; the economic thickness prices candidates with it)."""
+    return np.array([1.0 + (L.allowance if np.isfinite(L.allowance) else 0.0)
+                     + (L.l_eq[0] / L.length if L.fittings and L.length > 0 else 0.0) for L in lines])
+
+
+def add_fittings(ctx, rep, res) -> None:
     """Fittings and the thermal-bridge allowance into the chosen and bare heat losses of ``rep``."""
     lines, put = ctx.lines, rep.put
     lengths = np.array([L.length if L.geometry == CYLINDER else np.nan for L in lines])
     allowance = np.array([L.allowance if np.isfinite(L.allowance) else 0.0 for L in lines])
     insulated = rep.chosen_th.sum(axis=1) > 0
-    missing: list[tuple[int, str]] = []
-    l_eq = _lengths(ctx, table, insulated, missing)
-    l_bare = _lengths(ctx, table, np.zeros(ctx.n, bool))
+    l_eq = np.array([L.l_eq[0] if ins else L.l_eq[1] for L, ins in zip(lines, insulated, strict=True)])
+    l_bare = np.array([L.l_eq[1] for L in lines])
     with np.errstate(all="ignore"):
         fit = np.where(l_eq > 0, rep.loss / lengths * l_eq, 0.0)
         fit_bare = np.where(l_bare > 0, rep.bare_loss / lengths * l_bare, 0.0)
@@ -106,10 +119,6 @@ def add_fittings(ctx, rep, res, table) -> None:
     rep.loss = np.where(put, rep.loss * (1 + allowance) + fit, rep.loss)
     rep.bare_loss = np.where(put, rep.bare_loss * (1 + allowance) + fit_bare, rep.bare_loss)
     t, us = ctx.t, ctx.us
-    for i, item in missing:
-        res.notes[i].append(Note("warning", "no-fitting-row", f"no Fittings row for a "
-                                 f"{'insulated' if insulated[i] else 'bare'} {item} of this size: its heat loss "
-                                 "is left out; add a row to the Fittings sheet", t.sheet, t.cell(i, item + "s")))
     for i in np.flatnonzero(has):
         L = lines[i]
         what = ", ".join(f"{n} {k if n == 1 else k + 's'}" for k, n in L.fittings.items())
