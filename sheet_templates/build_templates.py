@@ -138,7 +138,7 @@ _NUMERIC = (schema.NUMBER, schema.TEMPERATURE, schema.DIFFERENCE)
 def header(f: schema.Field) -> str:
     """The header of a field in the template: its name, and its unit in brackets."""
     unit = _SHOW_UNIT.get(f.key, f.unit)
-    return f"{f.header} [{unit}]" if unit else f.header
+    return f"{f.header} [{unit}]" if unit and not f.count else f.header
 
 
 LINE_HEADERS = [header(f) for f in schema.LINE_FIELDS]

@@ -67,6 +67,8 @@ UNITS = {
     "flow_rate": ["kg/s", "m³/h", "kg/h", "lb/h", "", "m/s", "l/min"],
     "operating_pressure": ["bar", "psi", "kPa", "MPa", "", "K", "atm"],
     "inside_diameter": ["mm", "in", "", "m"],
+    "valves": ["", "1", "pcs"], "flanges": ["", "1"], "supports": ["", "1", "m"],
+    "heat_loss_allowance": ["%", "", "1", "K"],
     "max_temperature_drop": ["K", "°C", "°F", "delta_degC", "", "mm"],
     "freeze_protection": ["h", "min", "s", "day", "", "m"],
     "hold_time": ["h", "min", "", "kg"],
@@ -111,6 +113,8 @@ PLAUSIBLE = {
     "flow_rate": (0.01, 50), "operating_pressure": (0.5, 40), "inside_diameter": (10, 900),
     "max_temperature_drop": (0.5, 20), "freeze_protection": (1, 72), "contents_volume": (0.5, 100),
     "hold_time": (1, 200), "min_temperature": (0, 200),
+    "maintain_temperature": (-10, 200), "valves": (0, 20), "flanges": (0, 20), "supports": (0, 50),
+    "heat_loss_allowance": (0, 50),
 }
 VALID_WORDS = {"shape": list(schema.SHAPE_WORDS), "size": ["NPS 4", "DN 100", '4"', "NPS 1 1/2"],
                "insulation": WORDS["insulation"][:6], "outer_insulation": WORDS["outer_insulation"][:3],

@@ -24,6 +24,7 @@ class Field:
     minimum: float | None = None  # SI, exclusive lower bound of a valid value
     maximum: float | None = None  # SI, inclusive upper bound
     alt_units: tuple[tuple[str, str], ...] = ()  # other accepted (dimension unit, si) pairs
+    count: bool = False  # a number of items: no unit to write in its header
 
 
 LINE_FIELDS = (
@@ -75,11 +76,12 @@ LINE_FIELDS = (
     # heat tracing and fittings (WORKBOOK.md section 4; README, "Heat tracing", "Fittings")
     Field("maintain_temperature", "Maintain temperature", TEMPERATURE, "°C", "K",
           ("maintain temp", "tracing temperature", "maintenance temperature"), 0.0, 2000.0),
-    Field("valves", "Valves", NUMBER, "", "dimensionless", ("valve count", "number of valves"), -1e-12, 1e5),
-    Field("flanges", "Flanges", NUMBER, "", "dimensionless",
-          ("flange pairs", "flanged joints", "number of flanges"), -1e-12, 1e5),
-    Field("supports", "Supports", NUMBER, "", "dimensionless", ("pipe supports", "number of supports"),
-          -1e-12, 1e6),
+    Field("valves", "Valves", NUMBER, "1", "dimensionless", ("valve count", "number of valves"), -1e-12, 1e5,
+          count=True),
+    Field("flanges", "Flanges", NUMBER, "1", "dimensionless",
+          ("flange pairs", "flanged joints", "number of flanges"), -1e-12, 1e5, count=True),
+    Field("supports", "Supports", NUMBER, "1", "dimensionless", ("pipe supports", "number of supports"),
+          -1e-12, 1e6, count=True),
     Field("heat_loss_allowance", "Heat loss allowance", NUMBER, "%", "dimensionless",
           ("thermal bridge allowance", "thermal bridges"), -1e-12, 1.0),
 )

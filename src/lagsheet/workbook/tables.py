@@ -592,7 +592,7 @@ def _column_unit(t: Table, c: Column, here: str) -> bool:
     """Settle the column's unit; False (with the column marked error) when unusable."""
     f = c.field
     here = c.unit_cell or here
-    if (c.unit_text is None or c.unit_text == "") and not f.unit:  # a count: nothing to write
+    if (c.unit_text is None or c.unit_text == "") and f.count:  # a number of items: nothing to write
         c.unit, c.si_unit = parse_unit("1"), f.si
         return True
     if c.unit_text is None or c.unit_text == "":
