@@ -120,6 +120,15 @@ _HELP = {
     "solar_irradiance": "Sun on a surface facing it, W/m² (1000: full sun), in place of the named "
                         "conditions'. Counts only where it makes a result worse. Optional.",
     "solar_absorptance": "Overrides the finish's solar absorptance (0 to 1). Optional.",
+    "maintain_temperature": "Heat tracing (pipes and risers): hold the pipe at this temperature; gives "
+                            "Tracing duty in W/m at the coldest named condition, Tracing margin included. "
+                            "Must be above that condition's air.",
+    "valves": "Fittings: number of valves on the line; each adds its Equivalent length of pipe (Fittings "
+              "sheet). Insulated (a box) when the line is insulated.",
+    "flanges": "Fittings: number of flange pairs (flanged joints) on the line, as Valves.",
+    "supports": "Fittings: number of pipe supports on the line, as Valves.",
+    "heat_loss_allowance": "Extra heat loss for thermal bridges not counted as fittings, as a share of "
+                           "the line's (ISO 12241, VDI 2055). Blank: the Settings value.",
 }
 _WIDTH = {
     "tag": 14, "area": 16, "service": 28, "shape": 10, "size": 10, "outside_diameter": 13,
@@ -132,6 +141,7 @@ _WIDTH = {
     "min_temperature": 14, "part_of": 12, "code": 13,
     "ambient_temperature": 14, "wind_speed": 11, "relative_humidity": 12, "surroundings_temperature": 16,
     "solar_irradiance": 13, "solar_absorptance": 12,
+    "maintain_temperature": 15, "valves": 9, "flanges": 9, "supports": 10, "heat_loss_allowance": 14,
 }
 # Units shown in headers where the field's own unit text is not the one to show.
 _SHOW_UNIT = {"cost_per_volume": f"{CURRENCY}/m³", "operating_hours": "h/yr"}
@@ -141,7 +151,7 @@ _NUMERIC = (schema.NUMBER, schema.TEMPERATURE, schema.DIFFERENCE)
 def header(f: schema.Field) -> str:
     """The header of a field in the template: its name, and its unit in brackets."""
     unit = _SHOW_UNIT.get(f.key, f.unit)
-    return f"{f.header} [{unit}]" if unit else f.header
+    return f"{f.header} [{unit}]" if unit and not f.count else f.header
 
 
 LINE_HEADERS = [header(f) for f in schema.LINE_FIELDS]
@@ -261,6 +271,10 @@ _SETTING_MEANING = {
                        "common practice).",
     "touch_still_air": "yes: Max surface temperature is also judged with no wind and full sun (a "
                        "person touches a line on a calm day; common practice). no: at the named wind only.",
+    "tracing_margin": "Tracing duty = heat loss at the Maintain temperature × (1 + this); 10-25 % is usual "
+                      "in IEEE 515 / IEC/IEEE 60079-30-2 designs (common practice).",
+    "heat_loss_allowance": "Extra heat loss for thermal bridges not counted as fittings, for lines that "
+                           "give none (ISO 12241, VDI 2055).",
 }
 _SETTING_UNIT = {"year": "yr"}
 
@@ -272,6 +286,11 @@ def _codes_sheet() -> Sheet:
 
 def _fluids_sheet() -> Sheet:
     return Sheet("Fluids", [[header(f) for f in schema.FLUID_FIELDS]], [18, 16, 14], header_row=0,
+                 freeze=(1, 0))
+
+
+def _fittings_sheet() -> Sheet:
+    return Sheet("Fittings", [[header(f) for f in schema.FITTING_FIELDS]], [10, 12, 12, 10, 18], header_row=0,
                  freeze=(1, 0))
 
 
@@ -353,6 +372,18 @@ def _paragraphs() -> list[tuple[str | None, str | None]]:
                   "built-in one (ASHRAE 90.1, GEG) replaces it."),
         ("Fluids", "Optional: process fluids that CoolProp does not name (thermal oils, brines): Name, "
                    "Specific heat and Density. Name them in the Fluid column of Lines."),
+        ("Heat tracing", "A Maintain temperature on a pipe or riser gives its Tracing duty: the heat per metre "
+                         "that holds it there with the chosen insulation at its coldest named condition, times "
+                         "1 + Tracing margin (Settings), in the Tracing duty column. The Summary and "
+                         "Quantities total it per area."),
+        ("Fittings", "Valves, Flanges (pairs) and Supports on a line each lose as much as their Equivalent "
+                     "length of the same pipe: insulated (boxes, covers) when the line is insulated, bare "
+                     "when it is bare. Built in, all sizes: valve 1.5 m insulated, 1.0 m bare (from a "
+                     "published bare-valve loss); flange pair 0.6 m / 0.5 m; support 0.3 m / 0.2 m (these "
+                     "from memory, rough). Rows of the optional Fittings sheet (Item, Min size, Max size as "
+                     "NPS 2, DN 50 or 60.3 mm, blank for all; Insulated yes/no, blank for both; Equivalent "
+                     "length) replace or come before them. Their heat is in Heat loss and shown as "
+                     "Fittings heat loss."),
         ("Settings", "Prices, efficiencies and economics. The values given are lagsheet's defaults, "
                      "placeholders to replace; a blank value takes the default. Economic lines also need "
                      "Jacket cost per area, Labour per layer and a Cost per volume for the material."),
@@ -396,7 +427,7 @@ def _instructions_sheet() -> Sheet:
 def sheets() -> list[Sheet]:
     """The sheets of both templates, in order."""
     return [_instructions_sheet(), _lines_sheet(), _conditions_sheet(), _materials_sheet(),
-            _fluids_sheet(), _codes_sheet(), _settings_sheet()]
+            _fluids_sheet(), _codes_sheet(), _fittings_sheet(), _settings_sheet()]
 
 
 # --------------------------------------------------------------------------------------

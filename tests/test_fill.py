@@ -92,7 +92,8 @@ def test_the_json_report_follows_the_contract(tmp_path, cli):
         "annual_cost", "annual_saving", "co2_kg_per_year", "critical_radius_m", "dew_point_K"}
     extensions = {"governing_condition", "installed_cost", "payback_years", "interface_temperature_K",
                   "outlet_temperature_K", "condensate_kg_per_s", "time_to_freeze_s", "time_to_cool_s",
-                  "code_thickness_m"}  # WORKBOOK.md section 4
+                  "code_thickness_m",  # WORKBOOK.md section 4
+                  "tracing_duty_W_m", "fittings_heat_loss_W"}
     assert set(line["results"]) == contract | extensions
     assert 273.15 < line["results"]["surface_temperature_K"] <= 328.15 + 1e-9
     assert set(rep["summary"]) >= {"lines", "errors", "warnings", "heat_loss_W", "annual_cost", "annual_saving"}

@@ -69,6 +69,8 @@ UNITS = {
     "inside_diameter": ["mm", "in", "", "m"],
     "wind_speed": ["m/s", "mph", "ft/s", "km/h", "", "K"], "relative_humidity": ["%", "1", "", "K"],
     "solar_irradiance": ["W/m²", "W/m2", "Btu/(h·ft²)", "", "W"], "solar_absorptance": ["1", "", "%", "-"],
+    "valves": ["", "1", "pcs"], "flanges": ["", "1"], "supports": ["", "1", "m"],
+    "heat_loss_allowance": ["%", "", "1", "K"],
     "max_temperature_drop": ["K", "°C", "°F", "delta_degC", "", "mm"],
     "freeze_protection": ["h", "min", "s", "day", "", "m"],
     "hold_time": ["h", "min", "", "kg"],
@@ -115,6 +117,8 @@ PLAUSIBLE = {
     "hold_time": (1, 200), "min_temperature": (0, 200),
     "ambient_temperature": (-30, 45), "wind_speed": (0, 15), "relative_humidity": (0, 100),
     "surroundings_temperature": (-40, 45), "solar_irradiance": (0, 1100), "solar_absorptance": (0.05, 0.95),
+    "maintain_temperature": (-10, 200), "valves": (0, 20), "flanges": (0, 20), "supports": (0, 50),
+    "heat_loss_allowance": (0, 50),
 }
 VALID_WORDS = {"shape": list(schema.SHAPE_WORDS), "size": ["NPS 4", "DN 100", '4"', "NPS 1 1/2"],
                "insulation": WORDS["insulation"][:6], "outer_insulation": WORDS["outer_insulation"][:3],

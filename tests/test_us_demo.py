@@ -27,6 +27,7 @@ US_HEADERS = {
     "Contents volume [m³]": ("Contents volume [ft³]", lambda v: v / 0.3048**3),
     "Min temperature [°C]": ("Min temperature [°F]", lambda v: v * 9 / 5 + 32),
     "Solar irradiance [W/m²]": ("Solar irradiance [Btu/(h·ft²)]", lambda v: v / 3.15459075),
+    "Maintain temperature [°C]": ("Maintain temperature [°F]", lambda v: v * 9 / 5 + 32),
 }
 HEADERS = demo.HEADERS + demo.PROCESS_HEADERS
 

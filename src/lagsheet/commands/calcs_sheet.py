@@ -188,6 +188,22 @@ def _balance(L, s1, sol, j: int, res: Results, i: int, us: bool) -> Balance:
     unit = {CYLINDER: "per_length", FLAT: "per_area", SPHERE: "power"}[L.geometry]
     text = (f"{'height' if L.word in ('riser', 'vessel') else 'length'} {show(L.length, 'length', us)}"
             if L.geometry == CYLINDER else f"area {_area(L.area, us)}" if L.geometry == FLAT else "")
+    factor, text = _with_fittings(L, factor, text, res, i, us)
     return Balance(unit, factor, text, per_unit(sol.q[j:j + 1]), per_unit(conv),
                    per_unit(sol.q_radiation[j:j + 1]), 0.0, float(sol.residual[j]),
                    float(res.values["heat_loss"][i]), bool(np.isfinite(res.values["outlet_temperature"][i])))
+
+
+def _with_fittings(L, factor: float, text: str, res: Results, i: int, us: bool) -> tuple[float, str]:
+    """The whole-line factor with the 'Heat loss allowance' Z and the fittings' equivalent length:
+    L (1 + Z) + Σ nᵢ L_eq,i (:mod:`lagsheet.design.tracing`), and its words."""
+    z = L.allowance if np.isfinite(L.allowance) else 0.0
+    insulated = res.chosen is not None and float(np.nansum(res.chosen[i])) > 0
+    extra = (L.l_eq[0] if insulated else L.l_eq[1]) if L.fittings else 0.0
+    if z > 0:
+        factor *= 1 + z
+        text += f" × (1 + {z * 100:g} % heat loss allowance)"
+    if extra > 0:
+        factor += extra
+        text += f" + {show(extra, 'length', us) if us else f'{extra:.3g} m'} of pipe for the fittings"
+    return factor, text

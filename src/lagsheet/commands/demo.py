@@ -28,7 +28,8 @@ HEADERS = ["Tag", "Area", "Service", "Shape", "Size", "Outside diameter [mm]", "
 # process columns, filled from PROCESS below (tag -> {header: value})
 PROCESS_HEADERS = ["Fluid", "Flow rate [kg/s]", "Operating pressure [bar]", "Max temperature drop [K]",
                    "Freeze protection [h]", "Schedule", "Contents volume [m³]", "Hold time [h]",
-                   "Min temperature [°C]", "Part of", "Code", "Solar irradiance [W/m²]"]
+                   "Min temperature [°C]", "Part of", "Code", "Solar irradiance [W/m²]",
+                   "Maintain temperature [°C]", "Valves", "Flanges", "Supports", "Heat loss allowance [%]"]
 
 # (tag, area, service, shape, size, od, length, T, condition, insulation, finish, Tsmax, qmax, cond,
 #  tmin, fixed[, surface area, outer insulation, economic])
@@ -92,11 +93,13 @@ LINES = [
     ("VS-8002-R", "Process area", "Hot-hold product tank roof", "top", None, None, None, 85, "outdoor; winter", "mineral wool", "aluminium", 60, None, None, None, None, 4.5),
     ("HW-5006", "Building services", "LTHW main to the offices (GEG)", "pipe", "DN 100", None, 180, 80, "plant room", "mineral wool", "none", None, None, None, None, None),
     ("SD-2011", "Steam distribution", "MP steam on the sunny pipe rack", "pipe", "NPS 6", None, 120, 185, "outdoor", "mineral wool", "aluminium", 55, None, None, None, None),
+    ("TF-4005", "Tank farm", "Traced fuel oil suction", "pipe", "NPS 3", None, 120, 50, "outdoor; winter", "mineral wool", "aluminium", None, 20, None, None, None),
+    ("ST-1011", "Boiler house", "Steam valve station", "pipe", "NPS 6", None, 30, 185, "indoor", "mineral wool", "aluminium", 55, None, None, None, None),
 ]
 
 # invented process data: steam mains (condensate), a flowing hot-water line with a drop limit,
-# hot oil by volume flow (a fluid of the Fluids sheet), stagnant outdoor water (freeze time)
-# and a hot-hold tank whose roof is linked to its shell (cool-down time)
+# hot oil by volume flow (a fluid of the Fluids sheet), stagnant outdoor water (freeze time),
+# a hot-hold tank whose roof is linked to its shell (cool-down time), a traced line and fittings
 PROCESS = {
     "ST-1001": {"Fluid": "steam"},
     "SD-2001": {"Fluid": "steam", "Operating pressure [bar]": 11.2},
@@ -109,6 +112,9 @@ PROCESS = {
     "VS-8002-R": {"Part of": "VS-8002"},
     "HW-5006": {"Schedule": "40", "Code": "GEG"},  # sized to a code minimum (the 'Code' column)
     "SD-2011": {"Solar irradiance [W/m²]": 1000},  # full sun on the rack: sized to the touch check in still air
+    # heat tracing holds the oil at 40 °C in winter; a valve station with its fittings and 10 % for the rest
+    "TF-4005": {"Maintain temperature [°C]": 40},
+    "ST-1011": {"Valves": 6, "Flanges": 8, "Supports": 10, "Heat loss allowance [%]": 10},
 }
 
 CONDITIONS = [

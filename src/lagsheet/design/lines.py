@@ -26,6 +26,7 @@ from ..workbook.display import show
 from ..workbook.inputs import Condition, Inputs
 from ..workbook.tables import Table
 from ..workbook.words import suggest
+from . import tracing
 from .process import Process, resolve_process
 from .targets import CHECK_ORDER
 
@@ -65,6 +66,10 @@ class Line:
     code_thickness: float = np.nan  # the 'Code' minimum corrected to the line's material [m] (design.codes)
     code_row: object = None  # the code's row that gave it
     code_basis: tuple = ()  # (code name, its thickness for this line [m], the line's design k there [W/(m·K)])
+    maintain: float = np.nan  # 'Maintain temperature' [K], NaN where not traced (design.tracing)
+    fittings: dict[str, int] = field(default_factory=dict)  # item -> count on the line
+    allowance: float = np.nan  # 'Heat loss allowance' as a fraction (the line's or the setting's)
+    l_eq: tuple[float, float] = (0.0, 0.0)  # Σ count × equivalent length of its fittings [m]: insulated, bare
 
     @property
     def per_length(self) -> bool:
@@ -181,6 +186,7 @@ def resolve(t: Table, inputs: Inputs, i: int, notes: list[Note], cols: Columns |
     for target in CHECK_ORDER:  # each target checks the inputs it reads
         if fluid_known or not target.needs_fluid:
             target.check(L, cells)
+    tracing.check(L, cells, us, inputs.fittings)
     return L
 
 

@@ -24,7 +24,7 @@ from ..physics.surface import linearised_h
 from ..workbook import library
 from ..workbook.inputs import Condition, Inputs
 from ..workbook.results import NUMBERS, WORDS
-from . import economics, notes, sun, targets
+from . import economics, notes, sun, targets, tracing
 from . import process as limits
 from .build import Quantities, quantities
 from .lines import Line, resolve_lines
@@ -103,11 +103,13 @@ def _specify(inputs: Inputs) -> Results:
     econ, annualised, cost, hours = _economics(ctx, base)
     ch = _select(ctx, judged, econ, annualised, res)
     rep = _solve_chosen(ctx, base, ch, res, hours)
+    tracing.add_fittings(ctx, rep, res)
     _values(ctx, ch, rep, res, cost[np.arange(n), ch.pick])
     for i in np.flatnonzero(rep.put):
         notes.line_notes(ctx, judged, ch, rep, res, i)
     sun.notes(ctx, ch, res)
     limits.results(ctx, rep.put, rep.chosen_th, rep.loss, res)
+    tracing.tracing(ctx, rep, res)
     for i in range(n):
         lv = {nt.level for nt in res.notes[i]}
         res.status.append("error" if "error" in lv or not lines[i].ok else

@@ -46,6 +46,9 @@ def build(inputs: Inputs, res: Results, input_path: Path, output_path: Path | No
             "errors": sum(s == "error" for s in res.status),
             "warnings": sum(s == "warning" for s in res.status),
             **{r.json: total(res.values[r.key]) for r in RESULTS if r.total},
+            # the installed tracing duty: Σ tracing duty × length over the traced lines [W]
+            "tracing_duty_W": total(res.values["tracing_duty"] * [L.length for L in res.lines] if res.lines
+                                    else res.values["tracing_duty"]),
             # how many lines each total adds up (fewer than "lines" where some have no value)
             "lines_in_totals": {r.json: covered(res.values[r.key]) for r in RESULTS if r.counted},
         },

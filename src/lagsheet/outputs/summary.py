@@ -23,6 +23,7 @@ from ..workbook.inputs import Inputs
 from ..workbook.units import from_si
 from .cautions import CAUTIONS
 from .totals import covered, total
+from .tracing_tables import fittings_rows, tracing_rows
 
 # (key, SI unit, US unit) of the quantity columns
 _UNITS = {
@@ -68,6 +69,7 @@ def summary(inputs: Inputs, res: Results, today: _dt.date | None = None) -> Shee
     s.chart = {"title": f"Heat loss by area, insulated and bare [{p}]", "categories": (0, first, first + len(order) - 1),
                "series": [((header_row, 4), 4, first, first + len(order) - 1),
                           ((header_row, 6), 6, first, first + len(order) - 1)]}
+    tracing_rows(s, inputs, res)
     s.add([])
     s.add(["Settings used", "Value", "Unit", "Source"], bold=True)
     given = inputs.settings.get("_given", set())
@@ -186,6 +188,8 @@ def quantities_table(inputs: Inputs, res: Results) -> SheetTable:
     size_col = t.get("size")
     style = size_style([size_col[i] for i in range(res.n)] if size_col is not None else [], us)
     _material_rows(s, _groups(res, style, us), us)
+    tracing_rows(s, inputs, res)
+    fittings_rows(s, res, lambda L: _size_of(L, style, us))
     s.add([])
     s.add([{"NPS": "Sizes as NPS, the way most lines of the sheet give them; ",
             "inch": "Sizes in inches, the way most lines of the sheet give them; ",

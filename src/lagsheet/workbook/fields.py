@@ -28,6 +28,7 @@ class Field:
     minimum: float | None = None  # SI, exclusive lower bound of a valid value
     maximum: float | None = None  # SI, inclusive upper bound
     alt_units: tuple[tuple[str, str], ...] = ()  # other accepted (dimension unit, si) pairs
+    count: bool = False  # a number of items: no unit to write in its header
 
 
 LINE_FIELDS = (
@@ -88,6 +89,17 @@ LINE_FIELDS = (
           ("solar", "irradiance", "solar radiation"), -1e-12, SOLAR_MAX),
     Field("solar_absorptance", "Solar absorptance", NUMBER, "1", "dimensionless",
           ("absorptance", "absorptivity", "solar absorptivity"), -1e-12, 1.0),
+    # heat tracing and fittings (WORKBOOK.md section 4; README, "Heat tracing", "Fittings")
+    Field("maintain_temperature", "Maintain temperature", TEMPERATURE, "°C", "K",
+          ("maintain temp", "tracing temperature", "maintenance temperature"), 0.0, 2000.0),
+    Field("valves", "Valves", NUMBER, "1", "dimensionless", ("valve count", "number of valves"), -1e-12, 1e5,
+          count=True),
+    Field("flanges", "Flanges", NUMBER, "1", "dimensionless",
+          ("flange pairs", "flanged joints", "number of flanges"), -1e-12, 1e5, count=True),
+    Field("supports", "Supports", NUMBER, "1", "dimensionless", ("pipe supports", "number of supports"),
+          -1e-12, 1e6, count=True),
+    Field("heat_loss_allowance", "Heat loss allowance", NUMBER, "%", "dimensionless",
+          ("thermal bridge allowance", "thermal bridges"), -1e-12, 1.0),
 )
 
 CONDITION_FIELDS = (
@@ -151,6 +163,16 @@ def code_header(key: str) -> str:
     return next(f.header for f in CODE_FIELDS if f.key == key)
 
 
+# The Fittings sheet: equivalent lengths of pipe per valve, flange pair and support (over the built-in rows)
+FITTING_FIELDS = (
+    Field("item", "Item", aliases=("fitting",)),
+    Field("min_size", "Min size", aliases=("minimum size", "from size")),
+    Field("max_size", "Max size", aliases=("maximum size", "to size")),
+    Field("insulated", "Insulated", YESNO, aliases=("covered",)),
+    Field("equivalent_length", "Equivalent length", NUMBER, "m", "m", ("equivalent pipe length", "l eq"),
+          -1e-12, 1e3),
+)
+
 # Settings: key -> (name, dimension unit, SI unit, default in SI, kind)
 SETTINGS = {
     "currency": ("Currency", "", "", "EUR", TEXT),
@@ -171,6 +193,11 @@ SETTINGS = {
     "freeze_fraction": ("Freeze fraction", "%", "dimensionless", 0.25, NUMBER),
     # 'Max surface temperature' also judged with no wind and full sun (a person touches a line on a calm day)
     "touch_still_air": ("Touch check in still air", "", "", True, YESNO),
+    # a tracing duty's margin over the loss at the maintain temperature: 10-25 % is usual in
+    # IEEE 515 / IEC/IEEE 60079-30-2 designs (common practice); 20 % taken here
+    "tracing_margin": ("Tracing margin", "%", "dimensionless", 0.20, NUMBER),
+    # thermal bridges not counted as fittings, as a share of the line's loss (ISO 12241, VDI 2055)
+    "heat_loss_allowance": ("Heat loss allowance", "%", "dimensionless", 0.0, NUMBER),
 }
 # Settings' valid ranges in SI: key -> (lowest, lowest allowed itself?, highest).
 SETTING_RANGES = {
@@ -187,6 +214,8 @@ SETTING_RANGES = {
     "max_thickness": (1e-3, True, 2.0),
     "bare_emissivity": (0.0, True, 1.0),
     "freeze_fraction": (0.0, False, 1.0),
+    "tracing_margin": (0.0, True, 2.0),
+    "heat_loss_allowance": (0.0, True, 1.0),
 }
 SETTING_ALIASES = {"heating efficiency": "heating_efficiency", "boiler efficiency": "heating_efficiency",
                    "cop": "cooling_cop", "co2 factor": "emission_factor", "interest rate": "discount_rate"}

@@ -14,6 +14,7 @@ from ..errors import Note
 from ..io.table import Book, address, fold
 from . import codes as codes_
 from . import fields as schema
+from . import fittings as fitting_rows
 from . import library, plausibility
 from .tables import Table, read_table, split_header, unused_columns
 from .tables import header_map as check_header_map
@@ -65,6 +66,7 @@ class Inputs:
     bad_conditions: dict[str, str] = field(default_factory=dict)  # folded condition name -> its row's cell
     codes: dict[str, codes_.Code] = field(default_factory=codes_.builtin)  # folded name -> minimum-thickness table
     bad_codes: dict[str, str] = field(default_factory=dict)  # folded code name -> the Codes cell in error
+    fittings: tuple = fitting_rows.BUILTIN  # equivalent lengths: the Fittings sheet's rows, then the built-in
 
 
 def _find(book: Book, wanted: str) -> str | None:
@@ -87,6 +89,7 @@ def read_inputs(book: Book, lines_sheet: str = "Lines", header_map: dict[str, st
     materials = _materials(book, notes, columns, unusable)
     fluids = _fluids(book, notes, columns)
     codes, bad_codes = codes_.read_codes(book, notes, columns)
+    fittings = fitting_rows.read(book, notes, columns)
     name = _find(book, lines_sheet)
     lines = read_table(book.sheet(name), schema.LINE_FIELDS, "Tag", mapping) if name else None
     if name is None:
@@ -111,7 +114,7 @@ def read_inputs(book: Book, lines_sheet: str = "Lines", header_map: dict[str, st
                                   address(lines.header_row, 0)))
     us = _us_units(lines)
     return Inputs(lines, conditions, materials, dict(library.finishes()), settings, notes, columns, us,
-                  fluids, unusable, bad_conditions, codes, bad_codes)
+                  fluids, unusable, bad_conditions, codes, bad_codes, fittings)
 
 
 def _us_units(t: Table | None) -> bool:

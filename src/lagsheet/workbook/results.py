@@ -72,6 +72,9 @@ RESULTS: tuple[Result, ...] = (
     R("time_to_cool", "Time to cool", "h", "h", "time_to_cool_s", optional=True),
     # the 'Code' column's minimum corrected to the line's material, before rounding up to a sold size
     R("code_thickness", "Code thickness", "mm", "in", "code_thickness_m", optional=True),
+    R("tracing_duty", "Tracing duty", "W/m", "Btu/(h·ft)", "tracing_duty_W_m", optional=True),
+    R("fittings_heat_loss", "Fittings heat loss", "W", "Btu/h", "fittings_heat_loss_W", "#,##0", optional=True,
+      total=True),
 )
 del R
 

@@ -574,6 +574,9 @@ def _column_unit(t: Table, c: Column, here: str) -> bool:
     """Settle the column's unit; False (with the column marked error) when unusable."""
     f = c.field
     here = c.unit_cell or here
+    if (c.unit_text is None or c.unit_text == "") and f.count:  # a number of items: nothing to write
+        c.unit, c.si_unit = parse_unit("1"), f.si
+        return True
     if c.unit_text is None or c.unit_text == "":
         c.unit = parse_unit(f.unit)
         c.si_unit = f.si

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 from ...physics.balance import System
-from .. import economics, process
+from .. import economics, process, tracing
 from ..build import installed_cost
 from .base import Context
 
@@ -44,6 +44,7 @@ class Economic:
         whole = economics.whole_heat_flow(base.geometry, ctx.c.heat_rate[ctx.starts],
                                           np.array([L.length for L in lines]), np.array([L.area for L in lines]))
         whole = process.flowing_candidates(ctx, self.given(ctx), whole)
+        whole = whole * tracing.loss_factor(lines)[:, None]  # fittings and thermal bridges, as reported
         hours = np.array([L.conditions[0].hours if ctx.ok[i] else 0.0 for i, L in enumerate(lines)])
         energy_cost = economics.energy_cost(whole, hours[:, None], st)
         crf = float(economics.capital_recovery_factor(float(st["discount_rate"]), float(st["service_life"])))
