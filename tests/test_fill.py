@@ -190,7 +190,9 @@ def test_demo_writes_and_fills_the_bundled_schedule(tmp_path, cli):
     r = cli("demo", tmp_path / "d")
     assert r.exit_code == 0, r.output
     rep = json.loads((tmp_path / "d" / "demo-plant-report.json").read_text())
-    assert 30 <= rep["summary"]["lines"] <= 60
+    from lagsheet.commands.demo import LINES
+
+    assert rep["summary"]["lines"] == len(LINES)
     assert rep["summary"]["errors"] == 0 and rep["summary"]["warnings"] >= 3
     ws = openpyxl.load_workbook(tmp_path / "d" / "demo-plant-filled.xlsx")["Lines"]
     assert "Thickness [mm]" in headers(ws, 4)
