@@ -34,12 +34,20 @@ class Context:
     cand: np.ndarray  # lines × candidates × slots [m], NaN past a line's own
     total: np.ndarray  # lines × candidates: total thickness [m]
     table: MaterialTable
-    c: Any  # the engine's results (cases × candidates)
+    c: Any  # the engine's results (cases × candidates), a Grid: NaN where not solved
     dew: np.ndarray  # per case: dew point [K], -inf in dry air
     margin: float  # the 'Condensation margin' setting [K]
-    valid: np.ndarray | None = None  # lines × candidates: converged, conductivity in range, every case
+    valid: np.ndarray | None = None  # lines × candidates: solved, converged, conductivity in range, every case
     picked: np.ndarray | None = None  # lines × slots: the chosen systems, for late targets
     parts: dict[int, list[int]] = field(default_factory=dict)  # vessel -> its linked lines
+    memo: dict = field(default_factory=dict)  # per-line columns a target reads often, computed once
+    more: list = field(default_factory=list)  # further grids (cases × candidates) solved with ``c``
+
+    def ensure(self, cols: np.ndarray) -> int:
+        """Solve the candidates ``cols`` (lines × candidates) at every case of their lines, in
+        every grid (``c`` and :attr:`more`); returns the pairs solved."""
+        want = cols[self.case_line]
+        return sum(g.ensure(want) for g in (self.c, *self.more))
 
     @property
     def n(self) -> int:
@@ -102,6 +110,28 @@ class Target:
     def meets(self, ctx: Context, given: np.ndarray, measure) -> np.ndarray:
         """Per line and candidate: is the target met (at every named condition)?"""
         raise NotImplementedError
+
+    def case_meets(self, ctx: Context, measure: np.ndarray) -> np.ndarray:
+        """Per case and candidate: is the target met at that case? (:meth:`meets` at every case.)"""
+        raise NotImplementedError
+
+    def monotone_lines(self, ctx: Context, ends: np.ndarray) -> np.ndarray:
+        """Per line: may a search bisect this target over the line's sorted candidates? ``ends``
+        (lines × 2) are the thinnest and thickest candidates' columns, solved at every case.
+
+        A ``monotone`` target's measure moves one way with thickness at each case (the surface
+        temperature heads from the operating temperature towards the air's and the
+        surroundings' at every thickness); where it gets worse from the thinnest to the thickest
+        (a line colder than the air against a surface limit, warmer than the air against
+        condensation) the case must be met at the thickest, and so at every candidate."""
+        if not self.monotone:
+            return np.zeros(ctx.n, dtype=bool)
+        measure = self.measure(ctx, self.given(ctx))
+        if measure is None:  # judged on the thickness alone
+            return np.ones(ctx.n, dtype=bool)
+        at, lo, hi = np.arange(len(ctx.case_line)), ends[ctx.case_line, 0], ends[ctx.case_line, 1]
+        better = measure[at, hi] <= measure[at, lo]
+        return ctx.all_cases(better | self.case_meets(ctx, measure)[at, hi])
 
     def value(self, ctx: Context, given: np.ndarray, measure) -> np.ndarray | None:
         """Per line and candidate: the number the requirement is held against (process targets)."""
