@@ -255,8 +255,8 @@ def _select(ctx: Context, judged: dict[str, Judgement], econ, annualised, res: R
     active = np.zeros(n, dtype=bool)
     for j in judged.values():
         active |= j.given
-    last = np.array([int(np.flatnonzero(np.isfinite(total[i]))[-1]) if np.isfinite(total[i]).any() else -1
-                     for i in range(n)])
+    finite = np.isfinite(total)
+    last = np.where(finite.any(axis=1), total.shape[1] - 1 - np.argmax(finite[:, ::-1], axis=1), -1)
     ch = Choice(chosen=np.full(n, -1), first_feasible=np.full(n, -1), unmet=np.zeros(n, bool), last=last,
                 fixed=fixed, econ=econ, active=active, none_given=ok & ~fixed & ~active & ~econ)
     _choose(ctx, judged, ch, annualised)
