@@ -26,7 +26,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from .targets import BY_NAME, ECONOMIC, TARGETS, Context
+from . import targets
+from .targets import ECONOMIC, Context
 
 FULL_SCAN = False  # True: solve every candidate of every line (the reference the search is checked against)
 
@@ -49,14 +50,14 @@ def solve_needed(ctx: Context, full_scan: bool | None = None) -> None:
     ctx.ensure(both)
     valid = _valid(ctx)
     searched &= valid[rows, 0] & valid[rows, last]
-    given = {}
-    for target in TARGETS:
+    given = []
+    for target in targets.TARGETS:  # read at the call: the registry may grow
         g = target.given(ctx)
         if g is not None and (g & searched).any():
-            given[target.name] = g & searched
+            given.append((target, g & searched))
             searched &= ~g | target.monotone_lines(ctx, ends)
     ctx.ensure(exists & (_searchable(ctx) & ~searched)[:, None])
-    _bisect(ctx, {name: g & searched for name, g in given.items()}, ends)
+    _bisect(ctx, [(target, g & searched) for target, g in given], ends)
     # a solved candidate of a searched line that is not valid: not as assumed, scan it whole
     valid = _valid(ctx)
     odd = searched & (ctx.c.solved[ctx.starts] & ~valid).any(axis=1)
@@ -80,34 +81,33 @@ def _searchable(ctx: Context) -> np.ndarray:
     return ctx.ok & one & rising & np.isfinite(total[:, 0]) & ~ECONOMIC.given(ctx)
 
 
-def _meets(ctx: Context, name: str, given: np.ndarray) -> np.ndarray:
-    target = BY_NAME[name]
+def _meets(ctx: Context, target, given: np.ndarray) -> np.ndarray:
     return target.meets(ctx, given, target.measure(ctx, given))
 
 
-def _bisect(ctx: Context, given: dict[str, np.ndarray], ends: np.ndarray) -> None:
+def _bisect(ctx: Context, given: list[tuple], ends: np.ndarray) -> None:
     """Per target and line: solve the candidates that bracket its first met one, halving the
     bracket (thinnest not met, thickest met) until the two are neighbours."""
     rows = np.arange(ctx.n)
     state = {}
-    for name, g in given.items():
+    for k, (target, g) in enumerate(given):
         if not g.any():
             continue
-        meets = _meets(ctx, name, g)
+        meets = _meets(ctx, target, g)
         lo, hi = ends[:, 0].copy(), ends[:, 1].copy()
-        state[name] = (g & ~meets[rows, lo] & meets[rows, hi], lo, hi)
+        state[k] = (g & ~meets[rows, lo] & meets[rows, hi], lo, hi)
     while True:
         want = np.zeros(ctx.total.shape, dtype=bool)
         mids = {}
-        for name, (active, lo, hi) in state.items():
+        for k, (active, lo, hi) in state.items():
             act = active & (hi - lo > 1)
-            mids[name] = (act, (lo + hi) // 2)
-            want[rows[act], mids[name][1][act]] = True
+            mids[k] = (act, (lo + hi) // 2)
+            want[rows[act], mids[k][1][act]] = True
         if not want.any():
             return
         ctx.ensure(want)
-        for name, (act, mid) in mids.items():
-            _, lo, hi = state[name]
-            met = _meets(ctx, name, given[name])[rows, mid]
+        for k, (act, mid) in mids.items():
+            _, lo, hi = state[k]
+            met = _meets(ctx, *given[k])[rows, mid]
             hi[act & met] = mid[act & met]
             lo[act & ~met] = mid[act & ~met]
