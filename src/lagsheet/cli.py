@@ -322,16 +322,20 @@ def explain(
     with_: Path = typer.Option(None, "--with", exists=True, dir_okay=False, help=_WITH_HELP),
 ):
     from .commands.explain import explain as words
-    from .commands.explain import find_line
+    from .commands.explain import one_line
+    from .commands.fill import load
+    from .design.select import specify
 
     _refuse_unsafe(file, (plot, "plot"))
     if with_ is not None:  # the companion workbook is an input too
         _refuse_unsafe(with_, (plot, "plot"))
-    book, inputs, res = _guarded(lambda: _open_and_specify(file, sheet, with_))
-    i = find_line(res, tag)
-    if i is None:
+    book, inputs = _guarded(lambda: load(file, sheet, companion=with_))
+    found = one_line(inputs, tag)  # only the line asked for (and those linked to it) is sized
+    if found is None:
         typer.echo(f"lagsheet: no line with Tag {tag!r} in {inputs.lines.sheet}", err=True)
         raise typer.Exit(2)
+    inputs, i = found
+    res = _guarded(lambda: specify(inputs))
     typer.echo("\n".join(words(inputs, book.sheet(inputs.lines.sheet), res, i)))
     if plot is not None:
         if not (res.lines[i].ok and res.lines[i].materials):

@@ -8,6 +8,8 @@ thinnest thickness and the governing one; the line's notes.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 
 from ..design.select import Results
@@ -27,6 +29,32 @@ def find_line(res: Results, tag: str) -> int | None:
         if fold(t) == fold(tag):
             return i
     return None
+
+
+def one_line(inputs: Inputs, tag: str) -> tuple[Inputs, int] | None:
+    """``inputs`` cut to the line ``tag`` (the first of that tag, as :func:`find_line`) and the
+    lines its results depend on: those whose 'Part of' names it (a vessel's time to cool counts
+    them) and the one its own 'Part of' names (its notes name it), in sheet order. Returns the
+    cut inputs and the line's position in them, or None when no line has that tag. Sizing the
+    cut gives the line what sizing the whole sheet gives it (tests/test_explain_one.py)."""
+    t = inputs.lines
+    tags = t.get("tag") if t is not None else None
+    if tags is None:
+        return None
+    folded = [fold(x) if x else "" for x in tags]
+    want = fold(tag)
+    if not want or want not in folded:
+        return None
+    i = folded.index(want)
+    by_tag = {f: k for k, f in enumerate(folded) if f}  # the last line of a tag, as 'Part of' reads it
+    keep = {i}
+    part_of = t.get("part_of")
+    if part_of is not None:
+        keep |= {k for k, p in enumerate(part_of) if p not in (None, "") and by_tag.get(fold(p)) == i}
+        if part_of[i] not in (None, "") and fold(part_of[i]) in by_tag:
+            keep.add(by_tag[fold(part_of[i])])
+    idx = sorted(keep)
+    return replace(inputs, lines=t.take(idx)), idx.index(i)
 
 
 def explain(inputs: Inputs, raw: RawSheet, res: Results, i: int) -> list[str]:

@@ -1,8 +1,8 @@
 """Targets -> the chosen insulation system of every line.
 
 Each line is resolved (:mod:`lagsheet.design.lines`), then expanded into one *case* per
-design condition it names. The engine solves every candidate system of every case in
-one call. Each target (:mod:`lagsheet.design.targets`, one class each) is judged at the
+design condition it names. The engine solves the candidate systems the selection reads
+(:mod:`lagsheet.design.search`: a few per line, or every one). Each target (:mod:`lagsheet.design.targets`, one class each) is judged at the
 case that is worst for it; the chosen system
 is the thinnest that meets every target (or, for ``Economic`` lines, the one with the
 lowest annualised cost among those). Results are reported at the first named
@@ -17,14 +17,14 @@ import numpy as np
 
 from ..errors import Note
 from ..physics.balance import System, solve
-from ..physics.candidates import evaluate, heat_rate, per_line
+from ..physics.candidates import Grid, heat_rate, per_line
 from ..physics.layers import CYLINDER, SPHERE, MaterialTable
 from ..physics.properties import dew_point
 from ..physics.surface import linearised_h
 from ..workbook import library
 from ..workbook.inputs import Condition, Inputs
 from ..workbook.results import NUMBERS, WORDS
-from . import economics, notes, sun, targets, tracing
+from . import economics, notes, search, sun, targets, tracing
 from . import process as limits
 from .build import Quantities, quantities
 from .lines import Line, resolve_lines
@@ -171,8 +171,8 @@ def _candidates(lines: list[Line], ok: np.ndarray, slots: int) -> np.ndarray:
 
 
 def _context(inputs: Inputs, lines: list[Line], table: MaterialTable) -> tuple[Context, System]:
-    """The cases (one per line and named condition, contiguous per line) and every candidate
-    of every case solved by the engine in one call."""
+    """The cases (one per line and named condition, contiguous per line) and the candidates
+    of every case the selection reads, solved by the engine (:func:`search.solve_needed`)."""
     slots = max([len(L.materials) for L in lines] + [1])
     ok = np.array([L.ok and bool(L.candidates) for L in lines])
     indoor = inputs.conditions["indoor"]
@@ -193,13 +193,14 @@ def _context(inputs: Inputs, lines: list[Line], table: MaterialTable) -> tuple[C
                      wind=np.array([c.wind for c in case_cond]), absorbed=gain if gain.any() else None)
     cand = _candidates(lines, ok, slots)
     total = cand.sum(axis=2)
-    c = evaluate(cases, cand[case_line], base.material[case_line], table)
+    c = Grid(cases, cand[case_line], base.material[case_line], table)
     ctx = Context(lines=lines, ok=ok, t=inputs.lines, settings=inputs.settings, us=inputs.us_units,
                   cases=cases, case_line=case_line, case_cond=case_cond, starts=starts, cand=cand,
                   total=total, table=table, c=c, dew=np.array([_dew(cc) for cc in case_cond]),
                   margin=float(inputs.settings["condensation_margin"]))
-    ctx.valid = np.isfinite(total) & ctx.all_cases(c.converged & c.in_range)
     ctx.surface = sun.grids(ctx, words, alpha, bool(inputs.settings["touch_still_air"]))
+    ctx.more.extend(ctx.surface.values())
+    search.solve_needed(ctx)
     return ctx, base
 
 
@@ -262,8 +263,8 @@ def _select(ctx: Context, judged: dict[str, Judgement], econ, annualised, res: R
     active = np.zeros(n, dtype=bool)
     for j in judged.values():
         active |= j.given
-    last = np.array([int(np.flatnonzero(np.isfinite(total[i]))[-1]) if np.isfinite(total[i]).any() else -1
-                     for i in range(n)])
+    finite = np.isfinite(total)
+    last = np.where(finite.any(axis=1), total.shape[1] - 1 - np.argmax(finite[:, ::-1], axis=1), -1)
     ch = Choice(chosen=np.full(n, -1), first_feasible=np.full(n, -1), unmet=np.zeros(n, bool), last=last,
                 fixed=fixed, econ=econ, active=active, none_given=ok & ~fixed & ~active & ~econ)
     _choose(ctx, judged, ch, annualised)

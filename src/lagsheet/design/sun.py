@@ -25,7 +25,7 @@ import numpy as np
 
 from ..errors import Note
 from ..physics.balance import System, solve
-from ..physics.candidates import evaluate, per_line
+from ..physics.candidates import Grid, per_line
 from ..workbook import library
 from ..workbook.display import show
 
@@ -60,49 +60,58 @@ def design(words, alpha, solar, t_operating, t_air) -> np.ndarray:
     return np.where(cold, absorbed(words, alpha, solar, average=True), 0.0)
 
 
-def grids(ctx, words: np.ndarray, alpha: np.ndarray, touch_still: bool) -> dict[str, np.ndarray]:
-    """The surface temperature of every case and candidate in the roles other than design,
-    each solved only for the cases where it differs from the design cases (elsewhere it is the
-    same array): 'shade' (no sun: condensation), 'sun' (full sun on the sun-facing side at the
-    named wind) and 'still' (full sun, no wind) for the lines that give a 'Max surface
-    temperature', and 'touch', the worst of design, sun and still."""
+def grids(ctx, words: np.ndarray, alpha: np.ndarray, touch_still: bool) -> dict[str, RoleGrid]:
+    """The surface of every case and candidate in the roles other than design, each solved
+    (with the design grid, on demand) only for the cases where it differs from the design
+    cases: 'shade' (no sun: condensation), 'sun' (full sun on the sun-facing side at the named
+    wind) and 'still' (full sun, no wind) for the lines that give a 'Max surface temperature';
+    :meth:`~lagsheet.design.targets.Context.ts` gives 'touch', the worst of design, sun and still."""
     cases, at = ctx.cases, ctx.case_line
     solar = np.array([c.solar for c in ctx.case_cond], dtype=float)
     design_abs = np.zeros(len(at)) if cases.absorbed is None else cases.absorbed
     full = absorbed(words[at], alpha[at], solar, average=False)
     limit = ctx.t.get("max_surface_temperature")
     touched = np.isfinite(limit)[at] & ctx.ok[at] if limit is not None else np.zeros(len(at), bool)
-    # more sun and less wind only warm a surface: a candidate over the limit at the design case is
-    # over it in these too, and is not solved again (Nu of free and forced combined >= Nu free alone)
-    open_ = ctx.c.t_surface <= np.where(np.isfinite(limit), limit, np.inf)[at][:, None] if limit is not None else None
-    out = {"shade": _regrid(ctx, design_abs > 0, absorbed=np.zeros(len(at))),
-           "sun": _regrid(ctx, touched & (full != design_abs), open_, absorbed=full)}
-    touch = np.fmax(ctx.c.t_surface, out["sun"])
+    below = np.where(np.isfinite(limit), limit, np.inf)[at] if limit is not None else None
+    out = {"shade": RoleGrid(ctx, design_abs > 0, None, absorbed=np.zeros(len(at))),
+           "sun": RoleGrid(ctx, touched & (full != design_abs), below, absorbed=full)}
     if touch_still:
-        out["still"] = _regrid(ctx, touched & ((cases.wind > 0) | (full != design_abs)), open_, absorbed=full,
-                               wind=np.zeros(len(at)))
-        touch = np.fmax(touch, out["still"])
-    out["touch"] = touch
+        out["still"] = RoleGrid(ctx, touched & ((cases.wind > 0) | (full != design_abs)), below, absorbed=full,
+                                wind=np.zeros(len(at)))
     return out
 
 
-def _regrid(ctx, rows: np.ndarray, only: np.ndarray | None = None, **replace) -> np.ndarray:
-    """The design cases' surface temperatures with the cases ``rows`` solved again with the case
-    fields ``replace`` (per case) in place of theirs; ``only`` (cases × candidates) the candidates
-    worth solving (the others keep the design value)."""
-    if only is not None:
-        rows = rows & only.any(axis=1)
-    rows = np.flatnonzero(rows)
-    if rows.size == 0:
-        return ctx.c.t_surface
-    sub = per_line(ctx.cases, rows, **{k: np.asarray(v)[rows] for k, v in replace.items()})
-    cand = ctx.cand[ctx.case_line[rows]]
-    if only is not None:
-        cand = np.where(only[rows][:, :, None], cand, np.nan)
-    r = evaluate(sub, cand, ctx.cases.material[rows], ctx.table)
-    out = ctx.c.t_surface.copy()
-    out[rows] = np.where(np.isfinite(cand).all(axis=2), np.where(r.converged, r.t_surface, np.nan), out[rows])
-    return out
+class RoleGrid:
+    """The design grid's surface temperatures with the cases ``rows`` solved again with the case
+    fields ``replace`` (per case) in place of theirs, on demand: :meth:`ensure` solves a pair
+    once the design grid has it. With ``below`` (per case, a surface limit) a candidate already
+    over it at the design case is not solved again: more sun and less wind only warm a surface
+    (Nu of free and forced combined >= Nu free alone), so it is over it here too, and keeps
+    the design value."""
+
+    def __init__(self, ctx, rows: np.ndarray, below: np.ndarray | None, **replace):
+        self.design, self.below = ctx.c, below
+        self.rows = np.flatnonzero(rows)
+        self.grid = None
+        if self.rows.size:
+            base = per_line(ctx.cases, self.rows, **{k: np.asarray(v)[self.rows] for k, v in replace.items()})
+            self.grid = Grid(base, ctx.cand[ctx.case_line[self.rows]], ctx.cases.material[self.rows], ctx.table)
+
+    def ensure(self, want: np.ndarray) -> int:
+        if self.grid is None:
+            return 0
+        w = want[self.rows] & self.design.solved[self.rows]
+        if self.below is not None:
+            w &= self.design.t_surface[self.rows] <= self.below[self.rows][:, None]
+        return self.grid.ensure(w)
+
+    @property
+    def t_surface(self) -> np.ndarray:
+        out = self.design.t_surface.copy()
+        if self.grid is not None:
+            g = self.grid
+            out[self.rows] = np.where(g.solved, np.where(g.converged, g.t_surface, np.nan), out[self.rows])
+        return out
 
 
 def reported(first: System, t_surface: np.ndarray, words, alpha, solar, table) -> np.ndarray:

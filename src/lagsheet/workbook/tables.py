@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import datetime as dt
 import re
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from operator import itemgetter
 from typing import Any
 
@@ -93,6 +93,18 @@ class Table:
     def cell(self, i: int, key: str) -> str:
         c = self.columns.get(key)
         return address(self.rows[i], c.col) if c else address(self.rows[i], 0)
+
+    def take(self, idx: list[int]) -> Table:
+        """The lines ``idx`` (positions in :attr:`rows`) alone, in that order: their rows,
+        values, cell notes and errors; the sheet's own notes as they are."""
+        pos = {i: k for k, i in enumerate(idx)}
+        at = np.asarray(idx, dtype=np.intp)
+        cols = {key: replace(c, values=None if c.values is None else c.values[at],
+                             alternate={pos[i]: u for i, u in c.alternate.items() if i in pos})
+                for key, c in self.columns.items()}
+        return replace(self, rows=[self.rows[i] for i in idx], columns=cols,
+                       cell_notes={pos[i]: ns for i, ns in self.cell_notes.items() if i in pos},
+                       bad=None if self.bad is None else self.bad[at])
 
 
 def _known(fields, row: list) -> int:

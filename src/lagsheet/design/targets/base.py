@@ -34,15 +34,26 @@ class Context:
     cand: np.ndarray  # lines × candidates × slots [m], NaN past a line's own
     total: np.ndarray  # lines × candidates: total thickness [m]
     table: MaterialTable
-    c: Any  # the engine's results (cases × candidates)
+    c: Any  # the engine's results (cases × candidates), a Grid: NaN where not solved
     dew: np.ndarray  # per case: dew point [K], -inf in dry air
     margin: float  # the 'Condensation margin' setting [K]
-    valid: np.ndarray | None = None  # lines × candidates: converged, conductivity in range, every case
+    valid: np.ndarray | None = None  # lines × candidates: solved, converged, conductivity in range, every case
     picked: np.ndarray | None = None  # lines × slots: the chosen systems, for late targets
     parts: dict[int, list[int]] = field(default_factory=dict)  # vessel -> its linked lines
-    # surface temperature per role, cases × candidates (:func:`lagsheet.design.sun.grids`): 'shade'
-    # (no sun), 'sun' (full sun at the named wind), 'still' (full sun, no wind), 'touch' (the worst)
-    surface: dict[str, np.ndarray] = field(default_factory=dict)
+    # the surface in other roles, solved with ``c`` (:func:`lagsheet.design.sun.grids`): 'shade'
+    # (no sun), 'sun' (full sun at the named wind), 'still' (full sun, no wind); 'touch' the worst
+    surface: dict[str, Any] = field(default_factory=dict)
+    memo: dict = field(default_factory=dict)  # per-line columns a target reads often, computed once
+    more: list = field(default_factory=list)  # further grids (cases × candidates) solved with ``c``
+
+    def ensure(self, cols: np.ndarray) -> int:
+        """Solve the candidates ``cols`` (lines × candidates) at every case of their lines, in
+        every grid (``c`` and :attr:`more`); returns the pairs solved."""
+        want = cols[self.case_line]
+        solved = sum(g.ensure(want) for g in (self.c, *self.more))
+        if solved:
+            self.memo.pop("ts", None)
+        return solved
 
     @property
     def n(self) -> int:
@@ -54,8 +65,21 @@ class Context:
 
     def ts(self, role: str) -> np.ndarray:
         """The surface temperature of every case and candidate in ``role`` (the design cases' when
-        that role was not solved: it would be the same)."""
-        return self.surface.get(role, self.c.t_surface)
+        that role was not solved: it would be the same); 'touch' the hottest of design, sun and still.
+        Kept until the grids solve more (notes read it once per line)."""
+        kept = self.memo.setdefault("ts", {})
+        if role not in kept:
+            kept[role] = self._ts(role)
+        return kept[role]
+
+    def _ts(self, role: str) -> np.ndarray:
+        if role == "touch":
+            out = self.c.t_surface
+            for r in ("sun", "still"):
+                if r in self.surface:
+                    out = np.fmax(out, self.surface[r].t_surface)
+            return out
+        return self.surface[role].t_surface if role in self.surface else self.c.t_surface
 
     def all_cases(self, m: np.ndarray) -> np.ndarray:
         """Per line and candidate: ``m`` holds at every one of the line's cases."""
@@ -110,6 +134,28 @@ class Target:
     def meets(self, ctx: Context, given: np.ndarray, measure) -> np.ndarray:
         """Per line and candidate: is the target met (at every named condition)?"""
         raise NotImplementedError
+
+    def case_meets(self, ctx: Context, measure: np.ndarray) -> np.ndarray:
+        """Per case and candidate: is the target met at that case? (:meth:`meets` at every case.)"""
+        raise NotImplementedError
+
+    def monotone_lines(self, ctx: Context, ends: np.ndarray) -> np.ndarray:
+        """Per line: may a search bisect this target over the line's sorted candidates? ``ends``
+        (lines × 2) are the thinnest and thickest candidates' columns, solved at every case.
+
+        A ``monotone`` target's measure moves one way with thickness at each case (the surface
+        temperature heads from the operating temperature towards the air's and the
+        surroundings' at every thickness); where it gets worse from the thinnest to the thickest
+        (a line colder than the air against a surface limit, warmer than the air against
+        condensation) the case must be met at the thickest, and so at every candidate."""
+        if not self.monotone:
+            return np.zeros(ctx.n, dtype=bool)
+        measure = self.measure(ctx, self.given(ctx))
+        if measure is None:  # judged on the thickness alone
+            return np.ones(ctx.n, dtype=bool)
+        at, lo, hi = np.arange(len(ctx.case_line)), ends[ctx.case_line, 0], ends[ctx.case_line, 1]
+        better = measure[at, hi] <= measure[at, lo]
+        return ctx.all_cases(better | self.case_meets(ctx, measure)[at, hi])
 
     def value(self, ctx: Context, given: np.ndarray, measure) -> np.ndarray | None:
         """Per line and candidate: the number the requirement is held against (process targets)."""

@@ -21,8 +21,11 @@ class Condensation(Target):
     def measure(self, ctx, given):
         return -(ctx.ts("shade") - (ctx.dew + ctx.margin)[:, None])  # how far below; larger is worse
 
+    def case_meets(self, ctx, measure):
+        return -measure >= -1e-9
+
     def meets(self, ctx, given, measure):
-        return ctx.all_cases(-measure >= -1e-9)
+        return ctx.all_cases(self.case_meets(ctx, measure))
 
     def margin(self, ctx, j, pick, case_pick):
         return finite(j.given, -worst_at(ctx, j.worst, case_pick), "difference")

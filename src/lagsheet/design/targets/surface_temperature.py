@@ -21,8 +21,11 @@ class SurfaceTemperature(Target):
     def measure(self, ctx, given):
         return ctx.ts("touch")
 
+    def case_meets(self, ctx, measure):
+        return measure <= ctx.per_case(ctx.t.get("max_surface_temperature")) + 1e-9
+
     def meets(self, ctx, given, measure):
-        return ctx.all_cases(measure <= ctx.per_case(ctx.t.get("max_surface_temperature")) + 1e-9)
+        return ctx.all_cases(self.case_meets(ctx, measure))
 
     def margin(self, ctx, j, pick, case_pick):
         return finite(j.given, ctx.t.get("max_surface_temperature") - worst_at(ctx, j.worst, case_pick),
