@@ -155,4 +155,7 @@ def test_the_search_gives_every_value_of_the_full_scan(both):
 
 def test_the_search_solves_far_fewer_candidates(both):
     _, _, few, every = both
-    assert few < 0.75 * every, (few, every)  # two-material lines (scanned whole) hold most pairs here
+    # two-material lines (scanned whole) hold most pairs here, and a line with a surface limit in
+    # wind or sun solves its still-air and sunny surfaces at the pairs it solves: measured 93,937
+    # of 121,329 pairs (0.77; 0.70 before those surfaces)
+    assert few < 0.8 * every, (few, every)

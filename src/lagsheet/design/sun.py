@@ -144,8 +144,13 @@ def notes(ctx, ch, res) -> None:
     governs, how hot the surface gets in still air and how much the sun raises it (and what
     would have done without them); on a cold line in the sun, the gain it adds."""
     limit = ctx.t.get("max_surface_temperature")
-    for i in np.flatnonzero(ctx.ok & (ch.chosen >= 0)):
-        if limit is not None and np.isfinite(limit[i]) and ch.governing[i] == "surface temperature":
+    lines = np.flatnonzero(ctx.ok & (ch.chosen >= 0))
+    touch = np.zeros(ctx.n, dtype=bool)
+    if limit is not None:
+        touch[lines] = np.isfinite(limit[lines]) & (ch.governing[lines] == "surface temperature")
+        ctx.ensure(np.isfinite(ctx.total) & touch[:, None])  # a search left some unsolved: 'would do' reads all
+    for i in lines:
+        if touch[i]:
             _touch_note(ctx, ch, res, int(i), float(limit[i]))
         k = ctx.starts[i]
         if ctx.cases.absorbed is not None and ctx.cases.absorbed[k] > 0:
@@ -160,7 +165,9 @@ def _touch_note(ctx, ch, res, i: int, limit: float) -> None:
     k = max(cases, key=lambda k: touch[k, p])
     design, sunny = ctx.c.t_surface[k, p], ctx.ts("sun")[k, p]
     still = ctx.ts("still")[k, p] if "still" in ctx.surface else -np.inf
-    plain = (ctx.c.t_surface[cases] <= limit + 1e-9).all(axis=0) & ctx.valid[i]  # at the named wind, in the shade
+    c = ctx.c
+    valid = np.isfinite(ctx.total[i]) & (c.converged[cases] & c.in_range[cases]).all(axis=0)
+    plain = (c.t_surface[cases] <= limit + 1e-9).all(axis=0) & valid  # at the named wind, in the shade
     first = int(np.argmax(plain)) if plain.any() else -1
     if first == p or not (sunny > design + 1e-6 or still > design + 1e-6):
         return  # neither the sun nor still air changed the choice
