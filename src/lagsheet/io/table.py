@@ -8,7 +8,7 @@ cell A1, and the addresses of formula cells that carry no cached value. Writing 
 from __future__ import annotations
 
 import re
-from collections.abc import Container, Iterable
+from collections.abc import Container, Iterable, Iterator, Mapping, MutableMapping
 from dataclasses import dataclass, field
 from functools import lru_cache
 from pathlib import Path
@@ -82,17 +82,200 @@ class RawSheet:
         return [i for i, row in enumerate(self.grid) if any(type(v) is str and fold(v) in want for v in row)]
 
 
+class _Block:
+    """Cells of one column: ``values[i]`` goes to row ``rows[i]``; ``fmt`` is the number format of
+    those of them that are numbers. ``index`` (row -> i) may be shared by blocks of the same rows."""
+
+    __slots__ = ("col", "rows", "values", "fmt", "index")
+
+    def __init__(self, col: int, rows, values: list, fmt: str | None, index: dict[int, int]):
+        self.col, self.rows, self.values, self.fmt, self.index = col, rows, values, fmt, index
+
+
+class Cells(MutableMapping):
+    """(row, column) -> value, held as columns: a mapping that reads like a dict of cells, in the
+    order the cells were set, but stores a column of N results as two lists (its rows, shared by
+    the columns of the same rows, and its values) instead of N dict entries with a tuple key each.
+
+    :meth:`column` adds a column of cells; ``cells[(r, c)] = v`` one cell (a cell set again keeps
+    its place, as in a dict). :attr:`formats` is the matching number formats, read-only but for
+    the single cells set in it.
+    """
+
+    def __init__(self, items: Mapping | None = None):
+        self._blocks: list[_Block] = []
+        self._by_col: dict[int, list[_Block]] = {}
+        self._indexes: dict[int, dict[int, int]] = {}  # id(rows) -> its index, while rows live
+        self._keep: list = []  # the rows objects indexed (so their ids stay theirs)
+        self._len = 0
+        self.formats = _Formats(self)
+        for k, v in (items or {}).items():
+            self[k] = v
+
+    def column(self, col: int, rows, values: list, fmt: str | None = None) -> None:
+        """Set the cells (rows[i], col) to values[i]; ``fmt`` the number format of those that are
+        numbers (not None, not text). The rows must be new to this column and distinct."""
+        index = self._indexes.get(id(rows))
+        if index is None:
+            index = self._indexes[id(rows)] = {r: i for i, r in enumerate(rows)}
+            self._keep.append(rows)
+        b = _Block(col, rows, values, fmt, index)
+        self._blocks.append(b)
+        self._by_col.setdefault(col, []).append(b)
+        self._len += len(rows)
+
+    def _find(self, key) -> tuple[_Block, int] | None:
+        r, c = key
+        for b in self._by_col.get(c, ()):
+            i = b.index.get(r)
+            if i is not None:
+                return b, i
+        return None
+
+    def __getitem__(self, key):
+        hit = self._find(key)
+        if hit is None:
+            raise KeyError(key)
+        return hit[0].values[hit[1]]
+
+    def __setitem__(self, key, value) -> None:
+        hit = self._find(key)
+        if hit is not None:
+            hit[0].values[hit[1]] = value
+            return
+        r, c = key
+        self.column(c, (r,), [value])
+
+    def __delitem__(self, key) -> None:
+        raise TypeError("cells written cannot be taken back")
+
+    def __contains__(self, key) -> bool:
+        try:
+            return self._find(key) is not None
+        except (TypeError, ValueError):
+            return False
+
+    def __iter__(self) -> Iterator[tuple[int, int]]:
+        for b in self._blocks:
+            c = b.col
+            for r in b.rows:
+                yield r, c
+
+    def __len__(self) -> int:
+        return self._len
+
+    def items(self):
+        return _CellItems(self)
+
+    def blocks(self) -> list[_Block]:
+        """The columns of cells, in the order set (a writer may walk them instead of the cells)."""
+        return self._blocks
+
+
+class _CellItems:
+    def __init__(self, cells: Cells):
+        self._cells = cells
+
+    def __len__(self) -> int:
+        return len(self._cells)
+
+    def __iter__(self):
+        for b in self._cells._blocks:
+            c = b.col
+            for r, v in zip(b.rows, b.values, strict=True):
+                yield (r, c), v
+
+
+class _Formats(Mapping):
+    """The number formats of a :class:`Cells`: a column's ``fmt`` for its cells that are numbers,
+    and any single cell's format set here."""
+
+    def __init__(self, cells: Cells):
+        self._cells = cells
+        self._own: dict[tuple[int, int], str] = {}
+
+    def __setitem__(self, key, fmt: str) -> None:
+        self._own[key] = fmt
+
+    def __getitem__(self, key) -> str:
+        if key in self._own:
+            return self._own[key]
+        hit = self._cells._find(key)
+        if hit is not None:
+            b, i = hit
+            v = b.values[i]
+            if b.fmt and v is not None and not isinstance(v, str):
+                return b.fmt
+        raise KeyError(key)
+
+    def get(self, key, default=None):
+        own = self._own.get(key)
+        if own is not None:
+            return own
+        hit = self._cells._find(key)
+        if hit is not None:
+            b, i = hit
+            v = b.values[i]
+            if b.fmt and v is not None and not isinstance(v, str):
+                return b.fmt
+        return default
+
+    def __iter__(self):
+        seen = set(self._own)
+        yield from self._own
+        for b in self._cells._blocks:
+            if b.fmt:
+                c = b.col
+                for r, v in zip(b.rows, b.values, strict=True):
+                    if v is not None and not isinstance(v, str) and (r, c) not in seen:
+                        yield r, c
+
+    def __len__(self) -> int:
+        return sum(1 for _ in self)
+
+
+def cells_with_formats(values: Mapping, formats: Mapping) -> Iterator[tuple[tuple[int, int], Any, str | None]]:
+    """((row, col), value, number format or None) of every cell of ``values``, in order; column by
+    column without a lookup per cell when ``values`` is a :class:`Cells` and ``formats`` its own."""
+    if isinstance(values, Cells) and formats is values.formats:
+        own = formats._own
+        for b in values.blocks():
+            c, fmt = b.col, b.fmt
+            for r, v in zip(b.rows, b.values, strict=True):
+                pos = (r, c)
+                f = own.get(pos) if own else None
+                if f is None and fmt and v is not None and not isinstance(v, str):
+                    f = fmt
+                yield pos, v, f
+        return
+    get = formats.get
+    for pos, v in values.items():
+        yield pos, v, get(pos)
+
+
+def _cells_formats(e: SheetEdits):
+    return e.values.formats if isinstance(e.values, Cells) else {}
+
+
 @dataclass
 class SheetEdits:
-    """What a writer changes in one sheet: cell values and our comments."""
+    """What a writer changes in one sheet: cell values and our comments.
+
+    ``values`` may be a plain dict or a :class:`Cells` (results held as columns); with a
+    :class:`Cells`, ``number_formats`` is its :attr:`Cells.formats` unless given.
+    """
 
     sheet: str
     header_row: int | None = None  # the row of the headers lagsheet writes (tables follow it)
-    values: dict[tuple[int, int], Any] = field(default_factory=dict)
-    number_formats: dict[tuple[int, int], str] = field(default_factory=dict)
+    values: MutableMapping[tuple[int, int], Any] = field(default_factory=Cells)
+    number_formats: Mapping[tuple[int, int], str] | None = None
     comments: dict[tuple[int, int], str] = field(default_factory=dict)
     headers: dict[tuple[int, int], tuple[int, int]] = field(default_factory=dict)  # new header -> cell to copy style from
     widths: dict[int, float] = field(default_factory=dict)  # column -> width (characters), new columns only
+
+    def __post_init__(self):
+        if self.number_formats is None:
+            self.number_formats = _cells_formats(self)
 
 
 @dataclass

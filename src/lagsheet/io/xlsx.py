@@ -34,6 +34,7 @@ from .table import (
     SheetEdits,
     address,
     calamine_grid,
+    cells_with_formats,
     column_letter,
     post_write_check,
     sheet_name_for,
@@ -723,17 +724,16 @@ class _SheetPatch:
         hrows = {r for r, _ in hstyles}
         p = self.p
         styles = self.styles
-        fget = self.e.number_formats.get
         mids: dict[tuple, str] = {}  # (number format, header style) -> '" s="5"><v>'
         texts: dict[tuple, str] = {}  # (text, header style) -> ' t="inlineStr">...</c>'
         by_row: dict[int, list] = {}
         max_col = -1
-        for pos, v in self.e.values.items():
+        for pos, v, fmt_of in cells_with_formats(self.e.values, self.e.number_formats):
             r, c = pos
             hs = hstyles.get(pos) if r in hrows else None
             t = type(v)
             if t is float:
-                key = (fget(pos), hs)
+                key = (fmt_of, hs)
                 piece = mids.get(key)
                 if piece is None:
                     fmt = key[0]
@@ -749,7 +749,7 @@ class _SheetPatch:
             elif v is None:
                 piece = None
             else:
-                _cell_xml(p, address(r, c), v, hs, fget(pos), styles)  # registers its format now
+                _cell_xml(p, address(r, c), v, hs, fmt_of, styles)  # registers its format now
                 piece = _OTHER
             row = by_row.get(r)
             if row is None:

@@ -77,11 +77,8 @@ def lines_edits(raw: RawSheet, t: Table, res: Results, us: bool, currency: str) 
                                                                  min(longest + 2.0, 40.0))
         if t.units_row is not None:
             e.values[(t.units_row, col)] = unit or None
-        for i, r in enumerate(t.rows):
-            v = values[i]
-            e.values[(r, col)] = v
-            if out.fmt and v is not None and not isinstance(v, str):
-                e.number_formats[(r, col)] = out.fmt
+        # one column of cells (no entry per cell): the number format goes with those that are numbers
+        e.values.column(col, t.rows, values, out.fmt)
     for nt in t.notes:  # column notes (a header without its unit, a unit that does not parse)
         pos = _parse_address(nt.cell) if nt.cell and nt.level in ("error", "warning") else None
         if pos is not None:
