@@ -42,8 +42,12 @@ def test_governing_says_thinnest_sold_when_no_target_binds(tmp_path, row, word):
 
 
 def test_explain_shows_each_targets_own_thickness_and_margin(tmp_path, cli):
-    """explain prints the surface target's own thinnest thickness and its margin, limit minus reported surface."""
-    src, (line,) = run(tmp_path, [pipe(**{"Operating temperature [°C]": 180, "Condition": "outdoor"})])
+    """explain prints the surface target's own thinnest thickness and its margin: the limit minus
+    the reported surface at the named wind with the still-air touch check off, and minus the
+    still-air surface (the same line with its own 'Wind speed' 0) with it on, as by default."""
+    row = pipe(**{"Operating temperature [°C]": 180, "Condition": "outdoor"})
+    off = {"Settings": [["Setting", "Value", "Unit"], ["Touch check in still air", "no", ""]]}
+    src, (line,) = run(tmp_path, [row], sheets=off)
     out = cli("explain", src, "P-1").output
     m = re.search(r"surface temperature: (\d+) mm; margin \+(\d+\.\d) K", out)
     assert m, out
@@ -51,6 +55,12 @@ def test_explain_shows_each_targets_own_thickness_and_margin(tmp_path, cli):
     margin = 55.0 - (line["results"]["surface_temperature_K"] - 273.15)
     assert float(m.group(2)) == pytest.approx(margin, abs=0.051)
     assert margin > 20
+    still = dict(row, **{"Wind speed [m/s]": 0})
+    _, (calm,) = run(tmp_path, [still], name="calm.xlsx", headers=[*row, "Wind speed [m/s]"], sheets=off)
+    src, _ = run(tmp_path, [row], name="on.xlsx")
+    on = re.search(r"surface temperature: (\d+) mm; margin \+(\d+\.\d) K", cli("explain", src, "P-1").output)
+    assert float(on.group(2)) == pytest.approx(55.0 - (calm["results"]["surface_temperature_K"] - 273.15), abs=0.051)
+    assert float(on.group(2)) < margin - 10  # still air: a hotter surface, a smaller margin
     assert "governing: thinnest sold" in out
 
 
