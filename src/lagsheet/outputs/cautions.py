@@ -9,6 +9,10 @@ CAUTIONS = (
     "Cold lines need a continuous vapour retarder; moisture ingress is not calculated.",
     "Insulation delays freezing but never prevents it: water that may stand longer than its time "
     "to freeze needs heat tracing or to keep flowing.",
+    "Energy-code minimums are built in as transcribed from ASHRAE 90.1-2016 and GEG 2024: the edition "
+    "and amendments the local authority adopts govern.",
+    "A tracing duty is the heat to replace, not a heater design: heater output, hazardous-area "
+    "temperature class and circuits follow IEEE 515 / IEC/IEEE 60079-30 and qualified practice.",
     "Results are design estimates: review them under the owner's specification, local codes "
     "and licensed engineering practice.",
 )
