@@ -180,7 +180,8 @@ def _targets(res: Results, i: int, us: bool) -> list[str]:
     """Each target's own thinnest thickness and margin, the governing target and the system chosen."""
     v = res.values
     out = ["", "Targets (each one's own thinnest sold thickness; margin at the chosen system, worst named "
-           "condition):"]
+           "condition; a surface limit on its sun-facing side, and in still air unless the touch check "
+           "in still air is off):"]
     margins = res.target_margin[i] if res.target_margin else {}
     for name, th in (res.target_thickness[i] if res.target_thickness else {}).items():
         text = show(th, "thickness", us) if th is not None else "not met by any sold thickness"
