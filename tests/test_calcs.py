@@ -26,7 +26,7 @@ from conftest import pipe, write_book
 
 NUMBER = r"(-?[\d,]+\.?\d*)"
 TERMS = ("Convection at the outer surface (out)", "Radiation to the surroundings (out)",
-         "Sun (not counted in this version)")
+         "Sun absorbed (in, counted as negative out)")
 
 
 def _require_poppler() -> None:
@@ -190,6 +190,31 @@ def test_a_us_sheet_is_in_us_units_and_its_balance_adds_up_in_btu_per_hour(tmp_p
         conduction, out_terms = balance(text)
         assert sum(out_terms) == pytest.approx(loss, abs=max(1e-3 * abs(loss), 0.5)), tag
         assert "°F" in text and "Btu/h" in text and "°C" not in text.split("Values written")[1]
+
+
+def test_a_cold_line_in_the_sun_shows_the_sun_in_its_balance_and_the_balance_closes(tmp_path):
+    """A chilled pipe in 900 W/m² takes the sun in, averaged over its surface, as part of its gain: the
+    sheet's sun term is negative and conduction = convection + radiation + sun within 0.1 % of the
+    workbook's Heat loss; a hot line in the same sun shows 0 there (its loss is in the shade) and says
+    its surface limit is judged on the sun-facing side."""
+    _require_poppler()
+    cold = pipe("CS-1", **{"Operating temperature [°C]": 5, "Condition": "outdoor",
+                           "Max surface temperature [°C]": None, "Solar irradiance [W/m²]": 900})
+    hot = pipe("HS-1", **{"Operating temperature [°C]": 180, "Condition": "outdoor",
+                          "Solar irradiance [W/m²]": 900})
+    src = write_book(tmp_path / "sun.xlsx", [cold, hot], headers=[*cold])
+    filled = tmp_path / "sun-filled.xlsx"
+    assert _run("fill", src, "-o", filled, "-q").exit_code in (0, 1)
+    out = tmp_path / "sun.pdf"
+    assert _run("calcs", filled, "-o", out, "--tags", "CS-1,HS-1").exit_code in (0, 1)
+    sheets, book = sheets_by_tag(pages(out)), workbook_results(filled)
+    for tag in ("CS-1", "HS-1"):
+        loss = float(book[tag]["Heat loss [W]"].replace(",", ""))
+        conduction, terms = balance(sheets[tag])
+        tol = max(1e-3 * abs(loss), 0.5)
+        assert sum(terms) == pytest.approx(loss, abs=tol) and conduction == pytest.approx(loss, abs=tol), tag
+    assert balance(sheets["CS-1"])[1][2] < -1.0 and "adds to the gain" in sheets["CS-1"]
+    assert balance(sheets["HS-1"])[1][2] == 0.0 and "sun-facing side" in sheets["HS-1"]
 
 
 def test_by_default_the_lines_with_warnings_or_errors_and_one_per_governing_target(tmp_path):

@@ -107,6 +107,7 @@ def _condition(L, cond, us: bool) -> list[tuple[str, str]]:
             ("Condition of record", f"'{cond.name}': air {show(cond.t_air, 'temperature', us)}, surroundings "
              f"{show(cond.t_surroundings, 'temperature', us)}, wind {_wind(cond.wind, us)}, relative humidity "
              f"{cond.rh * 100:.0f} %, {cond.hours:g} h/yr")]
+    rows += _sun(L, cond, us)
     for c in L.conditions[1:]:
         rows.append(("Targets also judged at", f"'{c.name}': air {show(c.t_air, 'temperature', us)}, wind "
                      f"{_wind(c.wind, us)}, relative humidity {c.rh * 100:.0f} %"))
@@ -119,6 +120,19 @@ def _condition(L, cond, us: bool) -> list[tuple[str, str]]:
         size += f"; area {_area(L.area, us)}"
     rows.append(("Line", size))
     return rows
+
+
+def _sun(L, cond, us: bool) -> list[tuple[str, str]]:
+    """Where the sun counts (lagsheet.design.sun): a cold line's gain in the balance below, a hot
+    line's surface limit and reported surface on the sun-facing side, never a hot line's loss."""
+    if not cond.solar > 0:
+        return []
+    g = f"{show(cond.solar, 'per_area', us)}, solar absorptance {L.absorptance:g}"
+    if L.t_op < cond.t_air:
+        return [("Sun", f"{g}: the balance below takes it in averaged over the surface (it adds to the "
+                        "gain); the dew point is judged in the shade")]
+    return [("Sun", f"{g}: the balance below is in the shade (the sun never reduces a loss); the "
+                    "reported surface temperature and a surface limit are on the sun-facing side in full sun")]
 
 
 def _k(k: float, us: bool) -> str:
@@ -189,8 +203,9 @@ def _balance(L, s1, sol, j: int, res: Results, i: int, us: bool) -> Balance:
     text = (f"{'height' if L.word in ('riser', 'vessel') else 'length'} {show(L.length, 'length', us)}"
             if L.geometry == CYLINDER else f"area {_area(L.area, us)}" if L.geometry == FLAT else "")
     factor, text = _with_fittings(L, factor, text, res, i, us)
+    sun = np.zeros(1) if s1.absorbed is None else -s1.absorbed[j:j + 1]  # a cold line's gain (design.sun)
     return Balance(unit, factor, text, per_unit(sol.q[j:j + 1]), per_unit(conv),
-                   per_unit(sol.q_radiation[j:j + 1]), 0.0, float(sol.residual[j]),
+                   per_unit(sol.q_radiation[j:j + 1]), per_unit(sun), float(sol.residual[j]),
                    float(res.values["heat_loss"][i]), bool(np.isfinite(res.values["outlet_temperature"][i])))
 
 

@@ -25,7 +25,7 @@ class Balance:
     conduction: float
     convection: float
     radiation: float
-    sun: float
+    sun: float  # minus the absorbed sunlight α·G·F (a gain: negative out; 0 where the sun is not counted)
     residual: float  # (in − out)/max(|in|, |out|), as the solver left it
     heat_loss: float  # the reported heat loss of the line [W]
     flowing: bool  # the reported heat loss is the fluid's heat given up along the line

@@ -44,7 +44,7 @@ def balance_rows(b: Balance, us: bool) -> tuple[list[str], list[list[str]]]:
     terms = (("Conduction through the insulation (in)", b.conduction),
              ("Convection at the outer surface (out)", b.convection),
              ("Radiation to the surroundings (out)", b.radiation),
-             ("Sun (not counted in this version)", b.sun),
+             ("Sun absorbed (in, counted as negative out)", b.sun),
              ("Convection + radiation + sun (out)", b.out))
     rows = []
     for name, v in terms:
