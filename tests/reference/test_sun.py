@@ -146,3 +146,26 @@ def test_a_galvanised_jacket_in_full_sun_on_a_calm_day_is_about_60_k_hotter(tmp_
     expected = reference_solve(line, absorbed=GALVANISED[1] * 1000)[0] - reference_solve(line)[0]
     assert rise == pytest.approx(expected, abs=0.02)  # 0.01 K on each surface
     assert 55 < rise < 70
+
+
+def test_explain_prints_the_sun_in_a_cold_lines_balance(tmp_path):
+    """explain's balance line of a chilled pipe in the sun: the printed convection + radiation − sun
+    absorbed equal the printed heat flux (to the printed 3 decimals), and the sun term is there."""
+    import re
+
+    from typer.testing import CliRunner
+
+    from lagsheet.cli import app
+
+    from conftest import pipe
+
+    row = pipe("CS-1", **{"Operating temperature [°C]": 5, "Condition": "outdoor",
+                          "Max surface temperature [°C]": None, "Solar irradiance [W/m²]": 900})
+    src = write_book(tmp_path / "sun.xlsx", [row], headers=[*row])
+    out = CliRunner().invoke(app, ["explain", str(src), "CS-1"]).output
+    m = re.search(r"heat flux (-?[\d.]+) W/m² = convection (-?[\d.]+) \+ radiation (-?[\d.]+) − sun absorbed "
+                  r"([\d.]+);", out)
+    assert m, out
+    q, conv, rad, sun = map(float, m.groups())
+    assert sun > 1.0
+    assert conv + rad - sun == pytest.approx(q, abs=2e-3)

@@ -140,6 +140,8 @@ def _outer_surface(L, s1, sol, v, i: int, us: bool) -> list[str]:
     free_name, forced_name = CORRELATION_NAMES[L.shape]
     ts, q = float(sol.t_surface[0]), float(sol.q[0])
     h_c, h_r = float(conv.h[0]), float(sol.h_radiation[0])
+    gain = 0.0 if s1.absorbed is None else float(s1.absorbed[0])
+    sun = f" − sun absorbed {gain:.3f}" if gain else ""
     out = ["", "Outer surface:",
            f"  surface temperature {show(ts, 'temperature', us)}, film {show(0.5 * (ts + cond.t_air), 'temperature', us)}",
            *_convection_lines(L, s1, sol, free_name, forced_name, us),
@@ -147,7 +149,7 @@ def _outer_surface(L, s1, sol, v, i: int, us: bool) -> list[str]:
            f"  radiation: emissivity {float(s1.emissivity[0]):.2f}, sigma = {SIGMA:.6e} W/(m²·K⁴), "
            f"q_rad = {float(sol.q_radiation[0]):.2f} W/m², h_rad (linearised) = {h_r:.3f} W/(m²·K)",
            f"  heat flux {q:.3f} W/m² = convection {h_c * (ts - cond.t_air):.3f} + radiation "
-           f"{float(sol.q_radiation[0]):.3f}; balance residual {float(sol.residual[0]):.2e} (relative)"]
+           f"{float(sol.q_radiation[0]):.3f}{sun}; balance residual {float(sol.residual[0]):.2e} (relative)"]
     if L.geometry == CYLINDER:
         out.append(f"  heat loss per length {show(float(v['heat_loss_per_length'][i]), 'per_length', us)}")
     out.append(f"  heat loss {show(float(v['heat_loss'][i]), 'power', us)} (bare {show(float(v['bare_heat_loss'][i]), 'power', us)})")
