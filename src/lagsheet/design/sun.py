@@ -148,10 +148,10 @@ def notes(ctx, ch, res) -> None:
     touch = np.zeros(ctx.n, dtype=bool)
     if limit is not None:
         touch[lines] = np.isfinite(limit[lines]) & (ch.governing[lines] == "surface temperature")
-        ctx.ensure(np.isfinite(ctx.total) & touch[:, None])  # a search left some unsolved: 'would do' reads all
+        first = _would_do(ctx, ch, touch, limit)
     for i in lines:
         if touch[i]:
-            _touch_note(ctx, ch, res, int(i), float(limit[i]))
+            _touch_note(ctx, ch, res, int(i), float(limit[i]), int(first[i]))
         k = ctx.starts[i]
         if ctx.cases.absorbed is not None and ctx.cases.absorbed[k] > 0:
             _note(ctx, res, int(i), "sun-gain", f"the sun adds {show(ctx.cases.absorbed[k], 'per_area', ctx.us)} "
@@ -159,16 +159,47 @@ def notes(ctx, ch, res) -> None:
                   "surface) to the heat gain; the surface and the dew point are judged in the shade")
 
 
-def _touch_note(ctx, ch, res, i: int, limit: float) -> None:
+def _plain(ctx, limit: np.ndarray, col: np.ndarray) -> np.ndarray:
+    """Per line: does its candidate ``col`` (per line) meet the surface limit at the named wind in
+    the shade (the design cases), valid at every case?"""
+    at = np.arange(len(ctx.case_line))
+    j, c = col[ctx.case_line], ctx.c
+    ok = (c.t_surface[at, j] <= limit[ctx.case_line] + 1e-9) & c.converged[at, j] & c.in_range[at, j]
+    return np.logical_and.reduceat(ok, ctx.starts) & np.isfinite(ctx.total[np.arange(ctx.n), col])
+
+
+def _would_do(ctx, ch, touch: np.ndarray, limit: np.ndarray) -> np.ndarray:
+    """Per line of ``touch``: the thinnest candidate that meets the surface limit without the sun
+    and still air (-1: none). Lines the search bisected (their thicknesses solved in part)
+    are bisected again below the chosen one, which meets it (the surface falls as the
+    insulation thickens); the others (scanned whole, or no system met) read every candidate."""
+    p = np.maximum(ch.chosen, 0)
+    partly = touch & ~ctx.all_cases(ctx.c.solved | ~ctx.c.exists).all(axis=1) & _plain(ctx, limit, p)
+    ctx.ensure(np.isfinite(ctx.total) & (touch & ~partly)[:, None])
+    lo, hi = np.full(ctx.n, -1), p.copy()
+    while (act := partly & (hi - lo > 1)).any():
+        mid = (lo + hi) // 2
+        want = np.zeros(ctx.total.shape, dtype=bool)
+        want[act, mid[act]] = True
+        ctx.ensure(want)
+        met = _plain(ctx, limit, np.maximum(mid, 0))
+        hi, lo = np.where(act & met, mid, hi), np.where(act & ~met, mid, lo)
+    first = np.full(ctx.n, -1)
+    for i in np.flatnonzero(touch & ~partly):
+        cases = ctx.cases_of(i)
+        c = ctx.c
+        valid = np.isfinite(ctx.total[i]) & (c.converged[cases] & c.in_range[cases]).all(axis=0)
+        plain = (c.t_surface[cases] <= limit[i] + 1e-9).all(axis=0) & valid
+        first[i] = int(np.argmax(plain)) if plain.any() else -1
+    return np.where(partly, hi, first)
+
+
+def _touch_note(ctx, ch, res, i: int, limit: float, first: int) -> None:
     p, cases = int(ch.chosen[i]), ctx.cases_of(i)
     touch = ctx.ts("touch")
     k = max(cases, key=lambda k: touch[k, p])
     design, sunny = ctx.c.t_surface[k, p], ctx.ts("sun")[k, p]
     still = ctx.ts("still")[k, p] if "still" in ctx.surface else -np.inf
-    c = ctx.c
-    valid = np.isfinite(ctx.total[i]) & (c.converged[cases] & c.in_range[cases]).all(axis=0)
-    plain = (c.t_surface[cases] <= limit + 1e-9).all(axis=0) & valid  # at the named wind, in the shade
-    first = int(np.argmax(plain)) if plain.any() else -1
     if first == p or not (sunny > design + 1e-6 or still > design + 1e-6):
         return  # neither the sun nor still air changed the choice
     us, c = ctx.us, ctx.case_cond[k]
