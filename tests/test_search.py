@@ -1,7 +1,7 @@
 """The sizing search gives what the full scan gives, and solves fewer candidates.
 
 A schedule of random lines (every shape, hot and cold, one and two materials, one to three
-named conditions, every target, 'Economic' and process lines, some with inputs that are
+named conditions, a third of them in the sun, every target, 'Economic' and process lines, some with inputs that are
 wrong or out of a material's range) is sized twice, with the search and with the full scan
 (:data:`lagsheet.design.search.FULL_SCAN`): every reported value, word, note, status,
 chosen system, target's own thinnest thickness and margin must be the same.
@@ -61,6 +61,9 @@ def _line(rng, i: int) -> dict:
         r["Outer insulation"] = "cellular glass" if t_op < 400 else "mineral wool"
     if rng.random() < 0.08:
         r["Economic"] = "yes"
+    sun = np.random.default_rng(100_000 + i).random()  # its own stream: the other draws stay as they were
+    if sun < 0.3:  # the sun: a hot line's surface limit on its sun-facing side, a cold line's gain
+        r["Solar irradiance [W/m²]"] = float((300, 700, 1000)[int(sun * 10)])
     _process(rng, r, shape, cold, t_op, i)
     return r
 
