@@ -168,3 +168,20 @@ def test_fill_prints_the_total_steam_condensate(tmp_path, cli):
 
     total = json.loads((tmp_path / "r.json").read_text())["summary"]["condensate_kg_per_s"] * 3600
     assert "steam condensate" in r.output and f"{total:,.1f} kg/h" in r.output
+
+
+@pytest.mark.parametrize("row", [
+    pipe(**{"Fluid": "water", "Operating temperature [°C]": 10, "Freeze protection [h]": 5000, "Schedule": "40",
+            "Condition": "outdoor; winter", "Max surface temperature [°C]": None}),
+    pipe(**{"Shape": "vessel", "Size": None, "Outside diameter [mm]": 2000, "Length [m]": 3, "Fluid": "water",
+            "Operating temperature [°C]": 80, "Contents volume [m³]": 5, "Hold time [h]": 5000,
+            "Min temperature [°C]": 60, "Condition": "outdoor; winter", "Max surface temperature [°C]": None}),
+])
+def test_an_unmet_freeze_or_hold_time_names_the_coldest_condition(tmp_path, row):
+    """No sold thickness keeps water 5000 h: the line is judged at its coldest named condition
+    ('winter', named second), and that is the condition the results name as governing."""
+    from lagsheet.commands.demo import CONDITIONS  # 'outdoor' 5 °C and 'winter' -15 °C among them
+
+    res, _ = notes_of(tmp_path, row, sheets={"Conditions": [list(r) for r in CONDITIONS]})
+    assert res.values["governing"][0] in ("freeze protection (not met)", "hold time (not met)"), res.notes[0]
+    assert res.values["governing_condition"][0] == "winter"

@@ -40,4 +40,4 @@ class FreezeProtection(ProcessTarget):
 
     def unmet(self, ctx, j, i, last, thick, names):
         return (f"'Freeze protection' is not met by any sold thickness: water freezes in "
-                f"{j.value[i, last] / 3600:.1f} h at {thick}, the thickest of {names}; add heat tracing"), ctx.starts[i]
+                f"{j.value[i, last] / 3600:.1f} h at {thick}, the thickest of {names}; add heat tracing"), ctx.starts[i] + process.coldest(ctx.lines[i])

@@ -38,4 +38,4 @@ class HoldTime(FreezeProtection):
 
     def unmet(self, ctx, j, i, last, thick, names):
         return (f"'Hold time' is not met by any sold thickness: the contents cool in {j.value[i, last] / 3600:.1f} h "
-                f"at {thick}, the thickest of {names}"), ctx.starts[i]
+                f"at {thick}, the thickest of {names}"), ctx.starts[i] + process.coldest(ctx.lines[i])
