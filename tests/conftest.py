@@ -7,6 +7,9 @@ from pathlib import Path
 
 import openpyxl
 import pytest
+from odf.opendocument import OpenDocumentSpreadsheet
+from odf.table import Table, TableCell, TableRow
+from odf.text import P
 from typer.testing import CliRunner
 
 from lagsheet.cli import app
@@ -37,6 +40,27 @@ def write_book(path: Path, rows: list[dict], headers: list[str] | None = None, *
         for r in data:
             s.append(r)
     wb.save(path)
+    return path
+
+
+def write_ods(path: Path, sheets: dict[str, list[list]]) -> Path:
+    """An .ods (odfpy) with one table per sheet name: numbers as floats, text as strings, None empty."""
+    doc = OpenDocumentSpreadsheet()
+    for name, rows in sheets.items():
+        table = Table(name=name)
+        for r in rows:
+            tr = TableRow()
+            for v in r:
+                if v is None:
+                    tr.addElement(TableCell())
+                    continue
+                num = isinstance(v, (int, float))
+                c = TableCell(valuetype="float", value=v) if num else TableCell(valuetype="string")
+                c.addElement(P(text=str(v)))
+                tr.addElement(c)
+            table.addElement(tr)
+        doc.spreadsheet.addElement(table)
+    doc.save(str(path))
     return path
 
 

@@ -8,13 +8,10 @@ from __future__ import annotations
 import json
 
 import pytest
-from odf.opendocument import OpenDocumentSpreadsheet
-from odf.table import Table, TableCell, TableRow
-from odf.text import P
 
 from lagsheet.commands.fill import fill
 
-from conftest import write_book
+from conftest import write_book, write_ods
 
 SI = ["Tag", "Shape", "Size", "Length [m]", "Operating temperature [°C]", "Condition", "Insulation", "Finish",
       "Max surface temperature [°C]", "Prevent condensation", "Ambient temperature [°C]", "Wind speed [m/s]",
@@ -53,32 +50,12 @@ def _rows(us: bool) -> list[list]:
     return out
 
 
-def _ods(path, sheets: dict[str, list[list]]):
-    doc = OpenDocumentSpreadsheet()
-    for name, rows in sheets.items():
-        table = Table(name=name)
-        for r in rows:
-            tr = TableRow()
-            for v in r:
-                if v is None:
-                    tr.addElement(TableCell())
-                    continue
-                num = isinstance(v, (int, float))
-                c = TableCell(valuetype="float", value=v) if num else TableCell(valuetype="string")
-                c.addElement(P(text=str(v)))
-                tr.addElement(c)
-            table.addElement(tr)
-        doc.spreadsheet.addElement(table)
-    doc.save(str(path))
-    return path
-
-
 def _book(tmp_path, kind: str, us: bool):
     rows = _rows(us)
     if kind == "xlsx":
         return write_book(tmp_path / "in.xlsx", [dict(zip(rows[0], r, strict=True)) for r in rows[1:]], rows[0],
                           sheets={"Conditions": CONDITIONS})
-    return _ods(tmp_path / "in.ods", {"Lines": rows, "Conditions": CONDITIONS})
+    return write_ods(tmp_path / "in.ods", {"Lines": rows, "Conditions": CONDITIONS})
 
 
 def _results(tmp_path, kind, us) -> dict[str, dict]:

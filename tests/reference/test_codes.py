@@ -27,12 +27,11 @@ import openpyxl
 import pytest
 import python_calamine
 from fluids.piping import nearest_pipe
-from odf.opendocument import OpenDocumentSpreadsheet
-from odf.table import Table, TableCell, TableRow
-from odf.text import P
 
 # the sold series only (data, not a computation)
 from lagsheet.workbook.library import materials, series
+
+from conftest import write_ods
 
 BTU_IN = 0.1442279  # W/(m·K) per Btu·in/(h·ft²·°F), NIST SP 811
 IN = 0.0254
@@ -141,26 +140,6 @@ def write_xlsx(path: Path, sheets: dict[str, list[list]]) -> Path:
         for r in rows:
             ws.append(r)
     wb.save(path)
-    return path
-
-
-def write_ods(path: Path, sheets: dict[str, list[list]]) -> Path:
-    doc = OpenDocumentSpreadsheet()
-    for name, rows in sheets.items():
-        table = Table(name=name)
-        for r in rows:
-            tr = TableRow()
-            for v in r:
-                if v is None:
-                    tr.addElement(TableCell())
-                    continue
-                num = isinstance(v, (int, float))
-                c = TableCell(valuetype="float", value=v) if num else TableCell(valuetype="string")
-                c.addElement(P(text=str(v)))
-                tr.addElement(c)
-            table.addElement(tr)
-        doc.spreadsheet.addElement(table)
-    doc.save(str(path))
     return path
 
 

@@ -198,15 +198,10 @@ class _Formats(Mapping):
         self._own[key] = fmt
 
     def __getitem__(self, key) -> str:
-        if key in self._own:
-            return self._own[key]
-        hit = self._cells._find(key)
-        if hit is not None:
-            b, i = hit
-            v = b.values[i]
-            if b.fmt and v is not None and not isinstance(v, str):
-                return b.fmt
-        raise KeyError(key)
+        fmt = self.get(key)
+        if fmt is None:
+            raise KeyError(key)
+        return fmt
 
     def get(self, key, default=None):
         own = self._own.get(key)
