@@ -553,3 +553,45 @@ def test_demo_says_its_schedule_was_written_when_the_fill_is_refused(tmp_path, c
     assert f"(the demo schedule {demo / 'demo-plant.xlsx'} was written)" in r.output, r.output
     assert (demo / "demo-plant-filled.xlsx").read_bytes() == b"open elsewhere"
     assert files(demo) == ["demo-plant-filled.xlsx", "demo-plant.xlsx", "~$demo-plant-filled.xlsx"]
+
+
+# -- `--report -`: the JSON on standard output, never a file named '-' -------------------------------
+
+def _lagsheet(cwd: Path, *args) -> subprocess.CompletedProcess:
+    """A real process, so that standard output and standard error are really apart."""
+    return subprocess.run([sys.executable, "-m", "lagsheet", *map(str, args)], cwd=cwd, capture_output=True,
+                          text=True, timeout=300)
+
+
+def test_report_dash_goes_to_standard_output_for_fill_check_and_audit(tmp_path):
+    """`--report -` of fill, check and audit: standard output is exactly the JSON document the same run
+    writes with `--report FILE` (everything said for people goes to stderr), and no file named '-' appears."""
+    src = write_book(tmp_path / "in.xlsx", [pipe("P-1"), pipe("P-2", **{"Operating temperature [°C]": 90})])
+    for cmd, extra in (("fill", ("-o", "out.xlsx")), ("check", ()), ("audit", ())):
+        target = src if cmd != "audit" else tmp_path / "out.xlsx"  # audit reads the filled workbook
+        to_file = _lagsheet(tmp_path, cmd, target, *extra, "--report", "r.json")
+        assert to_file.returncode in (0, 1), to_file.stderr
+        if cmd == "fill":
+            (tmp_path / "out.xlsx").unlink()
+        p = _lagsheet(tmp_path, cmd, target, *extra, "--report", "-")
+        assert p.returncode == to_file.returncode, p.stderr
+        assert json.loads(p.stdout) == json.loads((tmp_path / "r.json").read_text(encoding="utf-8")), cmd
+        assert p.stderr.strip(), f"{cmd}: what is said for people went nowhere"
+        assert not (tmp_path / "-").exists(), cmd
+
+
+def test_dash_as_another_files_name_is_refused(tmp_path, cli):
+    """Only --report takes '-': an annotated copy, a plot or a calculation package named '-' would be a
+    file named '-' in the working folder. Exit 2, one sentence, nothing written."""
+    src = write_book(tmp_path / "in.xlsx", [pipe("P-1")])
+    cwd = os.getcwd()
+    os.chdir(tmp_path)
+    try:
+        runs = {"annotated copy": cli("check", src, "--annotate", "-"),
+                "plot": cli("explain", src, "P-1", "--plot", "-"),
+                "calculation package": cli("calcs", src, "-o", "-")}
+    finally:
+        os.chdir(cwd)
+    for what, r in runs.items():
+        assert r.exit_code == 2 and f"'-' is not a file name for the {what}" in r.output, r.output
+    assert files(tmp_path) == ["in.xlsx"]

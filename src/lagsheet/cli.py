@@ -36,7 +36,27 @@ def _main(version: bool = typer.Option(False, "--version", callback=_version, is
     pass
 
 
-def _print_summary(outcome, out: Path, quiet: bool) -> None:
+STDOUT = "-"  # `--report -`: the JSON report goes to standard output, what is said for people to stderr
+
+
+def _to_stdout(report: Path | None) -> bool:
+    return report is not None and str(report) == STDOUT
+
+
+def _report_path(report: Path | None) -> Path | None:
+    """The file the JSON report goes to: none when it goes to standard output (``--report -``)."""
+    return None if _to_stdout(report) else report
+
+
+def _echo_report(report: Path | None, data: dict) -> None:
+    """With ``--report -``: the JSON report on standard output (after everything else is said)."""
+    if _to_stdout(report):
+        from .outputs.report import dumps
+
+        typer.echo(dumps(data))
+
+
+def _print_summary(outcome, out: Path, quiet: bool, err: bool = False) -> None:
     s = outcome.report["summary"]
     cur = outcome.report.get("currency") or ""
     for n in outcome.inputs.notes:
@@ -77,7 +97,7 @@ def _print_summary(outcome, out: Path, quiet: bool) -> None:
     if s.get("condensate_kg_per_s"):
         table.add_row("steam condensate", f"{s['condensate_kg_per_s'] * 3600:,.1f} kg/h")
     table.add_row("written", str(out))
-    Console(width=100).print(table)
+    Console(width=100, stderr=err).print(table)
 
 
 @app.command(help="Size and evaluate every line and write the filled workbook to OUT.\n\n" + CAUTION)
@@ -85,7 +105,8 @@ def fill(
     file: Path = typer.Argument(..., exists=True, dir_okay=False, help="The schedule (.xlsx, .xlsm, .ods or .csv)."),
     output: Path = typer.Option(None, "-o", "--output", dir_okay=False,
                                 help="Where to write the filled workbook (a .csv schedule: .csv or .xlsx)."),
-    report: Path = typer.Option(None, "--report", dir_okay=False, help="Also write the JSON report here."),
+    report: Path = typer.Option(None, "--report", dir_okay=False,
+                                help="Also write the JSON report here ('-': to standard output)."),
     sheet: str = typer.Option("Lines", "--sheet", help="The sheet holding the lines."),
     in_place: bool = typer.Option(False, "--in-place", help="Overwrite the input (a backup copy is kept)."),
     allow_loss: bool = typer.Option(False, "--allow-loss",
@@ -103,10 +124,11 @@ def fill(
 
     mapping = _map_pairs(map_, "Insulation")
     with _progress(quiet) as stage:
-        outcome = _guarded(lambda: run(file, output, sheet=sheet, report_path=report, in_place=in_place,
-                                       ignore_lock=ignore_lock, allow_loss=allow_loss, progress=stage,
-                                       header_map=mapping, companion=with_))
-    _print_summary(outcome, file if in_place else output, quiet)
+        outcome = _guarded(lambda: run(file, output, sheet=sheet, report_path=_report_path(report),
+                                       in_place=in_place, ignore_lock=ignore_lock, allow_loss=allow_loss,
+                                       progress=stage, header_map=mapping, companion=with_))
+    _print_summary(outcome, file if in_place else output, quiet, err=_to_stdout(report))
+    _echo_report(report, outcome.report)
     raise typer.Exit(outcome.exit_code)
 
 
@@ -235,7 +257,7 @@ def _refuse_unsafe(file: Path, *targets: tuple[Path | None, str]) -> None:
     from .errors import WorkbookError
     from .io.save import refuse_unsafe, same_file
 
-    given = [(Path(t), what) for t, what in targets if t is not None]
+    given = [(Path(t), what) for t, what in targets if t is not None and not (what == "report" and _to_stdout(t))]
 
     def job():
         for k, (target, what) in enumerate(given):
@@ -261,7 +283,8 @@ def _open_and_specify(file: Path, sheet: str, companion: Path | None = None):
 def check(
     file: Path = typer.Argument(..., exists=True, dir_okay=False, help="The workbook (.xlsx/.xlsm/.ods/.csv)."),
     annotate: Path = typer.Option(None, "--annotate", dir_okay=False, help="Save a commented copy here."),
-    report: Path = typer.Option(None, "--report", dir_okay=False, help="Also write the findings as JSON."),
+    report: Path = typer.Option(None, "--report", dir_okay=False,
+                                help="Also write the findings as JSON ('-': to standard output)."),
     sheet: str = typer.Option("Lines", "--sheet", help="The sheet holding the lines."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="Print errors only."),
     map_: list[str] = typer.Option([], "--map", help=_MAP_HELP),
@@ -280,23 +303,26 @@ def check(
     if with_ is not None:  # the companion workbook is an input too
         _refuse_unsafe(with_, (annotate, "annotated copy"), (report, "report"))
 
+    def findings(outcome) -> dict:
+        errors = sum(n.level == "error" for n in outcome.notes)
+        warnings = sum(n.level == "warning" for n in outcome.notes)
+        return {"input": str(file), "notes": [n.as_dict() for n in outcome.notes],
+                "columns": outcome.inputs.columns, "errors": errors, "warnings": warnings}
+
     def job():
         # the annotated copy and the report are both written and verified before either is renamed
         with writing(inputs=[file], deferred=True):
             outcome = run(file, sheet, annotate, mapping, companion=with_)
-            if report is not None:
+            if _report_path(report) is not None:
                 from .outputs.report import write_json
 
-                errors = sum(n.level == "error" for n in outcome.notes)
-                warnings = sum(n.level == "warning" for n in outcome.notes)
-                write_json({"input": str(file), "notes": [n.as_dict() for n in outcome.notes],
-                            "columns": outcome.inputs.columns, "errors": errors, "warnings": warnings},
-                           report, inputs=[p for p in (annotate,) if p is not None])
+                write_json(findings(outcome), report, inputs=[p for p in (annotate,) if p is not None])
         return outcome
 
     outcome = _guarded(job)
     shown = [n for n in outcome.notes if n.level == "error" or (not quiet and n.level == "warning")]
-    console = Console(width=160)
+    to_stdout = _to_stdout(report)
+    console = Console(width=160, stderr=to_stdout)
     if shown:
         table = Table(title=f"lagsheet check: {file.name}", show_lines=False)
         for col in ("level", "where", "what", "message"):
@@ -308,7 +334,8 @@ def check(
     errors = sum(n.level == "error" for n in outcome.notes)
     warnings = sum(n.level == "warning" for n in outcome.notes)
     typer.echo(f"{errors} errors, {warnings} warnings" + (f"; annotated copy: {annotate}" if annotate else "")
-               + (f"; report: {report}" if report else ""))
+               + (f"; report: {report}" if _report_path(report) else ""), err=to_stdout)
+    _echo_report(report, findings(outcome))
     raise typer.Exit(outcome.exit_code)
 
 
@@ -357,7 +384,8 @@ def audit(
     surface_k: float = typer.Option(2.0, "--surface-tolerance", help="Surface temperature tolerance [K]."),
     loss_pct: float = typer.Option(5.0, "--loss-tolerance", help="Heat loss tolerance [%]."),
     sheet: str = typer.Option("Lines", "--sheet", help="The sheet holding the lines."),
-    report: Path = typer.Option(None, "--report", dir_okay=False, help="Also write the findings as JSON."),
+    report: Path = typer.Option(None, "--report", dir_okay=False,
+                                help="Also write the findings as JSON ('-': to standard output)."),
     with_: Path = typer.Option(None, "--with", exists=True, dir_okay=False, help=_WITH_HELP),
 ):
     from dataclasses import asdict
@@ -371,20 +399,21 @@ def audit(
     book, inputs, res = _guarded(lambda: _open_and_specify(file, sheet, with_))
     result = _guarded(lambda: run(inputs, book.sheet(inputs.lines.sheet), res, mapping, surface_k,
                                   loss_pct / 100))
+    to_stdout = _to_stdout(report)
     for f in result.findings:
-        typer.echo(f"{f.tag or 'row ' + str(f.row)}: {f.message}")
+        typer.echo(f"{f.tag or 'row ' + str(f.row)}: {f.message}", err=to_stdout)
     for c in result.columns:
         if not c.unit_from_header:
             typer.echo(f"warning: {c.header!r} has no unit in its header; read as {c.unit_text}", err=True)
-    typer.echo(result.summary())
-    if report is not None:
+    typer.echo(result.summary(), err=to_stdout)
+    data = {"input": str(file), "lines_compared": result.lines_compared,
+            "columns": [{"header": c.header, "result": c.key, "unit": c.unit_text} for c in result.columns],
+            "differences": [asdict(f) for f in result.findings]}
+    if _report_path(report) is not None:
         from .outputs.report import write_json
 
-        _guarded(lambda: write_json({"input": str(file), "lines_compared": result.lines_compared,
-                                     "columns": [{"header": c.header, "result": c.key, "unit": c.unit_text}
-                                                 for c in result.columns],
-                                     "differences": [asdict(f) for f in result.findings]}, report,
-                                    inputs=[file]))
+        _guarded(lambda: write_json(data, report, inputs=[file]))
+    _echo_report(report, data)
     raise typer.Exit(1 if result.findings else 0)
 
 

@@ -174,6 +174,9 @@ def refuse_unsafe(out: Path, *, inputs: Iterable[Path] = (), what: str = "output
     name = out.name
     if not name:
         raise WorkbookError(f"{out}: give a file name for the {what}")
+    if name == "-" and not str(out.parent).strip("."):
+        raise WorkbookError(f"'-' is not a file name for the {what}: give one (only --report takes '-', "
+                            "for standard output)")
     if len(os.fsencode(name)) > NAME_MAX:
         raise WorkbookError(f"the {what} file name is {len(os.fsencode(name))} bytes long; a folder holds names "
                             f"of at most {NAME_MAX} bytes: choose a shorter name")

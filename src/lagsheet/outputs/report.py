@@ -61,10 +61,15 @@ def write_json(data: dict, path: Path, *, inputs=()) -> None:
     write(data, path, inputs=inputs)
 
 
+def dumps(report: dict) -> str:
+    """The text of a JSON document as lagsheet writes it (to a file, or with ``--report -`` to stdout)."""
+    return json.dumps(report, indent=1, ensure_ascii=False)
+
+
 def write(report: dict, path: Path, *, inputs=()) -> None:
     from ..io.save import atomic_write
 
     def w(tmp):
-        Path(tmp).write_text(json.dumps(report, indent=1, ensure_ascii=False), encoding="utf-8")
+        Path(tmp).write_text(dumps(report), encoding="utf-8")
 
     atomic_write(path, w, inputs=inputs, what="report")
