@@ -100,6 +100,21 @@ def test_the_us_copy_of_the_demo_gives_the_same_physics_in_us_units(tmp_path, cl
     for h in ("Thickness [in]", "Surface temperature [°F]", "Heat loss [Btu/h]", "Heat loss per length [Btu/(h·ft)]",
               "Outlet temperature [°F]", "Condensate [lb/h]", "Time to freeze [h]", "Time to cool [h]"):
         assert h in heads
+    # the Summary's settings and conditions in the workbook's own units (1 in = 25.4 mm; 1 K = 1.8 °F;
+    # 1 mph = 0.44704 m/s, NIST SP 811), the SI demo's in SI
+    for path, want in ((tmp_path / "us-out.xlsx", {"Thickness step": (0.394, "in"), "Max thickness": (11.811, "in"),
+                                                   "Condensation margin": (1.8, "°F")}),
+                       (next((tmp_path / "si").glob("*-filled.xlsx")),
+                        {"Thickness step": (10.0, "mm"), "Max thickness": (300.0, "mm"),
+                         "Condensation margin": (1.0, "K")})):
+        rows = {r[0]: r[1:] for r in openpyxl.load_workbook(path)["Summary"].iter_rows(values_only=True) if r[0]}
+        for name, (value, unit) in want.items():
+            assert rows[name][:2] == (pytest.approx(value, abs=5e-4), unit), (path.name, name, rows[name])
+        us = path.name == "us-out.xlsx"
+        assert rows["Conditions used"][2] == ("Wind [mph]" if us else "Wind [m/s]")
+        winter = next(r for r in demo.CONDITIONS if r[0] == "winter")
+        assert rows["winter"][2] == pytest.approx(winter[3] / (0.44704 if us else 1.0), abs=0.005)
+        assert not any(str(v).startswith("-0 ") for r in rows.values() for v in r)  # no '-0 °F'
 
 
 def test_check_explain_and_audit_work_on_the_us_copy(tmp_path, cli):

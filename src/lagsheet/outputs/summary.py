@@ -30,6 +30,8 @@ _UNITS = {
     "power": ("kW", "MBtu/h"), "energy": ("MWh", "MMBtu"), "co2": ("t/yr", "t/yr"),
     "length": ("m", "ft"), "area": ("m²", "ft²"), "volume": ("m³", "ft³"),
 }
+# settings with a unit shown in the workbook's own system: SI unit -> (SI shown, US shown)
+_SETTING_UNITS = {"m": ("mm", "in"), "K": ("K", "°F")}
 _SI = {"power": "W", "energy": "kWh", "co2": "kg/year", "length": "m", "area": "m**2", "volume": "m**3"}
 
 
@@ -79,18 +81,22 @@ def summary(inputs: Inputs, res: Results, today: _dt.date | None = None) -> Shee
                 "kg/kWh": "kg/kWh", "year": "years", "": ""}.get(si, si)
         if dim == "%" and isinstance(value, float):
             value, unit = value * 100, "%"
+        elif si in _SETTING_UNITS and isinstance(value, float):  # in the workbook's own units
+            unit = _SETTING_UNITS[si][1 if us else 0]
+            value = round(float(from_si(value, si, unit, difference=si == "K")), 3)
         if isinstance(value, bool):
             value = "yes" if value else "no"
         if isinstance(value, float) and not math.isfinite(value):
             value = None
         s.add([title, value, unit, "given" if key in given else ("default" if value is not None else "not set")])
     s.add([])
-    s.add(["Conditions used", "Ambient", "Surroundings", "Wind [m/s]", "RH [%]", "Hours [h/yr]"], bold=True)
+    wind_unit = "mph" if us else "m/s"
+    s.add(["Conditions used", "Ambient", "Surroundings", f"Wind [{wind_unit}]", "RH [%]", "Hours [h/yr]"], bold=True)
     used = {c.name for L in res.lines for c in L.conditions}
     for c in inputs.conditions.values():
         if c.name in used:
             s.add([c.name, show(c.t_air, "temperature", us), show(c.t_surroundings, "temperature", us),
-                   c.wind, round(c.rh * 100, 1), c.hours])
+                   round(float(from_si(c.wind, "m/s", wind_unit)), 2), round(c.rh * 100, 1), c.hours])
     s.add([])
     s.add(["Cautions"], bold=True)
     for text in CAUTIONS:

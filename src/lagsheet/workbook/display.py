@@ -32,8 +32,8 @@ def show(value: float, kind: str, us: bool = False) -> str:
     if not np.isfinite(value):
         return "n/a"
     scale, offset = _linear(kind, unit)
-    v = value * scale + offset
     d = d_us if us else d_si
+    v = round(value * scale + offset, d) + 0.0  # + 0.0: no '-0 °F' for -0.4 °F
     return f"{v:.{d}f} {unit}"
 
 
