@@ -155,3 +155,27 @@ def test_one_bad_condition_cell_is_one_error_where_it_is(tmp_path, column, value
     line = [n for n in notes if n.code == "bad-condition"]
     cell = {"Operating hours [h]": "E2", "Wind speed [m/s]": "C2", "Relative humidity [%]": "D2"}[column]
     assert line and f"Conditions!{cell}" in line[0].message
+
+
+@pytest.mark.parametrize("rows, warned", [
+    # 'Currency' USD, prices in EUR: each EUR price is warned at its unit cell
+    ([["Currency", "USD", None], ["Energy price", 0.05, "EUR/kWh"], ["Jacket cost per area", 20, "USD/m²"]],
+     {"C3": "'Energy price' is priced in EUR but 'Currency' says USD"}),
+    # a symbol and its code are one currency
+    ([["Currency", "USD", None], ["Energy price", 0.05, "$/kWh"], ["Jacket cost per area", 20, "usd/m²"]], {}),
+    # no 'Currency': the first price's currency is the workbook's (it names the money columns)
+    ([["Energy price", 0.05, "€/kWh"], ["Jacket cost per area", 20, "GBP/m²"], ["Labour per layer", 9, "EUR/m²"]],
+     {"C3": "'Jacket cost per area' is priced in GBP but 'Energy price' says €; lagsheet converts no currency: "
+            "write every price in one currency (or set 'Currency')"}),
+])
+def test_prices_in_two_currencies_are_warned_at_the_unit(tmp_path, rows, warned):
+    """lagsheet converts no currency: a price whose unit names another currency than the workbook's would be
+    added up with the others under one name. check and fill say so at the unit cell."""
+    src = write_book(tmp_path / "in.xlsx", [pipe()], sheets={"Settings": [["Setting", "Value", "Unit"], *rows]})
+    got = {n.cell: n.message for n in check(src).notes if n.code == "currency-clash"}
+    assert set(got) == set(warned), got
+    for cell, words in warned.items():
+        assert words in got[cell] and all(n.sheet == "Settings" for n in check(src).notes
+                                          if n.code == "currency-clash")
+    rep = fill(src, tmp_path / "out.xlsx").report
+    assert {n["cell"] for n in rep["notes"] if n["code"] == "currency-clash"} == set(warned)

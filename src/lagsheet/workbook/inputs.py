@@ -155,6 +155,7 @@ def _settings(book: Book, notes: list[Note]) -> dict[str, object]:
     head = {fold(split_header(v)[0]): c for c, v in enumerate(raw.grid[hr]) if isinstance(v, str)}
     cs, cv, cu = head.get("setting"), head.get("value"), head.get("unit")
     by_name = {fold(v[0]): k for k, v in schema.SETTINGS.items()} | schema.SETTING_ALIASES
+    priced: list[tuple[str, str, str]] = []  # (currency of a price's unit, setting, unit cell)
     for r in range(hr + 1, len(raw.grid)):
         label = raw.value(r, cs)
         if label is None:
@@ -166,7 +167,33 @@ def _settings(book: Book, notes: list[Note]) -> dict[str, object]:
                               + suggest(label, by_name, show=str), name, where))
             continue
         _setting_row(raw, r, key, (cv, cu), values, notes, name, where)
+        if cu is not None and isinstance(raw.value(r, cu), str) and key in values["_given"]:
+            currency = split_currency(raw.value(r, cu).strip())[0]
+            if currency:
+                priced.append((currency, schema.SETTINGS[key][0], address(r, cu)))
+    _currency_clash(values, priced, notes, name)
     return values
+
+
+_CURRENCY_SYMBOLS = {"$": "usd", "€": "eur", "£": "gbp", "¥": "jpy", "₹": "inr"}
+
+
+def _currency_clash(values: dict, priced: list[tuple[str, str, str]], notes: list[Note], name: str) -> None:
+    """A price whose unit names another currency than the workbook's: lagsheet converts no currency,
+    so its money columns would add up amounts in two currencies under one name. A warning at the unit."""
+    def same(a: str, b: str) -> bool:
+        return _CURRENCY_SYMBOLS.get(a, a.casefold()) == _CURRENCY_SYMBOLS.get(b, b.casefold())
+
+    if not priced:
+        return
+    given = "currency" in values["_given"]
+    ref, source = (str(values["currency"]), "'Currency'") if given else (priced[0][0], repr(priced[0][1]))
+    for currency, title, where in priced:
+        if not same(currency, ref):
+            notes.append(Note("warning", "currency-clash",
+                              f"setting {title!r} is priced in {currency} but {source} says {ref}; lagsheet "
+                              f"converts no currency: write every price in one currency"
+                              + ("" if given else " (or set 'Currency')"), name, where))
 
 
 def _setting_row(raw, r: int, key: str, value_unit: tuple[int | None, int | None], values: dict,
