@@ -254,6 +254,21 @@ def test_sunlight_absorbed_matches_independent_solve():
         assert (sol.t_surface > shade.t_surface).all()
 
 
+@pytest.mark.parametrize("bracket", [(3.0, 4.0), (0.05, 0.1)])
+def test_a_guessed_bracket_that_misses_the_root_is_searched_whole(monkeypatch, solved, bracket):
+    """The engine starts each root search in a narrow bracket around a guess; where that bracket does not
+    hold the root (here every one, placed above or below it) the whole [0, 1] is searched: the same
+    results as with a good guess, within the solver's tolerance, and the reference still met."""
+    from lagsheet.physics import balance
+
+    lines, good, ref = solved
+    monkeypatch.setattr(balance, "BRACKET", bracket)
+    sol = solve(system(lines), TABLE)
+    assert sol.converged.all()
+    assert sol.q == pytest.approx(good.q, rel=1e-8)
+    _check(lines, sol, ref, range(len(lines)))
+
+
 def test_cold_lines_gain_heat(solved):
     """A line below ambient gains heat: negative loss and a surface between the line and the air."""
     lines, sol, ref = solved
