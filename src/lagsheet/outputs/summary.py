@@ -90,6 +90,17 @@ def summary(inputs: Inputs, res: Results, today: _dt.date | None = None) -> Shee
             value = None
         s.add([title, value, unit, "given" if key in given else ("default" if value is not None else "not set")])
     s.add([])
+    _conditions_rows(s, inputs, res, us)
+    s.add([])
+    s.add(["Cautions"], bold=True)
+    for text in CAUTIONS:
+        s.add([text])
+    s.widths = {0: 28, **{c: 15 for c in range(1, 13)}, 13: 60}
+    return s
+
+
+def _conditions_rows(s: SheetTable, inputs: Inputs, res: Results, us: bool) -> None:
+    """The named conditions the lines use, in the workbook's own units."""
     wind_unit = "mph" if us else "m/s"
     s.add(["Conditions used", "Ambient", "Surroundings", f"Wind [{wind_unit}]", "RH [%]", "Hours [h/yr]"], bold=True)
     used = {c.name for L in res.lines for c in L.conditions}
@@ -97,12 +108,6 @@ def summary(inputs: Inputs, res: Results, today: _dt.date | None = None) -> Shee
         if c.name in used:
             s.add([c.name, show(c.t_air, "temperature", us), show(c.t_surroundings, "temperature", us),
                    round(float(from_si(c.wind, "m/s", wind_unit)), 2), round(c.rh * 100, 1), c.hours])
-    s.add([])
-    s.add(["Cautions"], bold=True)
-    for text in CAUTIONS:
-        s.add([text])
-    s.widths = {0: 28, **{c: 15 for c in range(1, 13)}, 13: 60}
-    return s
 
 
 def _totals(v: dict, idx: np.ndarray, us: bool) -> list:

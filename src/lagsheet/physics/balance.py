@@ -5,8 +5,8 @@ radiation out. The unknown is
 the outer heat flux q [W/m²], scaled by q₀, the flux the outer surface would give up at
 the operating temperature: x = q/q₀ lies in [0, 1] for hot and cold lines alike, and
 the residual x − q_surf(T_s(x q₀))/q₀ rises monotonically from −1 to ≥ 0 across that
-bracket (with sunlight q_surf is net of α·G, and q₀ too: the bracket still holds). scipy's elementwise
-Chandrupatla root finder solves all lines together, each started in a narrow bracket around a
+bracket (with sunlight q_surf is net of α·G, and q₀ too: the bracket still holds). Chandrupatla's
+root finder (:mod:`.roots`, scipy's algorithm) solves all lines together, each started in a narrow bracket around a
 guess from the layers in series (:func:`_bracket`: about 6 residual evaluations a line instead of
 10 to 11 from [0, 1]); the lines whose narrow bracket misses the root search the whole of [0, 1].
 """
@@ -16,10 +16,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize.elementwise import find_root
 
 from .layers import MaterialTable, geometric_lengths, march, outer_radius
 from .radiation import h_radiation, q_radiation
+from .roots import SIGN_ERROR, chandrupatla
 from .surface import Convection, surface_flux
 
 X_TOL = 1e-11  # on x = q/q0: closes the balance far below 1e-6 and Ts far below 0.01 K
@@ -128,23 +128,20 @@ def _solve(s: System, table: MaterialTable) -> Solution:
     converged = np.ones(n, dtype=bool)
     if todo.size:
         def residual(xi, idx):
-            idx = idx.astype(np.intp)
+            idx = idx.astype(np.intp)  # scipy's find_root (the tests put it in) hands over floats
             q = xi * q0[idx]
             ts = march(table, s.material[idx], g[idx], s.t_operating[idx], q)[:, -1]
             qs, _ = flux(idx, ts)
             return xi - qs / q0[idx]
 
-        tol = {"xatol": X_TOL, "xrtol": 0.0, "fatol": 0.0, "frtol": 0.0}
         lo, hi = _bracket(s, table, g, q0, todo)
-        res = find_root(residual, (lo, hi), args=(todo.astype(float),), tolerances=tol, maxiter=200)
-        x[todo] = res.x
-        converged[todo] = res.success
-        again = todo[res.status == -1]  # the guessed bracket missed the root: the whole of [0, 1]
+        x[todo], status = chandrupatla(residual, lo, hi, (todo,), xatol=X_TOL, maxiter=200)
+        converged[todo] = status == 0
+        again = todo[status == SIGN_ERROR]  # the guessed bracket missed the root: the whole of [0, 1]
         if again.size:
-            res = find_root(residual, (np.zeros(again.size), np.ones(again.size)), args=(again.astype(float),),
-                            tolerances=tol, maxiter=200)
-            x[again] = res.x
-            converged[again] = res.success
+            x[again], status = chandrupatla(residual, np.zeros(again.size), np.ones(again.size), (again,),
+                                            xatol=X_TOL, maxiter=200)
+            converged[again] = status == 0
     q = x * q0
     faces = march(table, s.material, g, s.t_operating, q)
     ts = faces[:, -1]

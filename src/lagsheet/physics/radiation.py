@@ -3,7 +3,12 @@
 from __future__ import annotations
 
 import numpy as np
-from scipy.constants import Stefan_Boltzmann as SIGMA  # 5.670374419e-8 W/(m²·K⁴), CODATA 2018
+
+# Stefan-Boltzmann constant [W/(m²·K⁴)]: 2π⁵k⁴/(15h³c²) from the exact k, h and c of the 2019 SI
+# (CODATA 2018 rounds it to 5.670374419e-8), as scipy.constants computes it. Written out rather than
+# imported, as scipy's import costs 0.2 s of CPU at every start; tests/reference/test_constants.py
+# holds it to scipy's value and to the formula.
+SIGMA = 5.6703744191844314e-08
 
 
 def q_radiation(emissivity, t_surface, t_surroundings):

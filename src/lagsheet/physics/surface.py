@@ -10,11 +10,12 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.constants import g as G  # standard gravity, 9.80665 m/s²
 
 from . import correlations as cr
 from .properties import air
 from .radiation import h_radiation, q_radiation
+
+G = 9.80665  # standard gravity [m/s²], exact by definition (3rd CGPM, 1901); tests/reference/test_constants.py
 
 # Shape codes of the engine (the workbook's words map onto them in lagsheet.design.select).
 PIPE, RISER, VESSEL, WALL, TOP, UNDERSIDE, SPHERE_SHAPE = 0, 1, 2, 3, 4, 5, 6
