@@ -27,7 +27,15 @@ from ..errors import WorkbookError
 from .ods_chart import MANIFEST
 from .ods_chart import Objects as _Objects
 from .save import VERIFIERS, atomic_write
-from .table import RawSheet, SheetEdits, calamine_grid, misplaced, post_write_check, sheet_name_for
+from .table import (
+    RawSheet,
+    SheetEdits,
+    calamine_grid,
+    cells_with_formats,
+    misplaced,
+    post_write_check,
+    sheet_name_for,
+)
 from .xmlscan import EMPTY, START, Scanner, XmlScanError, attr, tag_end
 
 AUTHOR = "lagsheet"
@@ -603,12 +611,12 @@ class _TablePatch:
 
     def run(self) -> str:
         xml = _strip_our_annotations(self.xml, self.n)
-        targets: dict[int, dict[int, tuple[str, Any]]] = {}
-        for (r, c), v in self.e.values.items():
-            targets.setdefault(r, {})[c] = ("value", v)
+        targets: dict[int, dict[int, tuple[str, Any, str | None]]] = {}  # row -> col -> (kind, value, format)
+        for (r, c), v, fmt in cells_with_formats(self.e.values, self.e.number_formats):
+            targets.setdefault(r, {})[c] = ("value", v, fmt)
         notes: dict[tuple[int, int], str] = dict(self.e.comments)
         for (r, c) in notes:
-            targets.setdefault(r, {}).setdefault(c, ("note", None))
+            targets.setdefault(r, {}).setdefault(c, ("note", None, None))
         header_src = {pos: src for pos, src in self.e.headers.items()}
         self._header_styles = self._styles_of(xml, {src for src in header_src.values()})
         xml = self._columns(xml)
@@ -674,7 +682,8 @@ class _TablePatch:
         todo = sorted(targets)
         out, pos, r, k = [], 0, 0, 0
         sc = Scanner(xml)
-        for start, _, stop, rep in _rows(sc, self.n):
+        repeated = f"{t}:number-rows-repeated"
+        for start, head_end, stop, rep in _rows(sc, self.n):
             if k >= len(todo):
                 break
             hits = []
@@ -683,8 +692,14 @@ class _TablePatch:
                 k += 1
             if hits:
                 out.append(xml[pos:start])
-                out.append(_split(xml[start:stop], f"{t}:number-rows-repeated", r, rep, hits,
-                                  lambda one, h: self._patch_row(one, h, targets[h], notes, header_src)))
+                if rep == 1 and head_end < stop and repeated not in xml[start:head_end]:  # a row of its own:
+                    body_end = xml.rfind("</", start, stop)  # patched where it is, no copy of it made
+                    out.append(xml[start:head_end])
+                    out.append(self._patch_cells(sc, head_end, body_end, r, targets[r], notes, header_src))
+                    out.append(xml[body_end:stop])
+                else:
+                    out.append(_split(xml[start:stop], repeated, r, rep, hits,
+                                      lambda one, h: self._patch_row(one, h, targets[h], notes, header_src)))
                 pos = stop
             r += rep
         if k < len(todo):  # rows past the table's last row
@@ -699,7 +714,8 @@ class _TablePatch:
         out.append(xml[pos:])
         return "".join(out)
 
-    def _patch_row(self, row: str, r: int, cells: dict[int, tuple[str, Any]], notes, header_src) -> str:
+    def _patch_row(self, row: str, r: int, cells: dict[int, tuple[str, Any, str | None]], notes, header_src) -> str:
+        """A copy of a row (one of a repeated run, or a new one) with our cells written in."""
         t = self.t
         close = f"</{t}:table-row>"
         head_end = tag_end(row)
@@ -708,18 +724,32 @@ class _TablePatch:
         else:
             head = row[:head_end]
             body = row[head_end:row.rfind("</")]
-        out, pos, c = [], 0, 0
+        return head + self._patch_cells(Scanner(body), 0, len(body), r, cells, notes, header_src) + close
+
+    def _patch_cells(self, sc: Scanner, begin: int, end: int, r: int, cells: dict[int, tuple[str, Any, str | None]],
+                     notes, header_src) -> str:
+        """The cells of row ``r`` (``sc.text[begin:end]``) with ours written in: the cells we write in
+        are split out of their repeated runs; ours past the row's last cell go after it."""
+        t, body = self.t, sc.text
+        out, pos, c = [], begin, 0
         todo = sorted(cells)
         k, n_todo = 0, len(todo)
         repeated = f"{t}:number-columns-repeated"
-        last_end = 0
-        sc = Scanner(body)
-        for cs, _, cstop, rep in _cells(sc, self.n, 0, len(body)):  # the cells; those we write in are split
+        last_end = begin
+        for cs, ce, cstop, rep in _cells(sc, self.n, begin, end):  # the cells; those we write in are split
             if k >= n_todo:
                 break  # the rest of the row is copied as it is
             last_end = cstop
             if todo[k] >= c + rep:  # nothing of ours in this one: it stays in the text as it is
                 c += rep
+                continue
+            if rep == 1 and repeated not in body[cs:ce]:  # a cell of its own: nothing to split
+                h = todo[k]
+                k += 1
+                out.append(body[pos:cs])
+                out.append(self._cell(body[cs:cstop], r, h, cells[h], notes.get((r, h)), header_src))
+                pos = cstop
+                c += 1
                 continue
             hits = []
             while k < n_todo and todo[k] < c + rep:
@@ -733,24 +763,24 @@ class _TablePatch:
         else:  # every cell was seen (c is the row's width): ours past the last one go after it
             out.append(body[pos:last_end])
             pos = last_end
-        tail = body[pos:]
+        tail = body[pos:end]
         for h in todo[k:]:  # past the row's last cell
             if h > c:
                 out.append(f'<{t}:table-cell {t}:number-columns-repeated="{h - c}"/>' if h - c > 1
                            else f"<{t}:table-cell/>")
             out.append(self._cell(f"<{t}:table-cell/>", r, h, cells[h], notes.get((r, h)), header_src))
             c = h + 1
-        return head + "".join(out) + tail + close
+        return "".join(out) + tail
 
-    def _cell(self, original: str, r: int, c: int, what: tuple[str, Any], note: str | None, header_src) -> str:
+    def _cell(self, original: str, r: int, c: int, what: tuple[str, Any, str | None], note: str | None,
+              header_src) -> str:
         t, o = self.t, self.o
-        kind, v = what
+        kind, v, fmt = what
         if kind == "note":
             return _annotate(original, note, self.n) if note else original
         style = None
         if (r, c) in header_src:
             style = self._header_styles.get(header_src[(r, c)])
-        fmt = self.e.number_formats.get((r, c))
         if v is None:
             return f"<{t}:table-cell/>"
         if type(v) is float:  # the same text as below, its start made once per format

@@ -129,6 +129,12 @@ class Scanner:
         """The end of the element ``name`` whose start tag ends at ``head_end``."""
         text = self.text
         end = len(text) if end is None else end
+        # the common case without a regex: the first '</name' is '</name>', and no '<name' before it
+        j = text.find("</" + name, head_end, end)
+        k = j + len(name) + 2
+        if j >= 0 and k < end and text[k] == ">" and text.find("<" + name, head_end, j) < 0 \
+                and not self._opaque_between(head_end, j):
+            return k + 1
         close = _close_re(name).search(text, head_end, end)
         if close is not None and not self._opaque_between(head_end, close.start()) \
                 and _open_re(name).search(text, head_end, close.start()) is None:
