@@ -226,6 +226,10 @@ def resolve(t: Table, inputs: Inputs, i: int, notes: list[Note], cols: Columns |
     economic = cols.lists.get("economic")
     L.economic = economic is not None and economic[i] is True
     _candidates(L, fixed, eps, st, us, err, cols.memo)
+    checked = cols.given("checked", _checked_columns())
+    if checked is None or not checked[i]:
+        tracing.untraced(L, st)
+        return L
 
     def warn(code: str, key: str, message: str):
         notes.append(Note("warning", code, message, sheet, t.cell(i, key)))
@@ -233,11 +237,7 @@ def resolve(t: Table, inputs: Inputs, i: int, notes: list[Note], cols: Columns |
     def info(code: str, key: str, message: str):
         notes.append(Note("info", code, message, sheet, t.cell(i, key)))
 
-    checked = cols.given("checked", _checked_columns())
-    if checked is not None and checked[i]:
-        _checks(L, Cells(t, i, num, text, err, warn, st, inputs, info), cols)
-    else:
-        tracing.untraced(L, st)
+    _checks(L, Cells(t, i, num, text, err, warn, st, inputs, info), cols)
     return L
 
 
@@ -445,7 +445,7 @@ def _tags(t: Table, lines: list[Line], notes: list[list[Note]], tags: list | Non
                                  t.sheet, t.cell(i, "tag")))
             L.ok = False
             continue
-        key = fold(tag)
+        key = _fold_tag(tag)
         if key in seen:
             notes[i].append(Note("error", "duplicate-tag", f"tag {tag!r} is used again (first in row "
                                  f"{t.rows[seen[key]] + 1}); tags must be unique", t.sheet, t.cell(i, "tag")))
@@ -455,6 +455,13 @@ def _tags(t: Table, lines: list[Line], notes: list[list[Note]], tags: list | Non
             if key.startswith("example"):
                 notes[i].append(Note("warning", "example-row", "example row from the lagsheet template: "
                                      "replace it with your own line or delete it", t.sheet, t.cell(i, "tag")))
+
+
+def _fold_tag(tag) -> str:
+    """:func:`fold` of a tag without its cache (every tag is new, so each would miss it and
+    push out another): the same words, as ``re``'s ``\\s`` and ``str.split`` take the same
+    whitespace (tests/test_spec.py)."""
+    return " ".join(str(tag).split()).lower()
 
 
 def _dimensions(L: Line, t: Table, i: int, num, text, err, notes, us, cols: Columns | None = None) -> None:

@@ -26,11 +26,7 @@ def lines_notes(ctx: Context, judged: dict[str, Judgement], ch, rep, res, idx: n
     """Words for the lines ``idx`` (ascending): each kind of note decided for every line at once
     from per-line arrays and written only where it applies, kind after kind, so each line's
     notes come in the order of :func:`line_notes`."""
-    lines, us, layers = ctx.lines, ctx.us, res.values["layers"]
-    th, interface = rep.chosen_th, res.values["interface_temperature"]
-    for i in idx:
-        L = lines[i]
-        layers[i] = layers_text(th[i], L.materials, us, interface[i], L.series)
+    _layers(ctx, rep, res, idx)
     unmet = ch.unmet[idx]
     for i in idx[unmet]:
         _unmet(ctx, judged, ch, res, i)
@@ -38,6 +34,24 @@ def lines_notes(ctx: Context, judged: dict[str, Judgement], ch, rep, res, idx: n
     _target_notes(ctx, judged, ch, res, met)
     _balance_notes(ctx, ch, rep, res, met)
     _surface_notes(ctx, ch, rep, res, met)
+
+
+def _layers(ctx: Context, rep, res, idx: np.ndarray) -> None:
+    """'Layers' of the lines ``idx``; a one-material line's words (no interface temperature in
+    them) worked out once per thickness and material."""
+    lines, us, layers = ctx.lines, ctx.us, res.values["layers"]
+    th, interface = rep.chosen_th, res.values["interface_temperature"]
+    rows, seen = th.tolist(), {}
+    for i in idx:
+        L = lines[i]
+        if len(L.materials) > 1:
+            layers[i] = layers_text(th[i], L.materials, us, interface[i], L.series)
+            continue
+        key = (*rows[i][:len(L.materials)], *map(id, L.materials))  # the words read no other slot
+        text = seen.get(key)
+        if text is None:
+            text = seen[key] = layers_text(th[i], L.materials, us, interface[i], L.series)
+        layers[i] = text
 
 
 def _note(ctx: Context, res, i: int, level: str, code: str, message: str, key: str = "tag") -> None:
