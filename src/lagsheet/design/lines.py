@@ -1,8 +1,11 @@
 """One line's inputs resolved to what the engine needs: shape, dimensions, conditions,
 materials and candidates, with a note for every problem.
 
-A plain loop over lines (resolving names and choices, not physics); the engine then
-solves every line at once.
+A plain loop over lines (resolving names and choices, not physics) on what is worked
+out once per column (:class:`Columns`: each column's numbers and texts as lists, each
+distinct shape word, 'Condition' text, material pair, finish, size and set of sold
+thicknesses once, which lines give any process, tracing or target column); the engine
+then solves every line at once.
 """
 
 from __future__ import annotations
