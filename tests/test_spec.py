@@ -173,3 +173,22 @@ def test_a_materials_sheet_overrides_the_built_in_curve(tmp_path):
     _, (a,) = run(tmp_path, [row], "a.xlsx", sheets={"Materials": low})
     _, (b,) = run(tmp_path, [row], "b.xlsx", sheets={"Materials": high})
     assert b["results"]["heat_loss_W"] > 3 * a["results"]["heat_loss_W"]
+
+
+def test_tags_are_compared_as_fold_compares_names(tmp_path):
+    """A repeated tag is found whatever its case and whitespace (any Unicode space), as headers
+    and names are matched (io.table.fold): resolve's uncached fold of tags agrees with it."""
+    import re
+    import sys
+
+    from lagsheet.design.lines import _fold_tag
+    from lagsheet.io.table import fold
+
+    spaces = [chr(c) for c in range(sys.maxunicode + 1) if chr(c).isspace() or re.fullmatch(r"\s", chr(c))]
+    assert len(spaces) > 20
+    for c in spaces:
+        text = f"{c}Ab{c}{c}C{c} d"
+        assert _fold_tag(text) == fold(text), repr(c)
+    _, lines = run(tmp_path, [pipe("Line  A-1"), pipe("line\u00a0a-1"), pipe("line a-2")])
+    assert [x["status"] for x in lines] == ["ok", "error", "ok"]
+    assert lines[1]["notes"][-1]["code"] == "duplicate-tag"

@@ -71,8 +71,9 @@ STEEL_CP = 490.0  # J/(kg·K), carbon steel near 20 °C (handbook value, from me
 SELECT_NODES = 8  # Gauss–Legendre nodes when judging every candidate (24 for the reported value)
 STEAM_TOLERANCE_K = 2.0  # operating temperature vs saturation before a warning (our choice)
 DEFAULT_SCHEDULE = "40"
-
-
+# the columns resolve_process reads (as numbers, as text): a line with none of them given has no process inputs
+PROCESS_NUMBERS = ("flow_rate", "max_temperature_drop", "freeze_protection", "hold_time", "operating_pressure")
+PROCESS_TEXTS = ("part_of", "fluid")
 
 @dataclass
 class Process:

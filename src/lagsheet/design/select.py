@@ -105,8 +105,7 @@ def _specify(inputs: Inputs) -> Results:
     rep = _solve_chosen(ctx, base, ch, res, hours)
     tracing.add_fittings(ctx, rep, res)
     _values(ctx, ch, rep, res, cost[np.arange(n), ch.pick])
-    for i in np.flatnonzero(rep.put):
-        notes.line_notes(ctx, judged, ch, rep, res, i)
+    notes.lines_notes(ctx, judged, ch, rep, res, np.flatnonzero(rep.put))
     sun.notes(ctx, ch, res)
     limits.results(ctx, rep.put, rep.chosen_th, rep.loss, res)
     tracing.tracing(ctx, rep, res)

@@ -35,6 +35,8 @@ from .process import coldest_cases
 
 TRACED = ("pipe", "riser")  # shapes with a duty per metre and fittings on a run of pipe
 ITEM_COLUMNS = (("valve", "valves"), ("flange", "flanges"), ("support", "supports"))
+# the columns check reads (as numbers): a line with none of them given takes :func:`untraced`
+COLUMNS = ("maintain_temperature", *(key for _, key in ITEM_COLUMNS), "heat_loss_allowance")
 FREEZE_HOLD = 278.15  # K: 5 °C, the usual maintain temperature of freeze protection (common practice)
 
 
@@ -56,6 +58,13 @@ def check(L, cells, us: bool, table: tuple = fitting_rows.BUILTIN) -> None:
     L.l_eq = (_sum_lengths(L, cells, table, True), _sum_lengths(L, cells, table, False))
     allowance = cells.num("heat_loss_allowance")
     L.allowance = allowance if np.isfinite(allowance) else float(cells.settings["heat_loss_allowance"])
+
+
+def untraced(L, settings: dict) -> None:
+    """What :func:`check` gives a line with none of :data:`COLUMNS` given: no fittings, the
+    setting's allowance."""
+    L.l_eq = (0.0, 0.0)
+    L.allowance = float(settings["heat_loss_allowance"])
 
 
 def _maintain(L, cells, us: bool) -> None:
