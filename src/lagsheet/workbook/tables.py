@@ -215,8 +215,9 @@ def read_table(sheet: RawSheet, fields, marker: str, mapping: dict[str, str] | N
     t.rows = _data_rows(sheet, first, [c.col for c in cols.values()])
     t.bad = np.zeros(len(t.rows), dtype=bool)
     t.columns = cols
+    column = _columns(sheet, t.rows)
     for c in cols.values():
-        _convert(sheet, t, c)
+        _convert(sheet, t, c, column(c.col))
     return t
 
 
@@ -272,14 +273,20 @@ def _data_rows(sheet: RawSheet, first: int, cols: list[int]) -> list[int]:
     return rows
 
 
-def _column(sheet: RawSheet, rows: list[int], col: int) -> list:
-    """``sheet.value(r, col)`` for every row of ``rows`` ('' read as None)."""
+def _columns(sheet: RawSheet, rows: list[int]):
+    """A function of a column: ``sheet.value(r, col)`` for every row of ``rows`` ('' read as None).
+    The rows are looked up once for all the columns."""
     lines = list(map(sheet.grid.__getitem__, rows))
-    if min(map(len, lines), default=col + 1) > col:  # every row reaches the column (calamine's grid)
-        cells = list(map(itemgetter(col), lines))
-    else:
-        cells = [row[col] if col < len(row) else None for row in lines]
-    return [None if v == "" else v for v in cells]
+    reach = min(map(len, lines), default=0)
+
+    def column(col: int) -> list:
+        if col < reach or not lines:  # every row reaches the column (calamine's grid)
+            cells = list(map(itemgetter(col), lines))
+        else:
+            cells = [row[col] if col < len(row) else None for row in lines]
+        return [None if v == "" else v for v in cells]
+
+    return column
 
 
 def shown(v) -> str:
@@ -326,10 +333,10 @@ def _parses(v) -> bool:
         return False
 
 
-def _convert(sheet: RawSheet, t: Table, c: Column) -> None:
-    """Read column ``c`` of ``t``'s rows into ``c.values`` (SI floats, or text), noting each cell in doubt."""
+def _convert(sheet: RawSheet, t: Table, c: Column, raw: list) -> None:
+    """Read column ``c`` of ``t``'s rows (``raw``, '' read as None) into ``c.values`` (SI floats,
+    or text), noting each cell in doubt."""
     f = c.field
-    raw = _column(sheet, t.rows, c.col)
     here = address(t.header_row, c.col)
     if sheet.uncached:
         _uncached_formulas(sheet, t, c)
