@@ -9,7 +9,8 @@ from __future__ import annotations
 import datetime as dt
 import re
 from dataclasses import dataclass, field, replace
-from operator import itemgetter
+from itertools import repeat
+from operator import is_not, itemgetter
 from typing import Any
 
 import numpy as np
@@ -398,9 +399,14 @@ def _number_column(sheet: RawSheet, t: Table, c: Column, raw: list) -> None:
     difference = f.kind == schema.DIFFERENCE
     # numbers as they are (float or int cells); every other cell is looked at below, in order
     nan = np.nan
-    nums = np.array([v if type(v) is float else float(v) if type(v) is int else nan for v in raw], dtype=float)
-    plain = [i for i, v in enumerate(raw) if type(v) is float or type(v) is int]
-    others = [i for i, v in enumerate(raw) if v is not None and type(v) is not float and type(v) is not int]
+    floats = _floats(raw)
+    if floats is not None:  # the usual column: floats and empty cells only, read a column at a time
+        nums, present = floats
+        plain, others = np.flatnonzero(present).tolist(), []
+    else:
+        nums = np.array([v if type(v) is float else float(v) if type(v) is int else nan for v in raw], dtype=float)
+        plain = [i for i, v in enumerate(raw) if type(v) is float or type(v) is int]
+        others = [i for i, v in enumerate(raw) if v is not None and type(v) is not float and type(v) is not int]
     if sheet.percent and plain:
         raw = _percent_cells(sheet, t, c, plain, raw, nums)
     for i in others:
@@ -418,6 +424,20 @@ def _number_column(sheet: RawSheet, t: Table, c: Column, raw: list) -> None:
     _out_of_range(sheet, t, c, raw, nums)
     c.values = nums
     _plausibility(sheet, t, c, raw, nums)
+
+
+_EMPTY_NAN = {None: np.nan}
+
+
+def _floats(raw: list) -> tuple[np.ndarray, np.ndarray] | None:
+    """(the values, NaN where empty; which cells are not empty) when every cell of ``raw`` is a
+    float or empty (None), else None; with no Python work per cell."""
+    n = len(raw)
+    types = list(map(type, raw))
+    if types.count(float) + types.count(type(None)) != n:
+        return None
+    values = np.array(list(map(_EMPTY_NAN.get, raw, raw)), dtype=float)
+    return values, np.fromiter(map(is_not, raw, repeat(None)), dtype=bool, count=n)
 
 
 def _other_cell(sheet: RawSheet, t: Table, c: Column, i: int, v, nums) -> float | None:
@@ -489,8 +509,12 @@ def _out_of_range(sheet: RawSheet, t: Table, c: Column, raw: list, nums) -> None
     """An error on each cell whose SI value is outside the field's range (its value becomes NaN)."""
     f = c.field
     # a cell is range-checked when it holds something that gave a number (or is a float: NaN)
-    looked = np.array([v is not None for v in raw], dtype=bool)
-    looked &= ~np.isnan(nums) | np.array([isinstance(v, float) for v in raw], dtype=bool)
+    floats = _floats(raw)
+    if floats is not None:  # every cell not empty is a float
+        looked = floats[1]
+    else:
+        looked = np.array([v is not None for v in raw], dtype=bool)
+        looked &= ~np.isnan(nums) | np.array([isinstance(v, float) for v in raw], dtype=bool)
     with np.errstate(invalid="ignore"):
         out_of_range = ~np.isfinite(nums)
         if f.minimum is not None:
@@ -530,8 +554,10 @@ def _plausibility(sheet: RawSheet, t: Table, c: Column, raw, nums) -> None:
     from . import plausibility
 
     key = c.field.key
-    written = np.array([v if type(v) is float else float(v) if isinstance(v, (int, float)) and not isinstance(v, bool)
-                        else np.nan for v in raw], dtype=float)
+    floats = _floats(raw)
+    written = floats[0] if floats is not None else np.array(
+        [v if type(v) is float else float(v) if isinstance(v, (int, float)) and not isinstance(v, bool)
+         else np.nan for v in raw], dtype=float)
     hint = plausibility.suggest(key, str(c.unit), written, nums)
     if hint:
         c.status = "warning" if c.status == "ok" else c.status
