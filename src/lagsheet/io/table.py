@@ -11,6 +11,7 @@ import re
 from collections.abc import Container, Iterable, Iterator, Mapping, MutableMapping
 from dataclasses import dataclass, field
 from functools import lru_cache
+from operator import itemgetter
 from pathlib import Path
 from typing import Any, Protocol
 
@@ -42,6 +43,9 @@ def _fold(text: str) -> str:
     return " ".join(text.split()).lower()
 
 
+_EMPTY = frozenset(("", None))
+
+
 @dataclass
 class RawSheet:
     name: str
@@ -62,6 +66,16 @@ class RawSheet:
 
     def used_width(self) -> int:
         """Columns up to the last one holding anything."""
+        grid = self.grid
+        widths = set(map(len, grid))
+        if len(widths) == 1:  # every row as long (calamine's grid): the columns from the right, whole
+            try:
+                for c in range(widths.pop() - 1, -1, -1):
+                    if not set(map(itemgetter(c), grid)) <= _EMPTY:
+                        return c + 1
+                return 0
+            except TypeError:  # an unhashable cell value (not from a workbook reader): row by row
+                pass
         last = 0
         for r in self.grid:
             for c in range(len(r) - 1, -1, -1):
