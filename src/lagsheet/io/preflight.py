@@ -31,7 +31,11 @@ lagsheet patches (its patterns then only ever meet real tags), cells, rows, colu
 table row counts outside ``XFD1048576``, and a shared-strings count larger than its part can
 hold; it returns each sheet's value count and the rectangle from A1 its values span, which
 :meth:`SheetStats.too_big` judges before calamine fills that rectangle (all tables of an
-``.ods`` at once, since calamine reads them all when it opens the file).
+``.ods`` at once, since calamine reads them all when it opens the file). A worksheet whose rows
+are in the plain form spreadsheet programs write has them counted by numpy instead of element by
+element (:func:`_plain_sheet`, io/sheetrows.py: the same statistics, the XML still checked whole
+by expat); a part in any other form, or with any fault, is scanned again element by element
+(at most twice the time), which says what is wrong.
 
 The limits are generous for real schedules: a filled 50,000-line schedule has a sheet
 part of about 70 MB at 6.5:1, comments at 50:1 and notes drawings at 40:1.
