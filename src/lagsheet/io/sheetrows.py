@@ -1,6 +1,6 @@
-"""The rows of a worksheet part, read a block at a time with numpy: what preflight's content scan
-needs of them (the value cells, in order, with their row and column), with no Python work per
-element.
+"""The rows of a worksheet part, read with numpy, with no Python work per element: what
+preflight's content scan needs of them (the value cells, in order, with their row and column,
+a block at a time), and the formula cells with no cached value (:func:`uncached_formulas`).
 
 It reads one plain form only, the one spreadsheet programs and libraries write: every ``<``
 opens a tag (no comment, CDATA section or processing instruction among the rows), element
@@ -15,6 +15,7 @@ before; this reader only learns where the values are.
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 
 import numpy as np
@@ -150,3 +151,113 @@ def _cells(a: np.ndarray, cpos: np.ndarray, digits: np.ndarray) -> np.ndarray:
     if np.any(col > SHEET_COLS):
         raise Unusual("a column outside the sheet")
     return col
+
+
+_C_TAG = re.compile(rb"</?(?:[^\s/>:]*:)?c[\s/>]")  # a start or end tag whose local name is 'c'
+_V_TAG = re.compile(rb"<(?:[^\s/>:]*:)?v[\s/>]")  # a start tag whose local name is 'v'
+
+
+def uncached_formulas(data: bytes) -> set[tuple[int, int]] | None:
+    """0-based (row, column) of the formula cells with no cached value of a whole sheet part, as
+    :func:`lagsheet.io.xlsx._uncached_formulas` finds them element by element, or None when the
+    sheet is not in the plain form read here: every cell element among the rows written
+    ``<c r="A1"`` and closed before the next one starts (or empty, ``<c .../>``), with no
+    quote but double quotes in its start tag; every ``v`` element ``<v>text</v>`` or ``<v/>``;
+    no cell element before or after the rows. A cell counts when an ``f`` element lies inside it
+    and no ``v`` element inside it holds text."""
+    i, j = data.find(b"<sheetData>"), data.find(b"</sheetData>")
+    if i < 0 or j < i or _C_TAG.search(data, 0, i) or _C_TAG.search(data, j) or _V_TAG.search(data, 0, i):
+        return None  # (a v element around the rows would make all their text count as cached values)
+    try:
+        return _uncached_rows(data[i + len(b"<sheetData>"):j])
+    except Unusual:
+        return None
+
+
+def _uncached_rows(data: bytes) -> set[tuple[int, int]]:
+    n, o = len(data), len(_PAD)
+    a = np.frombuffer(_PAD + data + _PAD, dtype=np.uint8)
+    lt = np.flatnonzero(a[o:o + n] == 60) + o
+    after = a[lt + 1]
+    if np.any((after == 33) | (after == 63)):
+        raise Unusual("a comment, section or instruction among the rows")
+    _no_prefixes(a, o, n)
+    end_tag = after == 47
+    b1, b2 = a[lt + 1 + end_tag], a[lt + 2 + end_tag]
+    one = _DELIM[b2]
+    cs = lt[~end_tag & one & (b1 == ord("c"))]  # cell starts
+    ce = lt[end_tag & one & (b1 == ord("c"))]  # cell ends
+    fs = lt[~end_tag & one & (b1 == ord("f"))]
+    vs = lt[~end_tag & one & (b1 == ord("v"))]
+    row, col = _cell_refs(a, cs)
+    close = _tag_ends(a, o, n, cs)  # the '>' of each cell's start tag
+    empty = a[close - 1] == 47
+    full = np.flatnonzero(~empty)
+    k = np.searchsorted(ce, cs[full])
+    if ce.size != full.size or np.any(k != np.arange(full.size)):
+        raise Unusual("a cell element inside another")
+    stop = close.copy()  # where each cell ends
+    stop[full] = ce
+    following = np.append(cs[1:], np.iinfo(np.int64).max)
+    if np.any(stop > following):
+        raise Unusual("a cell element inside another")
+    has_f = _inside(fs, cs, stop)
+    at = np.searchsorted(lt, vs, side="right")
+    if np.any(at >= lt.size):
+        raise Unusual("a v element left open")
+    nxt = lt[at]  # the '<' after each <v>
+    plain_v = (a[vs + 2] == 62) | ((a[vs + 2] == 47) & (a[vs + 3] == 62))
+    if not plain_v.all() or np.any((a[vs + 2] == 62) & ((a[nxt + 1] != 47) | (a[nxt + 2] != ord("v")))):
+        raise Unusual("a v element that is not <v>text</v> or <v/>")
+    texted = vs[(a[vs + 2] == 62) & (nxt > vs + 3)]
+    has_v = _inside(texted, cs, stop)
+    hit = np.flatnonzero(has_f & ~has_v)
+    return set(zip((row[hit] - 1).tolist(), (col[hit] - 1).tolist(), strict=True))
+
+
+def _inside(pos: np.ndarray, cs: np.ndarray, stop: np.ndarray) -> np.ndarray:
+    """For each cell (start ``cs``, end ``stop``), whether one of ``pos`` lies inside it."""
+    out = np.zeros(cs.size, dtype=bool)
+    if pos.size and cs.size:
+        k = np.searchsorted(cs, pos) - 1
+        ok = k >= 0
+        k = k[ok]
+        out[k[pos[ok] < stop[k]]] = True
+    return out
+
+
+def _cell_refs(a: np.ndarray, cs: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(row, column), 1-based, of the cell elements at ``cs``, each ``<c r="AB12"``."""
+    w = sliding_window_view(a, 16)[cs + 2]
+    if not (w[:, :4] == _R_EQ).all():
+        raise Unusual("a cell without its reference first")
+    x = w[:, 4:]
+    idx = np.arange(x.shape[1])
+    nl = _CAPITAL[x].argmin(axis=1)
+    if np.any((nl < 1) | (nl > 3)):
+        raise Unusual("an unusual column reference")
+    end = (~_DIGIT[x] & (idx >= nl[:, None])).argmax(axis=1)
+    nd = end - nl
+    line = np.arange(len(x))
+    if not np.all((nd >= 1) & (nd <= 7) & (x[line, end] == 34) & (x[line, nl] != 48)):
+        raise Unusual("an unusual row number")
+    places = end[:, None] - 1 - idx
+    digits = (places >= 0) & (idx >= nl[:, None])
+    row = ((x.astype(np.int64) - 48) * np.where(digits, _TENS[np.clip(places, 0, 7)], 0)).sum(axis=1)
+    l0, l1, l2 = (x[:, :3].astype(np.int64) - 64).T
+    col = np.where(nl == 1, l0, np.where(nl == 2, l0 * 26 + l1, (l0 * 26 + l1) * 26 + l2))
+    return row, col
+
+
+def _tag_ends(a: np.ndarray, o: int, n: int, starts: np.ndarray) -> np.ndarray:
+    """The '>' ending each start tag at ``starts``: the first '>' after it, with an even number of
+    double quotes between (no single quote there): otherwise Unusual."""
+    gt = np.flatnonzero(a[o:o + n] == 62) + o
+    quote = np.flatnonzero(a[o:o + n] == 34) + o
+    close = gt[np.searchsorted(gt, starts)]
+    if np.any((np.searchsorted(quote, close) - np.searchsorted(quote, starts)) % 2):
+        raise Unusual("a '>' inside an attribute value")
+    apos = np.flatnonzero(a[o:o + n] == 39) + o
+    if apos.size and np.any(np.searchsorted(apos, close) != np.searchsorted(apos, starts)):
+        raise Unusual("a single-quoted attribute")
+    return close
