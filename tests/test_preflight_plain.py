@@ -166,3 +166,22 @@ def test_random_plain_sheets_give_the_same_statistics(rows, block, monkeypatch):
     sheet = HEAD + _rows(rows) + TAIL
     assert _plain(sheet)
     _same(sheet, monkeypatch)
+
+
+def test_long_heads_and_long_rows_are_read_in_pieces_the_same(monkeypatch):
+    """<sheetData> after several chunks (many column widths); a row longer than a block; a sheet
+    whose rows start only in its last chunk."""
+    def cols(n):
+        return "<cols>" + "".join(f'<col min="{i}" max="{i}" width="9"/>' for i in range(1, n)) + "</cols>"
+
+    wide = [(1, [(c, "s" if c % 3 else "n") for c in range(1, 16000, 2)]), (2, [(3, "n")])]
+    for head, rows in ((HEAD.replace("<sheetData>", cols(4000) + "<sheetData>"), PLAIN["values of every kind"]),
+                       (HEAD, wide), (HEAD.replace("<sheetData>", cols(2200) + "<sheetData>"), [])):
+        sheet = head + _rows(rows) + TAIL
+        assert len(sheet) > 65536 and _plain(sheet)
+        _same(sheet, monkeypatch)
+    monkeypatch.setattr(preflight, "_PLAIN_BLOCK", 30_000)
+    monkeypatch.setattr(preflight, "_PLAIN_ROW", 100_000)  # a row longer than that: the element scan
+    sheet = HEAD + _rows(wide) + TAIL
+    assert not _plain(sheet)
+    _same(sheet, monkeypatch)

@@ -626,7 +626,7 @@ def _scan_content(zf: zipfile.ZipFile, infos: list[zipfile.ZipInfo], name: str, 
 PLAIN_SHEETS = True  # read worksheets in the plain form by numpy (tests compare both ways)
 _PLAIN_HEAD = 8 * 2**20  # bytes before <sheetData> that the plain scan holds, at most
 _PLAIN_BLOCK = 2**20  # bytes of rows read at once
-_PLAIN_ROW = 32 * 2**20  # ... and the longest row it waits for
+_PLAIN_ROW = 16 * 2**20  # ... and the longest row it waits for
 
 
 def _plain_sheet(zf: zipfile.ZipFile, info: zipfile.ZipInfo, total: int) -> dict[str, SheetStats] | None:
@@ -659,30 +659,36 @@ class _SheetRows:
         self.scan, self.phase, self.done = scan, "head", False
         self.pending: list[bytes] = []
         self.size = 0
+        self.wait = 0  # bytes to hold before looking again (twice what was looked at: linear time)
 
     def feed(self, chunk: bytes, final: bool = False) -> None:
-        if self.phase == "head":
+        phase = self.phase
+        if phase == "head":
             self._head(chunk)
-        elif self.phase == "rows":
+        elif phase == "rows":
             self._rows(chunk, final)
-            if self.phase == "tail" and final:
-                self.scan.feed(b"", True)
         else:
             self.scan.feed(chunk, final)
         if final:
+            if self.phase == "rows":  # the rows began with this last look
+                self._rows(b"", True)
             if self.phase != "tail":
                 raise _NotPlain
+            if phase != "tail":  # ... or the text after them
+                self.scan.feed(b"", True)
             self.done = True
 
     def _head(self, chunk: bytes) -> None:
         self.pending.append(chunk)
         self.size += len(chunk)
+        if self.size < self.wait and chunk:
+            return
         head = b"".join(self.pending)
         i = head.find(b"<sheetData")
         if i < 0:
-            if self.size > _PLAIN_HEAD:
+            if self.size > _PLAIN_HEAD or not chunk:
                 raise _NotPlain
-            self.pending, self.size = [head], len(head)
+            self.pending, self.size, self.wait = [head], len(head), 2 * len(head)
             return
         j = i + len(b"<sheetData>")
         if head[i:j] != b"<sheetData>":
@@ -692,13 +698,13 @@ class _SheetRows:
         if getattr(s, "sheet", None) is None or s.p.StartElementHandler != s._sheet:
             raise _NotPlain
         self.state = (s.row, s.col, s.cell, s.row_text)
-        self.phase, self.pending, self.size = "rows", [], 0
+        self.phase, self.pending, self.size, self.wait = "rows", [], 0, _PLAIN_BLOCK
         self._rows(head[j:], False)
 
     def _rows(self, chunk: bytes, final: bool) -> None:
         self.pending.append(chunk)
         self.size += len(chunk)
-        if self.size < _PLAIN_BLOCK and not final:
+        if self.size < self.wait and not final:
             return
         data = b"".join(self.pending)
         end = data.find(b"</sheetData>")
@@ -713,10 +719,10 @@ class _SheetRows:
         if cut <= 0:
             if len(data) > _PLAIN_ROW:
                 raise _NotPlain
-            self.pending, self.size = [data], len(data)
+            self.pending, self.size, self.wait = [data], len(data), 2 * len(data)
             return
         self._block(data[:cut])
-        self.pending, self.size = [data[cut:]], len(data) - cut
+        self.pending, self.size, self.wait = [data[cut:]], len(data) - cut, _PLAIN_BLOCK
 
     def _block(self, data: bytes) -> None:
         """Count the value cells of whole rows as _PartScan._sheet would, and move to the last row."""
