@@ -4,7 +4,7 @@ a block at a time), and the formula cells with no cached value (:func:`uncached_
 
 It reads one plain form only, the one spreadsheet programs and libraries write: every ``<``
 opens a tag (no comment, CDATA section or processing instruction among the rows), element
-names without a prefix and shorter than 11 characters, every row written ``<row r="N"`` and
+names without a prefix, every row written ``<row r="N"`` and
 every cell ``<c r="A1"`` (the reference in capitals, in its row), ``v``, ``is`` and ``f``
 elements only inside a cell, and no ``col`` or ``dimension`` element among them. Anything
 else raises :class:`Unusual`, and the scan reads the part element by element instead
@@ -33,7 +33,6 @@ _STOP[ord("<")] = True
 _DIGIT = np.zeros(256, dtype=bool)
 _DIGIT[list(range(48, 58))] = True
 _R_EQ = np.frombuffer(b' r="', dtype=np.uint8)
-_DIMENSION = np.frombuffer(b"dimension", dtype=np.uint8)
 _TENS = 10 ** np.arange(8, dtype=np.int64)
 
 
