@@ -274,6 +274,9 @@ def _data_rows(sheet: RawSheet, first: int, cols: list[int]) -> list[int]:
     return rows
 
 
+_BLANK = {"": None}
+
+
 def _columns(sheet: RawSheet, rows: list[int]):
     """A function of a column: ``sheet.value(r, col)`` for every row of ``rows`` ('' read as None).
     The rows are looked up once for all the columns."""
@@ -285,7 +288,10 @@ def _columns(sheet: RawSheet, rows: list[int]):
             cells = list(map(itemgetter(col), lines))
         else:
             cells = [row[col] if col < len(row) else None for row in lines]
-        return [None if v == "" else v for v in cells]
+        try:  # '' read as None, a column at a time ({'': None}.get(v, v) is None exactly where v == '')
+            return list(map(_BLANK.get, cells, cells))
+        except TypeError:  # an unhashable value (not from a workbook reader)
+            return [None if v == "" else v for v in cells]
 
     return column
 
@@ -401,14 +407,16 @@ def _number_column(sheet: RawSheet, t: Table, c: Column, raw: list) -> None:
     nan = np.nan
     floats = _floats(raw)
     if floats is not None:  # the usual column: floats and empty cells only, read a column at a time
-        nums, present = floats
-        plain, others = np.flatnonzero(present).tolist(), []
+        nums = floats[0].copy()
+        plain, others = np.flatnonzero(floats[1]).tolist(), []
     else:
         nums = np.array([v if type(v) is float else float(v) if type(v) is int else nan for v in raw], dtype=float)
         plain = [i for i, v in enumerate(raw) if type(v) is float or type(v) is int]
         others = [i for i, v in enumerate(raw) if v is not None and type(v) is not float and type(v) is not int]
     if sheet.percent and plain:
-        raw = _percent_cells(sheet, t, c, plain, raw, nums)
+        read = _percent_cells(sheet, t, c, plain, raw, nums)
+        if read is not raw:
+            raw, floats = read, None
     for i in others:
         number = _other_cell(sheet, t, c, i, raw[i], nums)
         if number is not None:
@@ -421,9 +429,9 @@ def _number_column(sheet: RawSheet, t: Table, c: Column, raw: list) -> None:
         out = np.full(len(idx), np.nan)
         out[finite] = to_si(vals[finite], c.unit, c.si_unit, difference=difference)
         nums[idx] = out
-    _out_of_range(sheet, t, c, raw, nums)
+    _out_of_range(sheet, t, c, raw, nums, floats)
     c.values = nums
-    _plausibility(sheet, t, c, raw, nums)
+    _plausibility(sheet, t, c, raw, nums, floats)
 
 
 _EMPTY_NAN = {None: np.nan}
@@ -505,11 +513,11 @@ def _quantity_text(sheet: RawSheet, t: Table, c: Column, i: int, v: str, nums) -
     return None
 
 
-def _out_of_range(sheet: RawSheet, t: Table, c: Column, raw: list, nums) -> None:
+def _out_of_range(sheet: RawSheet, t: Table, c: Column, raw: list, nums, floats=None) -> None:
     """An error on each cell whose SI value is outside the field's range (its value becomes NaN)."""
     f = c.field
     # a cell is range-checked when it holds something that gave a number (or is a float: NaN)
-    floats = _floats(raw)
+    floats = floats or _floats(raw)  # (``floats``: _floats(raw) if the caller has it)
     if floats is not None:  # every cell not empty is a float
         looked = floats[1]
     else:
@@ -549,12 +557,12 @@ def _percent_cells(sheet: RawSheet, t: Table, c: Column, plain: list[int], raw: 
     return raw
 
 
-def _plausibility(sheet: RawSheet, t: Table, c: Column, raw, nums) -> None:
+def _plausibility(sheet: RawSheet, t: Table, c: Column, raw, nums, floats=None) -> None:
     """Column-level: do the values suggest another unit? Cell-level: outside the plausible range?"""
     from . import plausibility
 
     key = c.field.key
-    floats = _floats(raw)
+    floats = floats or _floats(raw)  # (``floats``: _floats(raw) if the caller has it)
     written = floats[0] if floats is not None else np.array(
         [v if type(v) is float else float(v) if isinstance(v, (int, float)) and not isinstance(v, bool)
          else np.nan for v in raw], dtype=float)
