@@ -31,7 +31,11 @@ lagsheet patches (its patterns then only ever meet real tags), cells, rows, colu
 table row counts outside ``XFD1048576``, and a shared-strings count larger than its part can
 hold; it returns each sheet's value count and the rectangle from A1 its values span, which
 :meth:`SheetStats.too_big` judges before calamine fills that rectangle (all tables of an
-``.ods`` at once, since calamine reads them all when it opens the file).
+``.ods`` at once, since calamine reads them all when it opens the file). A worksheet whose rows
+are in the plain form spreadsheet programs write has them counted by numpy instead of element by
+element (:func:`_plain_sheet`, io/sheetrows.py: the same statistics, the XML still checked whole
+by expat); a part in any other form, or with any fault, is scanned again element by element
+(at most twice the time), which says what is wrong.
 
 The limits are generous for real schedules: a filled 50,000-line schedule has a sheet
 part of about 70 MB at 6.5:1, comments at 50:1 and notes drawings at 40:1.
@@ -48,6 +52,8 @@ import zipfile
 from dataclasses import dataclass, field
 from pathlib import Path
 from xml.parsers import expat
+
+import numpy as np
 
 from ..errors import WorkbookError
 
@@ -331,6 +337,10 @@ def _q(text: str) -> str:
     return "'" + str(text).replace("\\", "/") + "'"
 
 
+class _NotPlain(Exception):
+    """A part the plain-sheet scan does not read (see _plain_sheet)."""
+
+
 class _Refuse(Exception):
     def __init__(self, message: str):
         super().__init__(message)
@@ -356,11 +366,15 @@ class _PartScan:
     """Streams one XML part through expat: UTF-8 only, no DTD, no markup inside comments,
     and, by its root element, the statistics of a sheet, shared strings or an ods content part."""
 
-    def __init__(self, part: str, size: int, package_size: int, ods: bool, legacy_dtd: bool):
+    def __init__(self, part: str, size: int, package_size: int, ods: bool, legacy_dtd: bool, *,
+                 plain_sheet: bool = False):
         self.part, self.size, self.package_size, self.ods, self.legacy_dtd = part, size, package_size, ods, legacy_dtd
+        self.plain_sheet = plain_sheet  # only check the XML of a worksheet (see _plain_sheet); refuse any other part
         self.root: str | None = None
         self.stats: dict[str, SheetStats] = {}
         self.p = p = expat.ParserCreate()
+        if hasattr(p, "SetReparseDeferralEnabled"):  # expat 2.6+: every complete element seen when fed
+            p.SetReparseDeferralEnabled(False)
         p.buffer_text = True
         p.StartDoctypeDeclHandler = self._doctype
         p.EntityDeclHandler = self._entity
@@ -396,7 +410,11 @@ class _PartScan:
 
     def _first(self, name, attrs):
         self.root = local = name.rpartition(":")[2]
-        if local == "worksheet" and not self.ods:
+        if self.plain_sheet:
+            if name != "worksheet":
+                raise _NotPlain
+            self.p.StartElementHandler = None
+        elif local == "worksheet" and not self.ods:
             self.sheet = SheetStats()
             self.stats[self.part] = self.sheet
             self.row, self.col, self.cell, self.row_text = 0, 0, False, "0"
@@ -579,6 +597,11 @@ def _scan_content(zf: zipfile.ZipFile, infos: list[zipfile.ZipInfo], name: str, 
         if info.is_dir() or not low.endswith(_XML_PARTS):
             continue
         legacy = ods and part == "META-INF/manifest.xml"
+        if not ods and not low.endswith(".vml"):
+            stats = _plain_sheet(zf, info, total)
+            if stats is not None:
+                scan.sheets.update(stats)
+                continue
         ps = _PartScan(part, info.file_size, total, ods, legacy) if not low.endswith(".vml") else None
         where = f"part {_q(part)}"
         try:
@@ -600,9 +623,135 @@ def _scan_content(zf: zipfile.ZipFile, infos: list[zipfile.ZipInfo], name: str, 
     return scan
 
 
-def _stream_part(zf: zipfile.ZipFile, info: zipfile.ZipInfo, ps) -> None:
-    """Read one part in chunks, decoding it as UTF-8 and feeding it to ``ps`` (if any); raises
-    UnicodeDecodeError, expat.ExpatError or _Refuse."""
+PLAIN_SHEETS = True  # read worksheets in the plain form by numpy (tests compare both ways)
+_PLAIN_HEAD = 8 * 2**20  # bytes before <sheetData> that the plain scan holds, at most
+_PLAIN_BLOCK = 2**20  # bytes of rows read at once
+_PLAIN_ROW = 16 * 2**20  # ... and the longest row it waits for
+
+
+def _plain_sheet(zf: zipfile.ZipFile, info: zipfile.ZipInfo, total: int) -> dict[str, SheetStats] | None:
+    """The statistics of a worksheet part, with its rows read by numpy (io/sheetrows.py), or None
+    when the part must be scanned element by element (:class:`_PartScan`): it is no worksheet, or
+    not in the plain form, or anything at all is wrong with it (that scan then says what).
+
+    The part is streamed once through expat with no handler per element (the XML, its encoding,
+    DTD and comments are checked as by :class:`_PartScan`); the text before the rows and after
+    them goes through a :class:`_PartScan` of its own, which counts what it holds and takes the
+    rows' count and position where the rows end, as if it had read them itself.
+    """
+    if not PLAIN_SHEETS:
+        return None
+    xml = _PartScan(info.filename, info.file_size, total, False, False, plain_sheet=True)
+    rest = _PartScan(info.filename, info.file_size, total, False, False)
+    rows = _SheetRows(rest)
+    try:
+        _stream_part(zf, info, xml, rows)
+    except Exception:  # the element-by-element scan reads it again, and says what is wrong
+        return None
+    return rest.stats if rows.done and xml.root == "worksheet" else None
+
+
+class _SheetRows:
+    """Splits a worksheet part at its ``<sheetData>`` and ``</sheetData>``: the text around the
+    rows goes to ``scan`` (a :class:`_PartScan`), the rows to :func:`sheetrows.read_block`."""
+
+    def __init__(self, scan: _PartScan):
+        self.scan, self.phase, self.done = scan, "head", False
+        self.pending: list[bytes] = []
+        self.size = 0
+        self.wait = 0  # bytes to hold before looking again (twice what was looked at: linear time)
+
+    def feed(self, chunk: bytes, final: bool = False) -> None:
+        phase = self.phase
+        if phase == "head":
+            self._head(chunk)
+        elif phase == "rows":
+            self._rows(chunk, final)
+        else:
+            self.scan.feed(chunk, final)
+        if final:
+            if self.phase == "rows":  # the rows began with this last look
+                self._rows(b"", True)
+            if self.phase != "tail":
+                raise _NotPlain
+            if phase != "tail":  # ... or the text after them
+                self.scan.feed(b"", True)
+            self.done = True
+
+    def _head(self, chunk: bytes) -> None:
+        self.pending.append(chunk)
+        self.size += len(chunk)
+        if self.size < self.wait and chunk:
+            return
+        head = b"".join(self.pending)
+        i = head.find(b"<sheetData")
+        if i < 0:
+            if self.size > _PLAIN_HEAD or not chunk:
+                raise _NotPlain
+            self.pending, self.size, self.wait = [head], len(head), 2 * len(head)
+            return
+        j = i + len(b"<sheetData>")
+        if head[i:j] != b"<sheetData>":
+            raise _NotPlain
+        self.scan.feed(head[:j])  # at once: its elements are all seen before the rows are counted
+        s = self.scan
+        if getattr(s, "sheet", None) is None or s.p.StartElementHandler != s._sheet:
+            raise _NotPlain
+        self.state = (s.row, s.col, s.cell, s.row_text)
+        self.phase, self.pending, self.size, self.wait = "rows", [], 0, _PLAIN_BLOCK
+        self._rows(head[j:], False)
+
+    def _rows(self, chunk: bytes, final: bool) -> None:
+        self.pending.append(chunk)
+        self.size += len(chunk)
+        if self.size < self.wait and not final:
+            return
+        data = b"".join(self.pending)
+        end = data.find(b"</sheetData>")
+        if end >= 0:
+            self._block(data[:end])
+            s = self.scan
+            s.row, s.col, s.cell, s.row_text = self.state
+            self.phase, self.pending = "tail", []
+            self.scan.feed(data[end:])
+            return
+        cut = data.rfind(b"<row ")
+        if cut <= 0:
+            if len(data) > _PLAIN_ROW:
+                raise _NotPlain
+            self.pending, self.size, self.wait = [data], len(data), 2 * len(data)
+            return
+        self._block(data[:cut])
+        self.pending, self.size, self.wait = [data[cut:]], len(data) - cut, _PLAIN_BLOCK
+
+    def _block(self, data: bytes) -> None:
+        """Count the value cells of whole rows as _PartScan._sheet would, and move to the last row."""
+        from .sheetrows import Unusual, read_block
+
+        try:
+            b = read_block(data)
+        except Unusual:
+            raise _NotPlain from None
+        s = self.scan.sheet
+        if b.rows.size:
+            rows = np.maximum.accumulate(np.concatenate(([s.rows], b.rows)))[:-1]  # before each cell
+            cols = np.maximum.accumulate(np.concatenate(([s.cols], b.cols)))[:-1]
+            moved = np.flatnonzero((b.rows > rows) | (b.cols > cols))
+            if moved.size:
+                s.far = (int(b.rows[moved[-1]]), int(b.cols[moved[-1]]))
+            s.rows, s.cols = max(s.rows, int(b.rows.max())), max(s.cols, int(b.cols.max()))
+            s.cells += int(b.rows.size)
+        row, col, cell, row_text = self.state
+        if b.last_row is not None:
+            row, col, row_text = b.last_row, b.last_col, str(b.last_row)
+        if b.cells:
+            cell = not b.last_has_value
+        self.state = (row, col, cell, row_text)
+
+
+def _stream_part(zf: zipfile.ZipFile, info: zipfile.ZipInfo, ps, also=None) -> None:
+    """Read one part in chunks, decoding it as UTF-8 and feeding it to ``ps`` (if any) and then to
+    ``also`` (if any); raises UnicodeDecodeError, expat.ExpatError or _Refuse."""
     decoder = codecs.getincrementaldecoder("utf-8")()
     with zf.open(info) as fh:
         first = True
@@ -615,6 +764,8 @@ def _stream_part(zf: zipfile.ZipFile, info: zipfile.ZipInfo, ps) -> None:
             decoder.decode(chunk, not chunk)
             if ps is not None:
                 ps.feed(chunk, not chunk)
+            if also is not None:
+                also.feed(chunk, not chunk)
             if not chunk:
                 break
 

