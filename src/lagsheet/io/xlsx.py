@@ -678,6 +678,32 @@ class _Package:
         return self.out
 
 
+def _rows_in(inner: str, p: str):
+    """(start, the start tag's attributes text, (start, end) of its cells or None for ``<row/>``,
+    end) of every row of a sheet's ``sheetData`` text, as the pattern
+    ``<row(?=[\\s/>])([^>]*?)(/>|>(.*?)</row>)`` finds them (its rows, found with a search for
+    the start tag and one for the end tag instead of a lazy match over every character)."""
+    tag = re.compile(rf"<{re.escape(p)}row(?=[\s/>])([^>]*?)(/>|>)")
+    close = f"</{p}row>"
+    i = 0
+    while True:
+        m = tag.search(inner, i)
+        if m is None:
+            return
+        if m.group(2) == "/>":
+            yield m.start(), m.group(1), None, m.end()
+            i = m.end()
+            continue
+        j = inner.find(close, m.end())
+        if j < 0:  # no end tag: the pattern finds no row here and goes on looking after its start
+            whole = re.compile(rf"<{re.escape(p)}row(?=[\s/>])([^>]*?)(/>|>(.*?)</{re.escape(p)}row>)", re.S)
+            for w in whole.finditer(inner, m.start() + 1):
+                yield w.start(), w.group(1), (w.start(3), w.end(3)) if w.group(3) is not None else None, w.end()
+            return
+        yield m.start(), m.group(1), (m.end(), j), j + len(close)
+        i = j + len(close)
+
+
 _QUOTED = ("=", "+", "-", "@")  # a text starting so is written quoted (see _cell_xml)
 _CHUNK = 256  # rows whose cells' XML is made at a time (see _Run)
 
@@ -739,7 +765,9 @@ class _SheetPatch:
         m = re.search(r"<(\w+:)?worksheet\b", self.xml)
         self.p = m.group(1) or "" if m else ""
         self.styles = pkg.styles
-        self._re_append = None
+        self._re_append = (re.compile(rf'<{re.escape(self.p)}c\b[^>]*?\br="([A-Z]+)\d+"'),
+                           re.compile(rf"<{re.escape(self.p)}c\b"))
+        self._col_of: dict[str, int] = {}  # column letters -> index
         self._num_close = f"</{self.p}v></{self.p}c>"
 
     def _read(self, name: str) -> str:
@@ -945,31 +973,28 @@ class _SheetPatch:
             raise WorkbookError("the sheet has no cell data section; save it again in a spreadsheet program")
 
     def _stream(self):
-        """The new sheet part, in pieces: the original text with our cells spliced into its rows."""
-        p = re.escape(self.p)
+        """The new sheet part, in pieces: the original text with our cells spliced into its rows
+        (long runs of the original text pass through as slices of it)."""
         inner, by_row = self.inner, self._by_row
         yield self.head
         yield self.sd_tag
         pos = 0
         todo = sorted(by_row)  # rows to write, in order
         k = 0
-        row_re = re.compile(rf"<{p}row(?=[\s/>])([^>]*?)(/>|>(.*?)</{p}row>)", re.S)
         last_r = -1
-        for rm in row_re.finditer(inner):
+        for start, head, span, end in _rows_in(inner, self.p):
             if k >= len(todo):
                 break
-            a = _attrs(rm.group(1))
+            a = _attrs(head)
             r = int(a["r"]) - 1 if "r" in a else last_r + 1
             last_r = r
             while k < len(todo) and todo[k] < r:  # new rows that come before this one
-                yield inner[pos:rm.start()]
-                pos = rm.start()
+                yield inner[pos:start]
+                pos = start
                 yield self._new_row(todo[k])
                 k += 1
             if k < len(todo) and todo[k] == r:
-                yield inner[pos:rm.start()]
-                yield self._patch_row(rm, a, r)
-                pos = rm.end()
+                pos = yield from self._patch_row(r, a, head, start, span, end, pos)
                 k += 1
         yield inner[pos:]
         for r in todo[k:]:
@@ -980,20 +1005,40 @@ class _SheetPatch:
         body = self._row_add(r)[2]
         return f'<{self.p}row r="{r + 1}">{body}</{self.p}row>' if body else ""
 
-    def _patch_row(self, rm: re.Match, attrs: dict[str, str], r: int) -> str:
-        head = rm.group(1)
-        body = rm.group(3) or ""
+    def _patch_row(self, r: int, attrs: dict[str, str], head: str, start: int, span: tuple[int, int] | None,
+                   end: int, pos: int):
+        """Yield the original text from ``pos`` with row ``r`` patched (the row starts at ``start``
+        and ends at ``end``; ``span`` is where its cells are, None for an empty ``<row/>``);
+        returns where the original text goes on unchanged."""
+        inner, p = self.inner, self.p
         lo, hi, add = self._row_add(r)
-        fast = self._append_only(body, lo)
+        bs, be = span if span is not None else (end, end)
+        fast = self._append_at(bs, be, lo)
         if fast is not None:  # the usual case: our cells all lie right of the row's last cell
+            new_head = head
             if "spans" in attrs:
                 first = attrs["spans"].split(":")[0]
-                head = re.sub(r'spans="[^"]*"', f'spans="{first}:{hi + 1}"', head)
-            return f"<{self.p}row{head}>" + body[:fast] + add + body[fast:] + f"</{self.p}row>"
+                new_head = re.sub(r'spans="[^"]*"', f'spans="{first}:{hi + 1}"', head)
+            if span is not None and new_head == head:  # the row as it is, our cells inserted
+                yield inner[pos:fast]
+                yield add
+                return fast
+            yield inner[pos:start]
+            yield f"<{p}row{new_head}>" + inner[bs:fast] + add
+            if span is None:
+                yield f"</{p}row>"
+                return end
+            return fast
+        yield inner[pos:start]
+        yield self._merged_row(r, attrs, head, inner[bs:be])
+        return end
+
+    def _merged_row(self, r: int, attrs: dict[str, str], head: str, body: str) -> str:
+        """Row ``r`` with our cells merged among its own, in column order (one of ours replaces
+        a cell of the row in its column)."""
         cells = self._row_cells(r)
         ours = {c for c, _ in cells}
         existing = []
-        tail = ""
         pos = 0
         last_c = -1
         for cm in _CELL.finditer(body):
@@ -1012,6 +1057,37 @@ class _SheetPatch:
             head = re.sub(r'spans="[^"]*"', f'spans="{lo}:{hi}"', head)
         return f"<{self.p}row{head}>" + "".join(x for _, x in merged) + tail + f"</{self.p}row>"
 
+    def _append_at(self, bs: int, be: int, first_new: int) -> int | None:
+        """:meth:`_append_only` of the row whose cells are ``inner[bs:be]``, as an offset in
+        ``inner`` (found in place, without a copy of the row)."""
+        inner, p = self.inner, self.p
+        last_start = inner.rfind(f"<{p}c ", bs, be)
+        if last_start < 0:
+            fast = self._append_only(inner[bs:be], first_new)
+            return None if fast is None else bs + fast
+        m = self._re_append[0].match(inner, last_start, be)
+        if not m:
+            return None
+        letters = m.group(1)
+        col = self._col_of.get(letters)
+        if col is None:
+            col = self._col_of[letters] = _col_index(letters)
+        if col >= first_new:
+            return None
+        close = inner.find(">", last_start, be)
+        if close < 0:  # not as spreadsheet programs write it: the row's own text decides
+            fast = self._append_only(inner[bs:be], first_new)
+            return None if fast is None else bs + fast
+        if inner[close - 1] == "/":
+            at = close + 1
+        else:
+            at = inner.find(f"</{p}c>", close, be)
+            if at < 0:
+                fast = self._append_only(inner[bs:be], first_new)
+                return None if fast is None else bs + fast
+            at += len(f"</{p}c>")
+        return at if not self._re_append[1].search(inner, at, be) else None
+
     def _append_only(self, body: str, first_new: int) -> int | None:
         """Where to insert when every new column is right of the row's last cell, else None."""
         p = self.p
@@ -1019,9 +1095,6 @@ class _SheetPatch:
         if last_start < 0:
             return 0 if f"<{p}c" not in body else None
         res = self._re_append
-        if res is None:
-            res = self._re_append = (re.compile(rf'<{re.escape(p)}c\b[^>]*?\br="([A-Z]+)\d+"'),
-                                     re.compile(rf"<{re.escape(p)}c\b"))
         m = res[0].match(body, last_start)
         if not m or _col_index(m.group(1)) >= first_new:
             return None
