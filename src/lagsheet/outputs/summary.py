@@ -217,11 +217,12 @@ def _groups(res: Results, style: str, us: bool) -> dict[tuple, dict]:
     area, over the computed lines. A line is one line of each material it holds: slots of one
     material (Insulation and Outer insulation alike) make one row, their layers inner first.
 
-    The arrays are read as lists once, and a size or build already labelled is not labelled again."""
+    The arrays are read once, as one list per slot (floats: no object per line for the
+    collector to trace), and a size or build already labelled is not labelled again."""
     q = res.quantities
     groups: dict[tuple, dict] = {}
-    chosen, layers = res.chosen.tolist(), q.layers[:, 0].tolist()
-    volume, jacket = q.volume[:, 0].tolist(), q.jacket_area[:, 0].tolist()
+    chosen, layers = res.chosen.T.tolist(), q.layers[:, 0].T.tolist()  # [slot][line]
+    volume, jacket = q.volume[:, 0].T.tolist(), q.jacket_area[:, 0].tolist()
     sized = np.isfinite(res.values["thickness"]).tolist()
     sizes: dict[tuple, tuple[str, float]] = {}
     builds: dict[tuple, str] = {}
@@ -230,15 +231,15 @@ def _groups(res: Results, style: str, us: bool) -> dict[tuple, dict]:
             continue
         size, order = sizes.get((L.geometry, L.word, L.r_inner)) or sizes.setdefault(
             (L.geometry, L.word, L.r_inner), _size_of(L, style, us))
-        ch, lay = chosen[i], layers[i]
-        laid = [j for j in range(len(L.materials)) if ch[j] > 0]
+        laid = [j for j in range(len(L.materials)) if chosen[j][i] > 0]
         by_name: dict[str, list[int]] = {}
         for j in laid:
             by_name.setdefault(L.materials[j].name, []).append(j)
         for name, slots in by_name.items():
-            th = float(sum(ch[j] for j in slots))
-            shape = tuple((ch[j], lay[j]) for j in slots)
-            build = builds.get(shape) or builds.setdefault(shape, _build(ch, lay, slots, us))
+            th = float(sum(chosen[j][i] for j in slots))
+            shape = tuple((chosen[j][i], layers[j][i]) for j in slots)
+            build = builds.get(shape) or builds.setdefault(
+                shape, _build([c[i] for c in chosen], [n[i] for n in layers], slots, us))
             g = groups.get((name, order, size, th, build))
             if g is None:
                 g = groups[(name, order, size, th, build)] = {**dict.fromkeys(_AMOUNTS, 0.0), "lines": 0}
@@ -249,7 +250,7 @@ def _groups(res: Results, style: str, us: bool) -> dict[tuple, dict]:
                 g["area"] += L.area
             elif L.geometry == SPHERE:
                 g["area"] += math.pi * (2 * L.r_inner) ** 2  # the sphere's own surface, to be covered
-            g["volume"] += float(sum(volume[i][j] for j in slots))
+            g["volume"] += float(sum(volume[j][i] for j in slots))
             if laid[-1] in slots:  # the jacket goes on the outer material
                 g["jacket"] += float(jacket[i])
     return groups
