@@ -30,11 +30,12 @@ from xml.sax.saxutils import escape
 from ..errors import WorkbookError
 from .save import VERIFIERS, atomic_write, write_pieces
 from .table import (
+    Cells,
     RawSheet,
     SheetEdits,
+    _Block,
     address,
     calamine_grid,
-    cells_with_formats,
     column_letter,
     post_write_check,
     sheet_name_for,
@@ -696,6 +697,78 @@ class _Package:
         return self.out
 
 
+def _rows_in(inner: str, p: str):
+    """(start, the start tag's attributes text, (start, end) of its cells or None for ``<row/>``,
+    end) of every row of a sheet's ``sheetData`` text, as the pattern
+    ``<row(?=[\\s/>])([^>]*?)(/>|>(.*?)</row>)`` finds them (its rows, found with a search for
+    the start tag and one for the end tag instead of a lazy match over every character)."""
+    tag = re.compile(rf"<{re.escape(p)}row(?=[\s/>])([^>]*?)(/>|>)")
+    close = f"</{p}row>"
+    i = 0
+    while True:
+        m = tag.search(inner, i)
+        if m is None:
+            return
+        if m.group(2) == "/>":
+            yield m.start(), m.group(1), None, m.end()
+            i = m.end()
+            continue
+        j = inner.find(close, m.end())
+        if j < 0:  # no end tag: the pattern finds no row here and goes on looking after its start
+            whole = re.compile(rf"<{re.escape(p)}row(?=[\s/>])([^>]*?)(/>|>(.*?)</{re.escape(p)}row>)", re.S)
+            for w in whole.finditer(inner, m.start() + 1):
+                yield w.start(), w.group(1), (w.start(3), w.end(3)) if w.group(3) is not None else None, w.end()
+            return
+        yield m.start(), m.group(1), (m.end(), j), j + len(close)
+        i = j + len(close)
+
+
+_QUOTED = ("=", "+", "-", "@")  # a text starting so is written quoted (see _cell_xml)
+_CHUNK = 256  # rows whose cells' XML is made at a time (see _Run)
+
+
+class _Run:
+    """The cells written on one set of rows (the result columns of the lines share theirs), made
+    into XML a chunk of :data:`_CHUNK` rows at a time: column by column, one list comprehension
+    each, then joined row by row. ``makers[k](r1s, at, end)`` gives the XML of column
+    ``cols[k]``'s cells on ``rows[at:end]`` ('' where a cell is emptied), ``r1s`` being those
+    rows' numbers as text; ``seqs[k]`` is the column's place in the edits."""
+
+    __slots__ = ("rows", "index", "cols", "makers", "seqs", "lo", "hi", "_at", "_xml", "_joined")
+
+    def __init__(self, rows, index: dict[int, int], cols: list[int], makers: list[Callable], seqs: list[int]):
+        order = sorted(range(len(cols)), key=cols.__getitem__)
+        self.rows, self.index = rows, index
+        self.cols = [cols[k] for k in order]
+        self.makers = [makers[k] for k in order]
+        self.seqs = [seqs[k] for k in order]
+        self.lo, self.hi = self.cols[0], self.cols[-1]
+        self._at, self._xml, self._joined = -1, [], None
+
+    def _chunk(self, r: int) -> int:
+        """Row ``r``'s place in the chunk of cells made (the chunk that holds it is made first)."""
+        i = self.index[r]
+        at = i - i % _CHUNK
+        if at != self._at:
+            end = min(at + _CHUNK, len(self.rows))
+            r1s = [str(x + 1) for x in self.rows[at:end]]
+            self._xml = [make(r1s, at, end) for make in self.makers]
+            self._at, self._joined = at, None
+        return i - at
+
+    def joined(self, r: int) -> str:
+        """The XML of row ``r``'s cells here, in column order."""
+        k = self._chunk(r)
+        if self._joined is None:
+            self._joined = list(map("".join, zip(*self._xml, strict=True)))
+        return self._joined[k]
+
+    def cells(self, r: int) -> list[tuple[int, str]]:
+        """(column, cell XML) of row ``r``'s cells here, in column order ('' where emptied)."""
+        k = self._chunk(r)
+        return [(c, xml[k]) for c, xml in zip(self.cols, self._xml, strict=True)]
+
+
 class _SheetPatch:
     """Splices one SheetEdits into one sheet part and the parts that hang off it.
 
@@ -711,7 +784,10 @@ class _SheetPatch:
         m = re.search(r"<(\w+:)?worksheet\b", self.xml)
         self.p = m.group(1) or "" if m else ""
         self.styles = pkg.styles
-        self._re_append = None
+        self._re_append = (re.compile(rf'<{re.escape(self.p)}c\b[^>]*?\br="([A-Z]+)\d+"'),
+                           re.compile(rf"<{re.escape(self.p)}c\b"))
+        self._col_of: dict[str, int] = {}  # column letters -> index
+        self._num_close = f"</{self.p}v></{self.p}c>"
 
     def _read(self, name: str) -> str:
         return self.pkg.read(name)
@@ -730,56 +806,6 @@ class _SheetPatch:
 
     # -- cells ---------------------------------------------------------------------------
 
-    def _rows_of_edits(self) -> dict[int, list]:
-        """Row -> [col, value, piece, col, value, piece, ...] of the cells written in it.
-
-        The piece is the part of the cell XML that does not depend on the row: for a number
-        what follows its reference up to the value, for a text what follows its reference
-        (None for an empty cell, :data:`_OTHER` for other kinds, made whole later). Making
-        them here, in the order of the edits, registers the cell formats our cells need in
-        the order the cells ask for them, and that order numbers them in styles.xml.
-        """
-        self._header_styles = hstyles = self._find_header_styles()
-        hrows = {r for r, _ in hstyles}
-        p = self.p
-        styles = self.styles
-        mids: dict[tuple, str] = {}  # (number format, header style) -> '" s="5"><v>'
-        texts: dict[tuple, str] = {}  # (text, header style) -> ' t="inlineStr">...</c>'
-        by_row: dict[int, list] = {}
-        max_col = -1
-        for pos, v, fmt_of in cells_with_formats(self.e.values, self.e.number_formats):
-            r, c = pos
-            hs = hstyles.get(pos) if r in hrows else None
-            t = type(v)
-            if t is float:
-                key = (fmt_of, hs)
-                piece = mids.get(key)
-                if piece is None:
-                    fmt = key[0]
-                    s = styles.xf_for(fmt) if fmt else hs
-                    piece = mids[key] = f'" s="{s}"><{p}v>' if s is not None else f'"><{p}v>'
-            elif t is str:
-                key = (v, hs)
-                piece = texts.get(key)
-                if piece is None:
-                    if len(texts) > 50000:
-                        texts.clear()
-                    piece = texts[key] = _cell_xml(p, "", v, hs, None, styles)[len(p) + 6:]
-            elif v is None:
-                piece = None
-            else:
-                _cell_xml(p, address(r, c), v, hs, fmt_of, styles)  # registers its format now
-                piece = _OTHER
-            row = by_row.get(r)
-            if row is None:
-                by_row[r] = [c, v, piece]
-            else:
-                row += (c, v, piece)
-            if c > max_col:
-                max_col = c
-        self._max_col = max_col
-        return by_row
-
     def _find_header_styles(self) -> dict[tuple[int, int], str | None]:
         """The style of the cell each new header copies its style from (None: none found)."""
         want = {}
@@ -795,32 +821,157 @@ class _SheetPatch:
                         break
         return {pos: found.get(ref) for ref, poss in want.items() for pos in poss}
 
-    def _row_cells(self, r: int, row: list) -> dict[int, str | None]:
-        """Col -> new cell XML (None: remove the cell there) for row ``r``, in column order:
-        the text of :func:`_cell_xml`, from the pieces :meth:`_rows_of_edits` made."""
-        cols = row[0::3]
-        if any(a > b for a, b in zip(cols, cols[1:], strict=False)):
-            cells = sorted(zip(cols, row[1::3], row[2::3], strict=True), key=lambda x: x[0])
-        else:
-            cells = zip(cols, row[1::3], row[2::3], strict=True)
-        starts, close = self._starts, self._num_close
-        r1 = str(r + 1)
-        out: dict[int, str | None] = {}
-        for c, v, piece in cells:
-            if piece is None:
-                out[c] = None
+    def _rows_of_edits(self) -> dict[int, tuple[_Run, ...]]:
+        """Row -> the runs (:class:`_Run`) that hold the cells written in it.
+
+        Every cell format our cells need is registered here, block by block in the order of
+        the edits and cell by cell within a block, as the cells ask for them: that order
+        numbers them in styles.xml. The cells' XML itself is made later, a chunk of rows at
+        a time, while the sheet is streamed (:meth:`_stream`).
+        """
+        self._header_styles = self._find_header_styles()
+        self._hrows = {r for r, _ in self._header_styles}
+        self._starts, self._mids, self._texts = {}, {}, {}
+        groups: dict[int, tuple] = {}  # id of the rows' index -> (rows, index, [col], [maker], [seq])
+        for seq, b in enumerate(self._blocks()):
+            if not len(b.rows):
                 continue
-            start = starts.get(c)
-            if start is None:
-                start = starts[c] = f'<{self.p}c r="{column_letter(c)}'
-            if piece is _OTHER:
-                out[c] = _cell_xml(self.p, f"{column_letter(c)}{r1}", v, self._header_styles.get((r, c)),
-                                   self.e.number_formats.get((r, c)), self.styles)
-            elif type(v) is float:
-                out[c] = f"{start}{r1}{piece}{repr(v)}{close}"
+            make = self._column_maker(b) or self._cell_maker(b)
+            g = groups.get(id(b.index))
+            if g is None:
+                g = groups[id(b.index)] = (b.rows, b.index, [], [], [])
+            g[2].append(b.col)
+            g[3].append(make)
+            g[4].append(seq)
+        by_row: dict[int, tuple[_Run, ...]] = {}
+        self._max_col = -1
+        for rows, index, cols, makers, seqs in groups.values():
+            run = _Run(rows, index, cols, makers, seqs)
+            one = (run,)
+            if not by_row:
+                by_row = dict.fromkeys(rows, one)  # one shared tuple: no object per row
             else:
-                out[c] = f"{start}{r1}{piece}"
-        return out
+                for r in rows:
+                    by_row[r] = by_row.get(r, ()) + one
+            self._max_col = max(self._max_col, run.hi)
+        return by_row
+
+    def _row_values(self, r: int) -> list[tuple[int, Any]]:
+        """(column, value) of the cells written in row ``r``, in the order of the edits."""
+        values = self.e.values
+        if isinstance(values, Cells):
+            return [(b.col, b.values[b.index[r]]) for b in values.blocks() if r in b.index]
+        return [(c, v) for (rr, c), v in values.items() if rr == r]
+
+    def _blocks(self) -> list:
+        """The edits as columns of cells (:meth:`Cells.blocks`); a plain mapping's cells one by one."""
+        values = self.e.values
+        if isinstance(values, Cells):
+            return values.blocks()
+        return [_Block(c, (r,), [v], None, {r: 0}) for (r, c), v in values.items()]
+
+    def _fmt_of(self, b, r: int, v) -> str | None:
+        """The number format of cell (r, b.col) holding ``v`` (as :func:`cells_with_formats` gives it)."""
+        formats = self.e.number_formats
+        if isinstance(self.e.values, Cells) and formats is self.e.values.formats:
+            f = formats._own.get((r, b.col)) if formats._own else None
+            return b.fmt if f is None and b.fmt and v is not None and not isinstance(v, str) else f
+        return formats.get((r, b.col))
+
+    def _column_maker(self, b) -> Callable | None:
+        """A column's cells made by one list comprehension, when they are all numbers (floats),
+        texts or empty, none of them in a header row, none with a number format of its own; else None."""
+        formats = self.e.number_formats
+        if not (isinstance(self.e.values, Cells) and formats is self.e.values.formats):
+            return None
+        if any(h in b.index for h in self._hrows) or any(c == b.col and r in b.index for r, c in formats._own):
+            return None
+        kinds = set(map(type, b.values))
+        if not kinds <= {float, str, type(None)}:
+            return None
+        values, fmt = b.values, b.fmt
+        # the formats these cells ask for, registered in the order the first of each asks
+        asks = []
+        if fmt and float in kinds:
+            asks.append((next(i for i, v in enumerate(values) if type(v) is float), lambda: self._mid(fmt, None)))
+        if str in kinds:
+            q = next((i for i, v in enumerate(values) if type(v) is str and v[:1] in _QUOTED), None)
+            if q is not None:
+                asks.append((q, lambda: self._text_piece(values[q], None)))
+        for _, ask in sorted(asks, key=lambda a: a[0]):
+            ask()
+        start, close, text = self._start(b.col), self._num_close, self._text_piece
+        mid = self._mid(fmt, None) if float in kinds else ""
+        if str in kinds:
+            return lambda r1s, at, end: [
+                f"{start}{r1}{mid}{v!r}{close}" if type(v) is float else
+                f"{start}{r1}{text(v, None)}" if v is not None else "" for r1, v in zip(r1s, values[at:end], strict=True)]
+        if type(None) in kinds:
+            return lambda r1s, at, end: [f"{start}{r1}{mid}{v!r}{close}" if v is not None else ""
+                                         for r1, v in zip(r1s, values[at:end], strict=True)]
+        return lambda r1s, at, end: [f"{start}{r1}{mid}{v!r}{close}" for r1, v in zip(r1s, values[at:end], strict=True)]
+
+    def _cell_maker(self, b) -> Callable:
+        """A column's cells made one by one (:meth:`_cell`); made once now, for the formats they ask for."""
+        rows, values, col = b.rows, b.values, b.col
+
+        def make(r1s, at, end):
+            return [self._cell(col, r, r1, v, self._fmt_of(b, r, v))
+                    for r1, r, v in zip(r1s, rows[at:end], values[at:end], strict=True)]
+
+        make([str(r + 1) for r in rows], 0, len(rows))
+        return make
+
+    def _cell(self, c: int, r: int, r1: str, v, fmt: str | None) -> str:
+        """The XML of cell (r, c) holding ``v`` ('' for an emptied cell): the text of :func:`_cell_xml`."""
+        if v is None:
+            return ""
+        hs = self._header_styles.get((r, c)) if r in self._hrows else None
+        t = type(v)
+        if t is float:
+            return f"{self._start(c)}{r1}{self._mid(fmt, hs)}{v!r}{self._num_close}"
+        if t is str:
+            return f"{self._start(c)}{r1}{self._text_piece(v, hs)}"
+        return _cell_xml(self.p, f"{column_letter(c)}{r1}", v, hs, fmt, self.styles)
+
+    def _start(self, c: int) -> str:
+        start = self._starts.get(c)
+        if start is None:
+            start = self._starts[c] = f'<{self.p}c r="{column_letter(c)}'
+        return start
+
+    def _mid(self, fmt: str | None, hs: str | None) -> str:
+        """What follows a number cell's reference up to its value: '" s="5"><v>'."""
+        piece = self._mids.get((fmt, hs))
+        if piece is None:
+            s = self.styles.xf_for(fmt) if fmt else hs
+            piece = self._mids[(fmt, hs)] = f'" s="{s}"><{self.p}v>' if s is not None else f'"><{self.p}v>'
+        return piece
+
+    def _text_piece(self, v: str, hs: str | None) -> str:
+        """What follows a text cell's reference: '" t="inlineStr"><is>...</c>'."""
+        piece = self._texts.get((v, hs))
+        if piece is None:
+            if len(self._texts) > 50000:
+                self._texts.clear()
+            piece = self._texts[(v, hs)] = _cell_xml(self.p, "", v, hs, None, self.styles)[len(self.p) + 6:]
+        return piece
+
+    def _row_add(self, r: int) -> tuple[int, int, str]:
+        """(first column, last column, the XML of the cells in column order) written in row ``r``."""
+        runs = self._by_row[r]
+        if len(runs) == 1:
+            run = runs[0]
+            return run.lo, run.hi, run.joined(r)
+        cells = self._row_cells(r)
+        return cells[0][0], cells[-1][0], "".join([x for _, x in cells])
+
+    def _row_cells(self, r: int) -> list[tuple[int, str]]:
+        """(column, cell XML) of the cells written in row ``r``, in column order ('' where emptied)."""
+        runs = self._by_row[r]
+        if len(runs) == 1:
+            return runs[0].cells(r)
+        return sorted((cell for run in runs for cell in run.cells(r)), key=lambda x: x[0])
 
     def _split(self) -> None:
         """self.head (before sheetData), self.sd_tag, self.inner (the rows), self.tail."""
@@ -839,57 +990,74 @@ class _SheetPatch:
                 break
         else:
             raise WorkbookError("the sheet has no cell data section; save it again in a spreadsheet program")
-        self._starts: dict[int, str] = {}
-        self._num_close = f"</{self.p}v></{self.p}c>"
 
     def _stream(self):
-        """The new sheet part, in pieces: the original text with our cells spliced into its rows."""
-        p = re.escape(self.p)
+        """The new sheet part, in pieces: the original text with our cells spliced into its rows
+        (long runs of the original text pass through as slices of it)."""
         inner, by_row = self.inner, self._by_row
         yield self.head
         yield self.sd_tag
         pos = 0
         todo = sorted(by_row)  # rows to write, in order
         k = 0
-        row_re = re.compile(rf"<{p}row(?=[\s/>])([^>]*?)(/>|>(.*?)</{p}row>)", re.S)
         last_r = -1
-        for rm in row_re.finditer(inner):
+        for start, head, span, end in _rows_in(inner, self.p):
             if k >= len(todo):
                 break
-            a = _attrs(rm.group(1))
+            a = _attrs(head)
             r = int(a["r"]) - 1 if "r" in a else last_r + 1
             last_r = r
             while k < len(todo) and todo[k] < r:  # new rows that come before this one
-                yield inner[pos:rm.start()]
-                pos = rm.start()
-                yield self._new_row(todo[k], self._row_cells(todo[k], by_row[todo[k]]))
+                yield inner[pos:start]
+                pos = start
+                yield self._new_row(todo[k])
                 k += 1
             if k < len(todo) and todo[k] == r:
-                yield inner[pos:rm.start()]
-                yield self._patch_row(rm, a, self._row_cells(r, by_row[r]))
-                pos = rm.end()
+                pos = yield from self._patch_row(r, a, head, start, span, end, pos)
                 k += 1
         yield inner[pos:]
         for r in todo[k:]:
-            yield self._new_row(r, self._row_cells(r, by_row[r]))
+            yield self._new_row(r)
         yield self.tail
 
-    def _new_row(self, r: int, cells: dict[int, str | None]) -> str:
-        body = "".join([x for x in cells.values() if x is not None])  # cells are in column order
+    def _new_row(self, r: int) -> str:
+        body = self._row_add(r)[2]
         return f'<{self.p}row r="{r + 1}">{body}</{self.p}row>' if body else ""
 
-    def _patch_row(self, rm: re.Match, attrs: dict[str, str], cells: dict[int, str | None]) -> str:
-        head = rm.group(1)
-        body = rm.group(3) or ""
-        fast = self._append_only(body, min(cells))
+    def _patch_row(self, r: int, attrs: dict[str, str], head: str, start: int, span: tuple[int, int] | None,
+                   end: int, pos: int):
+        """Yield the original text from ``pos`` with row ``r`` patched (the row starts at ``start``
+        and ends at ``end``; ``span`` is where its cells are, None for an empty ``<row/>``);
+        returns where the original text goes on unchanged."""
+        inner, p = self.inner, self.p
+        lo, hi, add = self._row_add(r)
+        bs, be = span if span is not None else (end, end)
+        fast = self._append_at(bs, be, lo)
         if fast is not None:  # the usual case: our cells all lie right of the row's last cell
-            add = "".join([x for x in cells.values() if x is not None])  # cells are in column order
+            new_head = head
             if "spans" in attrs:
-                lo = attrs["spans"].split(":")[0]
-                head = re.sub(r'spans="[^"]*"', f'spans="{lo}:{max(cells) + 1}"', head)
-            return f"<{self.p}row{head}>" + body[:fast] + add + body[fast:] + f"</{self.p}row>"
+                first = attrs["spans"].split(":")[0]
+                new_head = re.sub(r'spans="[^"]*"', f'spans="{first}:{hi + 1}"', head)
+            if span is not None and new_head == head:  # the row as it is, our cells inserted
+                yield inner[pos:fast]
+                yield add
+                return fast
+            yield inner[pos:start]
+            yield f"<{p}row{new_head}>" + inner[bs:fast] + add
+            if span is None:
+                yield f"</{p}row>"
+                return end
+            return fast
+        yield inner[pos:start]
+        yield self._merged_row(r, attrs, head, inner[bs:be])
+        return end
+
+    def _merged_row(self, r: int, attrs: dict[str, str], head: str, body: str) -> str:
+        """Row ``r`` with our cells merged among its own, in column order (one of ours replaces
+        a cell of the row in its column)."""
+        cells = self._row_cells(r)
+        ours = {c for c, _ in cells}
         existing = []
-        tail = ""
         pos = 0
         last_c = -1
         for cm in _CELL.finditer(body):
@@ -899,14 +1067,45 @@ class _SheetPatch:
             existing.append((c, body[pos:cm.end()]))
             pos = cm.end()
         tail = body[pos:]  # e.g. an extLst after the cells
-        merged = [(c, x) for c, x in existing if c not in cells]
-        merged += [(c, x) for c, x in cells.items() if x is not None]
+        merged = [(c, x) for c, x in existing if c not in ours]
+        merged += [(c, x) for c, x in cells if x]
         merged.sort(key=lambda t: t[0])
         if "spans" in attrs and merged:
             lo, hi = (int(v) for v in attrs["spans"].split(":")[:2]) if ":" in attrs["spans"] else (1, 1)
             lo, hi = min(lo, merged[0][0] + 1), max(hi, merged[-1][0] + 1)
             head = re.sub(r'spans="[^"]*"', f'spans="{lo}:{hi}"', head)
         return f"<{self.p}row{head}>" + "".join(x for _, x in merged) + tail + f"</{self.p}row>"
+
+    def _append_at(self, bs: int, be: int, first_new: int) -> int | None:
+        """:meth:`_append_only` of the row whose cells are ``inner[bs:be]``, as an offset in
+        ``inner`` (found in place, without a copy of the row)."""
+        inner, p = self.inner, self.p
+        last_start = inner.rfind(f"<{p}c ", bs, be)
+        if last_start < 0:
+            fast = self._append_only(inner[bs:be], first_new)
+            return None if fast is None else bs + fast
+        m = self._re_append[0].match(inner, last_start, be)
+        if not m:
+            return None
+        letters = m.group(1)
+        col = self._col_of.get(letters)
+        if col is None:
+            col = self._col_of[letters] = _col_index(letters)
+        if col >= first_new:
+            return None
+        close = inner.find(">", last_start, be)
+        if close < 0:  # not as spreadsheet programs write it: the row's own text decides
+            fast = self._append_only(inner[bs:be], first_new)
+            return None if fast is None else bs + fast
+        if inner[close - 1] == "/":
+            at = close + 1
+        else:
+            at = inner.find(f"</{p}c>", close, be)
+            if at < 0:
+                fast = self._append_only(inner[bs:be], first_new)
+                return None if fast is None else bs + fast
+            at += len(f"</{p}c>")
+        return at if not self._re_append[1].search(inner, at, be) else None
 
     def _append_only(self, body: str, first_new: int) -> int | None:
         """Where to insert when every new column is right of the row's last cell, else None."""
@@ -915,9 +1114,6 @@ class _SheetPatch:
         if last_start < 0:
             return 0 if f"<{p}c" not in body else None
         res = self._re_append
-        if res is None:
-            res = self._re_append = (re.compile(rf'<{re.escape(p)}c\b[^>]*?\br="([A-Z]+)\d+"'),
-                                     re.compile(rf"<{re.escape(p)}c\b"))
         m = res[0].match(body, last_start)
         if not m or _col_index(m.group(1)) >= first_new:
             return None
@@ -928,7 +1124,7 @@ class _SheetPatch:
             pos = body.find(f"</{p}c>", close) + len(f"</{p}c>")
         return pos if not res[1].search(body, pos) else None
 
-    def _merges_over(self, by_row: dict[int, list]) -> None:
+    def _merges_over(self, by_row: dict[int, tuple[_Run, ...]]) -> None:
         """Refuse when a merged range of the sheet would hide a cell lagsheet writes (any cell of
         a merge but its first is hidden by spreadsheet programs)."""
         refs = re.findall(rf'<{re.escape(self.p)}mergeCell\b[^>]*?\bref="([^"]*)"', self.tail)
@@ -942,7 +1138,8 @@ class _SheetPatch:
             r0, c0, r1, c1 = box
             lo = bisect.bisect_left(rows, r0)
             for r in rows[lo:bisect.bisect_right(rows, r1)]:
-                hit = next((c for c in by_row[r][0::3] if c0 <= c <= c1 and (r, c) != (r0, c0)), None)
+                hit = min(((seq, c) for run in by_row[r] for c, seq in zip(run.cols, run.seqs, strict=True)
+                           if c0 <= c <= c1 and (r, c) != (r0, c0)), default=(0, None))[1]  # the first in the edits
                 if hit is not None:
                     raise WorkbookError(
                         f"sheet {self.e.sheet!r} has the cells {ref} merged, and lagsheet writes in "
@@ -1039,7 +1236,7 @@ class _SheetPatch:
 
     def _tables(self) -> None:
         hr = self.e.header_row
-        all_headers = {(r, c): v for (r, c), v in self.e.values.items() if r == hr and v is not None}
+        all_headers = {(hr, c): v for c, v in self._row_values(hr) if v is not None}
         if hr is None or not all_headers:
             return
         for rel in _read_rels(self.zf, self.part):

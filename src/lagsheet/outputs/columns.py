@@ -72,7 +72,7 @@ def lines_edits(raw: RawSheet, t: Table, res: Results, us: bool, currency: str) 
         if col not in existing.values():
             e.headers[(header_row, col)] = (header_row, _style_source(raw, header_row))
             # wide enough for the header (up to 24) and for the longest text written (up to 40)
-            longest = max((len(v) for v in values if isinstance(v, str)), default=0)
+            longest = max(map(len, [v for v in values if isinstance(v, str)]), default=0)
             e.widths[col] = 60.0 if out.key == "notes" else max(10.0, min(len(header) + 2.0, 24.0),
                                                                  min(longest + 2.0, 40.0))
         if t.units_row is not None:

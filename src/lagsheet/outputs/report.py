@@ -6,6 +6,8 @@ import json
 import math
 from pathlib import Path
 
+import numpy as np
+
 from .. import __version__
 from ..design.select import Results
 from ..workbook.inputs import Inputs
@@ -23,15 +25,28 @@ def _clean(v):
     return v
 
 
+def _column(values, text: bool) -> list:
+    """One result of every line, as the report writes it: a number as a float, None where it
+    is not finite (or not given)."""
+    if text:
+        return [_clean(v) for v in np.asarray(values, dtype=object).tolist()]
+    arr = np.asarray(values, dtype=float)
+    out = arr.tolist()
+    for i in np.flatnonzero(~np.isfinite(arr)).tolist():
+        out[i] = None
+    return out
+
+
 def build(inputs: Inputs, res: Results, input_path: Path, output_path: Path | None) -> dict:
     t = inputs.lines
+    keys = [r.json for r in REPORTED]
+    # column by column (no numpy element read per line and result), then zipped line by line
+    rows = zip(*(_column(res.values[r.key], r.text) for r in REPORTED), strict=False) if keys else iter(())
     lines = []
-    for i in range(res.n):
-        results = {r.json: _clean(res.values[r.key][i] if r.text else float(res.values[r.key][i]))
-                   for r in REPORTED}
+    for i, row in zip(range(res.n), rows, strict=False):
         lines.append({
             "sheet": t.sheet, "row": t.rows[i] + 1, "tag": res.tags[i], "status": res.status[i],
-            "results": results, "notes": [n.as_dict() for n in res.notes[i]],
+            "results": dict(zip(keys, row, strict=True)), "notes": [n.as_dict() for n in res.notes[i]],
         })
     return {
         "lagsheet": __version__,

@@ -226,21 +226,34 @@ def _size_of(L, style: str, us: bool) -> tuple[str, float]:
 def _groups(res: Results, style: str, us: bool) -> dict[tuple, dict]:
     """(material, size order, size, thickness, build) -> its lines, length, area, volume and jacket
     area, over the computed lines. A line is one line of each material it holds: slots of one
-    material (Insulation and Outer insulation alike) make one row, their layers inner first."""
+    material (Insulation and Outer insulation alike) make one row, their layers inner first.
+
+    The arrays are read once, as one list per slot (floats: no object per line for the
+    collector to trace), and a size or build already labelled is not labelled again."""
     q = res.quantities
     groups: dict[tuple, dict] = {}
+    chosen, layers = res.chosen.T.tolist(), q.layers[:, 0].T.tolist()  # [slot][line]
+    volume, jacket = q.volume[:, 0].T.tolist(), q.jacket_area[:, 0].tolist()
+    sized = np.isfinite(res.values["thickness"]).tolist()
+    sizes: dict[tuple, tuple[str, float]] = {}
+    builds: dict[tuple, str] = {}
     for i, L in enumerate(res.lines):
-        if res.status[i] == "error" or not np.isfinite(res.values["thickness"][i]):
+        if res.status[i] == "error" or not sized[i]:
             continue
-        size, order = _size_of(L, style, us)
-        laid = [j for j in range(len(L.materials)) if res.chosen[i, j] > 0]
+        size, order = sizes.get((L.geometry, L.word, L.r_inner)) or sizes.setdefault(
+            (L.geometry, L.word, L.r_inner), _size_of(L, style, us))
+        laid = [j for j in range(len(L.materials)) if chosen[j][i] > 0]
         by_name: dict[str, list[int]] = {}
         for j in laid:
             by_name.setdefault(L.materials[j].name, []).append(j)
         for name, slots in by_name.items():
-            th = float(sum(res.chosen[i, j] for j in slots))
-            g = groups.setdefault((name, order, size, th, _build(res.chosen[i], q.layers[i, 0], slots, us)),
-                                  {**dict.fromkeys(_AMOUNTS, 0.0), "lines": 0})
+            th = float(sum(chosen[j][i] for j in slots))
+            shape = tuple((chosen[j][i], layers[j][i]) for j in slots)
+            build = builds.get(shape) or builds.setdefault(
+                shape, _build([c[i] for c in chosen], [n[i] for n in layers], slots, us))
+            g = groups.get((name, order, size, th, build))
+            if g is None:
+                g = groups[(name, order, size, th, build)] = {**dict.fromkeys(_AMOUNTS, 0.0), "lines": 0}
             g["lines"] += 1
             if L.geometry == CYLINDER:
                 g["length"] += L.length
@@ -248,9 +261,9 @@ def _groups(res: Results, style: str, us: bool) -> dict[tuple, dict]:
                 g["area"] += L.area
             elif L.geometry == SPHERE:
                 g["area"] += math.pi * (2 * L.r_inner) ** 2  # the sphere's own surface, to be covered
-            g["volume"] += float(sum(q.volume[i, 0, j] for j in slots))
+            g["volume"] += float(sum(volume[j][i] for j in slots))
             if laid[-1] in slots:  # the jacket goes on the outer material
-                g["jacket"] += float(q.jacket_area[i, 0])
+                g["jacket"] += float(jacket[i])
     return groups
 
 
@@ -258,18 +271,26 @@ _AMOUNTS = ("lines", "length", "area", "volume", "jacket")
 
 
 def _material_rows(s: SheetTable, groups: dict[tuple, dict], us: bool) -> None:
-    """One row per material, size and build (thin to thick), then the material's total."""
+    """One row per material, size and build (thin to thick), then the material's total; the
+    amounts of all rows converted to the sheet's units at once."""
     fm = {4: "#,##0.0", 5: "#,##0.0", 6: "#,##0.00", 7: "#,##0.0"}
     by_material: dict[str, list] = {}
     for key in sorted(groups):
         by_material.setdefault(key[0], []).append(key)
+    rows = []  # (material, size, build, amounts, bold)
     for mat, keys in by_material.items():
         tot = {**dict.fromkeys(_AMOUNTS, 0.0), "lines": 0}
         for key in keys:
             for k in tot:
                 tot[k] += groups[key][k]
-            s.add(_q_row(mat, key[2], key[4], groups[key], us), fm)
-        s.add(_q_row(f"{mat} total", "", "", tot, us), fm, bold=True)
+            rows.append((mat, key[2], key[4], groups[key], False))
+        rows.append((f"{mat} total", "", "", tot, True))
+    if not rows:
+        return
+    conv = [_conv([g[k] for *_, g, _b in rows], kind, us).tolist()
+            for k, kind in (("length", "length"), ("area", "area"), ("volume", "volume"), ("jacket", "area"))]
+    for (mat, size, build, g, bold), *amounts in zip(rows, *conv, strict=True):
+        s.add([mat, size, build, g["lines"], *amounts], fm, bold=bold)
 
 
 def _build(chosen, layers, slots: list[int], us: bool) -> str:
@@ -283,9 +304,3 @@ def _build(chosen, layers, slots: list[int], us: bool) -> str:
     if len(parts) > 1 and len(units) == 1 and not any("×" in p for p in parts):
         return " + ".join(p.rsplit(" ", 1)[0] for p in parts) + " " + units.pop()
     return " + ".join(parts)
-
-
-def _q_row(mat, size, build, g, us) -> list:
-    return [mat, size, build, g["lines"], float(_conv(g["length"], "length", us)),
-            float(_conv(g["area"], "area", us)), float(_conv(g["volume"], "volume", us)),
-            float(_conv(g["jacket"], "area", us))]
