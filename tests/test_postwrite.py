@@ -42,3 +42,30 @@ def test_fill_output_passes_its_own_post_write_check(tmp_path, cli):
     # a second run replaces our sheets rather than adding more
     r = cli("fill", tmp_path / "out.xlsx", "-o", tmp_path / "again.xlsx")
     assert openpyxl.load_workbook(tmp_path / "again.xlsx").sheetnames == ["Lines", "Summary", "Quantities"]
+
+
+def test_an_xlsx_result_written_on_the_wrong_row_stops_the_save(tmp_path, cli, monkeypatch):
+    """The post-write check reads the results back in .xlsx too: a writer that puts the line above's
+    results in a row (cell references and all, so every original cell is kept) writes nothing, exit 2."""
+    import re
+
+    from lagsheet.io import xlsx
+
+    from conftest import pipe, write_book
+
+    real = xlsx._Run.joined
+
+    def slipped(self, r):
+        if r - 1 not in self.index:
+            return real(self, r)
+        return re.sub(r'( r="[A-Z]+)\d+"', lambda m: f'{m.group(1)}{r + 1}"', real(self, r - 1))
+
+    src = write_book(tmp_path / "in.xlsx", [pipe("P-1"), pipe("P-2", **{"Size": "NPS 8"}), pipe("P-3")])
+    monkeypatch.setattr(xlsx._Run, "joined", slipped)
+    out = tmp_path / "out.xlsx"
+    r = cli("fill", src, "-o", out, "-q")
+    assert r.exit_code == 2, r.output
+    assert not out.exists()
+    assert "where they belong (Lines!" in r.output and "nothing was written" in r.output
+    monkeypatch.setattr(xlsx._Run, "joined", real)
+    assert cli("fill", src, "-o", out, "-q").exit_code == 0  # the same fill, unslipped, writes

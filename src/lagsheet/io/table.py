@@ -446,24 +446,24 @@ def _shown(v: Any) -> Any:
     return " ".join(_XML_INVALID.sub("", str(v)).split())
 
 
-def misplaced(values: dict[tuple[int, int], Any], sheet, limit: int = 5) -> list[str]:
-    """Addresses of written cells that do not read back where they were written.
+class _ReadBack:
+    """Written cells compared with the rows of the written sheet as they go by (one pass over them).
 
-    ``values``: what was written, by (row, column); ``sheet``: the written sheet as calamine
-    reopened it. Every result is written on its line's row (the row whose Tag the line was
-    read from, which :func:`kept` shows unchanged), so a result read back elsewhere, or
-    another value in its place, means the writer slipped: the file must not be kept.
-    """
-    by_row: dict[int, list[tuple[int, Any]]] = {}
-    for (r, c), v in values.items():
-        by_row.setdefault(r, []).append((c, v))
-    bad: list[str] = []
-    for r, row in enumerate(rows_from_a1(sheet)):
-        cells = by_row.pop(r, None)
-        if cells is None:
-            if not by_row:
-                break
-            continue
+    Every result is written on its line's row (the row whose Tag the line was read from, which
+    :func:`kept` shows unchanged), so a result read back elsewhere, or another value in its
+    place, means the writer slipped: the file must not be kept."""
+
+    def __init__(self, values: Mapping, limit: int = 5):
+        self.by_row: dict[int, list[tuple[int, Any]]] = {}
+        for (r, c), v in values.items():
+            self.by_row.setdefault(r, []).append((c, v))
+        self.bad: list[str] = []
+        self.limit = limit
+
+    def row(self, r: int, row: list) -> None:
+        cells = self.by_row.pop(r, None)
+        if cells is None or len(self.bad) >= self.limit:
+            return
         for c, v in cells:
             want = _shown(v)
             got = row[c] if c < len(row) else ""
@@ -473,22 +473,33 @@ def misplaced(values: dict[tuple[int, int], Any], sheet, limit: int = 5) -> list
             else:
                 ok = (" ".join(got.split()) if isinstance(got, str) else got) == want
             if not ok:
-                bad.append(address(r, c))
-                if len(bad) >= limit:
-                    return bad
-    for r, cells in sorted(by_row.items()):  # rows the written sheet does not reach
-        for c, v in cells:
-            if _shown(v) != "":
-                bad.append(address(r, c))
-                if len(bad) >= limit:
-                    return bad
-    return bad
+                self.bad.append(address(r, c))
+                if len(self.bad) >= self.limit:
+                    return
+
+    def watch(self, rows):
+        """``rows`` passed on unchanged, each compared on its way; stops once nothing is left to compare
+        and the caller has asked for no more."""
+        for r, row in enumerate(rows):
+            self.row(r, row)
+            yield row
+
+    def finish(self) -> list[str]:
+        """The addresses that did not read back (rows the written sheet does not reach included)."""
+        for r, cells in sorted(self.by_row.items()):
+            for c, v in cells:
+                if _shown(v) != "" and len(self.bad) < self.limit:
+                    self.bad.append(address(r, c))
+        self.by_row.clear()
+        return self.bad
 
 
 def post_write_check(tmp: Path, before: dict[str, RawSheet], written: dict[str, Container[tuple[int, int]]],
                      parts_before: set[str], removed: set[str] = frozenset(), reopened=None,
-                     allow_loss: bool = False) -> list[str]:
-    """Reopen what was written: every original part is there and every original cell kept.
+                     allow_loss: bool = False, results: dict[str, Mapping] | None = None) -> list[str]:
+    """Reopen what was written: every original part is there and every original cell kept, and
+    every value of ``results`` (by sheet: what was written, by position) reads back where it was
+    written (:class:`_ReadBack`, in the same pass over the rows).
 
     ``reopened``: the calamine workbook of ``tmp`` if the caller has opened it already.
 
@@ -513,7 +524,17 @@ def post_write_check(tmp: Path, before: dict[str, RawSheet], written: dict[str, 
             raise WorkbookError(losses[-1] + nothing)
     wb = reopened if reopened is not None else python_calamine.CalamineWorkbook.from_path(str(tmp))
     for name, raw in before.items():
-        bad = kept(raw, rows_from_a1(wb.get_sheet_by_name(name)), written.get(name, set()))
+        back = _ReadBack(results.get(name, {}) if results else {})
+        rows = back.watch(rows_from_a1(wb.get_sheet_by_name(name)))
+        bad = kept(raw, rows, written.get(name, set()))
+        for _ in rows if back.by_row else ():  # the rows past the input's, while results are left to see
+            if not back.by_row:
+                break
+        misplaced_cells = back.finish()
+        if misplaced_cells:  # never written anyway: the results would mislead
+            raise WorkbookError(f"the written file does not hold lagsheet's results where they belong ({name}!"
+                                f"{', '.join(misplaced_cells)}); nothing was written. Please report this with "
+                                "the workbook")
         if bad:
             losses.append(f"the written file changed cells lagsheet does not write ({name}!{', '.join(bad)})")
             if not allow_loss:

@@ -281,7 +281,7 @@ class XlsxBook:
             with zipfile.ZipFile(tmp) as z:
                 _check_package(z, self._zip, edited, pkg.owned)
             losses.extend(post_write_check(tmp, before, written, names, pkg.removed, reopened=reopened,
-                                           allow_loss=allow_loss))
+                                           allow_loss=allow_loss, results={e.sheet: e.values for e in edits}))
 
         atomic_write(out, write, like=self.path, verify=verify)
         return losses
