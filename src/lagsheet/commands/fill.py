@@ -151,13 +151,13 @@ def _write(book, inputs: Inputs, res: Results, path: Path, out: Path, report_pat
             backup = backup_path(path)
             atomic_copy(path, backup, exclusive=True)
             inputs.notes.append(Note("info", "backup", f"the input was kept as {backup.name}"))
-        rep = report.build(inputs, res, path, out)
         losses = book.save(edits, out, [summary(inputs, res), quantities_table(inputs, res)],
                            allow_loss=allow_loss)
+        del edits  # the report is built once the workbook is saved: the two are never held at once
         for loss in losses:  # only with --allow-loss: otherwise the save refused
-            note = Note("warning", "content-lost", f"{loss}; written anyway because --allow-loss was given")
-            inputs.notes.append(note)
-            rep["notes"].append(note.as_dict())
+            inputs.notes.append(Note("warning", "content-lost",
+                                     f"{loss}; written anyway because --allow-loss was given"))
+        rep = report.build(inputs, res, path, out)
         if report_path is not None:
             report.write(rep, report_path, inputs=[out])
     return rep

@@ -11,6 +11,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from ..physics.balance import System
+from ..physics.candidates import per_line
 from ..physics.layers import CYLINDER, SPHERE
 from ..workbook import library
 from ..workbook.display import show
@@ -103,6 +104,9 @@ def _build_of(total: float, listed: tuple[float, ...], max_layer: float, most: i
     return row
 
 
+COST_PAIRS = 65_536  # (line, candidate) pairs priced together by :func:`installed_cost`
+
+
 def installed_cost(lines, cand, base, st):
     """Installed cost of every candidate (lines × candidates), NaN where a cost is missing.
 
@@ -113,11 +117,15 @@ def installed_cost(lines, cand, base, st):
     n, m, slots = cand.shape
     jacket = float(st["jacket_cost_per_area"])
     labour = float(st["labour_per_layer"])
-    q = quantities(lines, cand, base)
     price = np.array([[L.materials[j].cost_per_volume if j < len(L.materials) else 0.0 for j in range(slots)]
-                      for L in lines])[:, None, :]
-    total = (price * q.volume + labour * q.layer_area).sum(axis=2) + jacket * q.jacket_area
-    total = np.where(np.isfinite(cand[:, :, 0]), total, np.nan)
+                      for L in lines]).reshape(n, 1, slots)
+    total = np.full((n, m), np.nan)
+    step = max(1, COST_PAIRS // max(m, 1))  # lines a block: the take-off's temporaries stay bounded
+    for a in range(0, n, step):  # every line's cost is its own: blocks give the same numbers
+        rows = np.arange(a, min(a + step, n))
+        q = quantities(lines[a:a + step], cand[rows], per_line(base, rows))
+        block = (price[rows] * q.volume + labour * q.layer_area).sum(axis=2) + jacket * q.jacket_area
+        total[rows] = np.where(np.isfinite(cand[rows, :, 0]), block, np.nan)
     return total
 
 

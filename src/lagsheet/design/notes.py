@@ -64,10 +64,10 @@ def _names(L) -> str:
 
 def _unmet(ctx: Context, judged, ch, res, i: int) -> None:
     """No sold system meets every target: one error naming each target missed, worst first."""
-    last, start = ch.last[i], ctx.starts[i]
+    last = ch.last[i]
     missed = sorted((j.target for j in judged.values() if j.given[i] and not j.meets[i, last]),
                     key=lambda x: x.order)
-    thick = show(float(np.nansum(ctx.c.thickness[start, last])), "thickness", ctx.us)
+    thick = show(float(np.nansum(ctx.cand[i, last])), "thickness", ctx.us)
     words, worst_j = [], []
     for target in missed:
         text, j = target.unmet(ctx, judged[target.name], i, last, thick, _names(ctx.lines[i]))

@@ -102,11 +102,14 @@ def _specify(inputs: Inputs) -> Results:
     judged = targets.judge(ctx)
     econ, annualised, cost, hours = _economics(ctx, base)
     ch = _select(ctx, judged, econ, annualised, res)
+    inst = cost[np.arange(n), ch.pick]
+    del annualised, cost  # lines × candidates, read by the choice alone: freed before the rest
     rep = _solve_chosen(ctx, base, ch, res, hours)
     tracing.add_fittings(ctx, rep, res)
-    _values(ctx, ch, rep, res, cost[np.arange(n), ch.pick])
+    _values(ctx, ch, rep, res, inst)
     notes.lines_notes(ctx, judged, ch, rep, res, np.flatnonzero(rep.put))
     sun.notes(ctx, ch, res)
+    ctx.memo.pop("ts", None)  # the surface in every role (cases × candidates each): read by the notes alone
     limits.results(ctx, rep.put, rep.chosen_th, rep.loss, res)
     tracing.tracing(ctx, rep, res)
     for i in range(n):
@@ -192,7 +195,7 @@ def _context(inputs: Inputs, lines: list[Line], table: MaterialTable) -> tuple[C
                      wind=np.array([c.wind for c in case_cond]), absorbed=gain if gain.any() else None)
     cand = _candidates(lines, ok, slots)
     total = cand.sum(axis=2)
-    c = Grid(cases, cand[case_line], base.material[case_line], table)
+    c = Grid(cases, cand, base.material[case_line], table, rows=case_line)
     ctx = Context(lines=lines, ok=ok, t=inputs.lines, settings=inputs.settings, us=inputs.us_units,
                   cases=cases, case_line=case_line, case_cond=case_cond, starts=starts, cand=cand,
                   total=total, table=table, c=c, dew=np.array([_dew(cc) for cc in case_cond]),

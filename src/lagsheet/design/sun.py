@@ -95,7 +95,8 @@ class RoleGrid:
         self.grid = None
         if self.rows.size:
             base = per_line(ctx.cases, self.rows, **{k: np.asarray(v)[self.rows] for k, v in replace.items()})
-            self.grid = Grid(base, ctx.cand[ctx.case_line[self.rows]], ctx.cases.material[self.rows], ctx.table)
+            self.grid = Grid(base, ctx.cand, ctx.cases.material[self.rows], ctx.table,
+                             rows=ctx.case_line[self.rows], keep=("t_surface", "converged"))
 
     def ensure(self, want: np.ndarray) -> int:
         if self.grid is None:

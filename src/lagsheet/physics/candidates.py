@@ -51,22 +51,31 @@ class Grid:
 
     ``base`` gives one system per case (its own layers ignored), ``thickness`` is
     (cases, m, slots), NaN past a case's own candidates, and ``material`` (cases, slots).
-    :meth:`ensure` solves the pairs asked for that are not solved yet; nothing is solved
-    twice. A search asks only for the pairs it reads; a full scan asks for every pair.
+    With ``rows`` (per case, a row of ``thickness``) ``thickness`` is per line (lines × m ×
+    slots), shared by a line's cases and not copied. ``keep`` names the solved fields held
+    (every one by default; a grid read only for its surface keeps ``t_surface`` and
+    ``converged``); :meth:`ensure` solves the pairs asked for that are not solved yet;
+    nothing is solved twice. A search asks only for the pairs it reads; a full scan asks
+    for every pair.
     """
 
-    def __init__(self, base: System, thickness: np.ndarray, material: np.ndarray, table: MaterialTable):
-        n, m, k = thickness.shape
-        self.base, self.thickness, self.material, self.table = base, thickness, np.asarray(material), table
-        self.exists = np.isfinite(thickness).all(axis=2)  # cases × m: a candidate to solve
+    def __init__(self, base: System, thickness: np.ndarray, material: np.ndarray, table: MaterialTable,
+                 rows: np.ndarray | None = None, keep: tuple[str, ...] = _SOLVED):
+        self.rows = np.arange(thickness.shape[0]) if rows is None else np.asarray(rows)
+        n, (_, m, k) = self.rows.size, thickness.shape
+        self.base, self.candidates, self.material, self.table = base, thickness, np.asarray(material), table
+        self.keep = keep
+        self.exists = np.isfinite(thickness).all(axis=2)[self.rows]  # cases × m: a candidate to solve
         self.solved = np.zeros((n, m), dtype=bool)
-        self.q = np.full((n, m), np.nan)
-        self.t_surface = np.full((n, m), np.nan)
-        self.faces = np.full((n, m, k + 1), np.nan)
-        self.heat_rate = np.full((n, m), np.nan)
-        self.r_outer = np.full((n, m), np.nan)
-        self.in_range = np.zeros((n, m), dtype=bool)
-        self.converged = np.zeros((n, m), dtype=bool)
+        for name in keep:
+            if name in ("in_range", "converged"):
+                setattr(self, name, np.zeros((n, m), dtype=bool))
+            else:
+                setattr(self, name, np.full((n, m, k + 1) if name == "faces" else (n, m), np.nan))
+
+    def thickness(self, case, cand) -> np.ndarray:
+        """The layer thicknesses (…, slots) of the pairs (``case``, ``cand``) [m]."""
+        return self.candidates[self.rows[case], cand]
 
     def ensure(self, want: np.ndarray) -> int:
         """Solve the pairs ``want`` (cases × m) not solved yet; returns how many were solved."""
@@ -77,19 +86,20 @@ class Grid:
         return int(case.size)
 
     def _solve(self, case: np.ndarray, cand: np.ndarray) -> None:
-        s = per_line(self.base, case, thickness=self.thickness[case, cand], material=self.material[case])
+        s = per_line(self.base, case, thickness=self.thickness(case, cand), material=self.material[case])
         sol = solve(s, self.table)
-        in_range = np.ones(case.size, dtype=bool)
-        for j in range(s.thickness.shape[1]):  # over layers (a few), never over lines
-            ok = self.table.mean_in_range(s.material[:, j], sol.faces[:, j], sol.faces[:, j + 1])
-            in_range &= ~(s.thickness[:, j] > 0) | ok
-        self.q[case, cand] = sol.q
-        self.t_surface[case, cand] = sol.t_surface
-        self.faces[case, cand] = sol.faces
-        self.heat_rate[case, cand] = heat_rate(s.geometry, sol.q, sol.r_outer)
-        self.r_outer[case, cand] = sol.r_outer
-        self.in_range[case, cand] = in_range
-        self.converged[case, cand] = sol.converged
+        got = {"q": sol.q, "t_surface": sol.t_surface, "faces": sol.faces, "r_outer": sol.r_outer,
+               "converged": sol.converged}
+        if "in_range" in self.keep:
+            in_range = np.ones(case.size, dtype=bool)
+            for j in range(s.thickness.shape[1]):  # over layers (a few), never over lines
+                ok = self.table.mean_in_range(s.material[:, j], sol.faces[:, j], sol.faces[:, j + 1])
+                in_range &= ~(s.thickness[:, j] > 0) | ok
+            got["in_range"] = in_range
+        if "heat_rate" in self.keep:
+            got["heat_rate"] = heat_rate(s.geometry, sol.q, sol.r_outer)
+        for name in self.keep:
+            getattr(self, name)[case, cand] = got[name]
 
 
 def evaluate(base: System, thickness: np.ndarray, material: np.ndarray,
