@@ -454,19 +454,42 @@ class _ReadBack:
     place, means the writer slipped: the file must not be kept."""
 
     def __init__(self, values: Mapping, limit: int = 5):
-        self.by_row: dict[int, list[tuple[int, Any]]] = {}
-        for (r, c), v in values.items():
-            self.by_row.setdefault(r, []).append((c, v))
+        # row -> (columns, what each reads back as), made column by column from a Cells
+        self.by_row: dict[int, tuple[list[int], list[Any]]] = {}
         self.bad: list[str] = []
         self.limit = limit
+        if isinstance(values, Cells):
+            self._from_columns(values)
+            return
+        for (r, c), v in values.items():
+            cols, wants = self.by_row.setdefault(r, ([], []))
+            cols.append(c)
+            wants.append(_shown(v))
+
+    def _from_columns(self, cells: Cells) -> None:
+        groups: dict[int, tuple[Any, list[int], list[list]]] = {}  # columns on the same rows together
+        for b in cells.blocks():
+            g = groups.setdefault(id(b.rows), (b.rows, [], []))
+            g[1].append(b.col)
+            g[2].append([v if type(v) is float and v == v else _shown(v) for v in b.values])
+        for rows, cols, wants in groups.values():
+            for r, row_wants in zip(rows, zip(*wants, strict=True), strict=True):
+                have = self.by_row.get(r)
+                if have is None:
+                    self.by_row[r] = (cols, list(row_wants))
+                else:  # a row in two groups: its own lists
+                    self.by_row[r] = (have[0] + cols, have[1] + list(row_wants))
 
     def row(self, r: int, row: list) -> None:
-        cells = self.by_row.pop(r, None)
-        if cells is None or len(self.bad) >= self.limit:
+        hit = self.by_row.pop(r, None)
+        if hit is None or len(self.bad) >= self.limit:
             return
-        for c, v in cells:
-            want = _shown(v)
-            got = row[c] if c < len(row) else ""
+        cols, wants = hit
+        n = len(row)
+        if [row[c] if c < n else "" for c in cols] == wants:  # the usual row: read back exactly
+            return
+        for c, want in zip(cols, wants, strict=True):
+            got = row[c] if c < n else ""
             if isinstance(want, float):
                 ok = isinstance(got, (int, float)) and not isinstance(got, bool) and (
                     got == want or abs(got - want) <= 1e-9 * max(abs(want), 1.0))
@@ -486,9 +509,9 @@ class _ReadBack:
 
     def finish(self) -> list[str]:
         """The addresses that did not read back (rows the written sheet does not reach included)."""
-        for r, cells in sorted(self.by_row.items()):
-            for c, v in cells:
-                if _shown(v) != "" and len(self.bad) < self.limit:
+        for r, (cols, wants) in sorted(self.by_row.items()):
+            for c, want in zip(cols, wants, strict=True):
+                if want != "" and len(self.bad) < self.limit:
                     self.bad.append(address(r, c))
         self.by_row.clear()
         return self.bad
