@@ -274,6 +274,10 @@ def _content_cases(tmp: Path, put) -> None:
         "sheet 'Lines' has a row number 99999999999, " + outside)
     put("one value at XFE1", _with_sheet(tmp, "at-XFE1.xlsx", _one_cell(sheet, "XFE1").encode()),
         "sheet 'Lines' has a cell reference XFE1, " + outside)
+    assert '<c r="A2"' in sheet
+    put("a cell of row 5 inside row 2", _with_sheet(tmp, "misplaced-cell.xlsx",
+                                                    sheet.replace('<c r="A2"', '<c r="A5"', 1).encode()),
+        "sheet 'Lines' has the cell A5 inside row 2, where no spreadsheet program puts it")
     put("dimension past the sheet", _with_sheet(tmp, "dimension.xlsx", sheet.replace(
         '<dimension ref="A1:N3"/>', '<dimension ref="A1:XFD99999999999"/>').encode()),
         "has a range A1:XFD99999999999, " + outside)
@@ -424,7 +428,8 @@ CASES = [
     "endless prolog",
     # the content scan (sheet limits, counts, encodings, markup in comments)
     "one value at XFD1048576", "one value at ZZ1048576", "one value at A1048576", "one value at E99999999999",
-    "one value at XFE1", "dimension past the sheet", "column range 1:99999999999", "shared strings claim 1e9",
+    "one value at XFE1", "a cell of row 5 inside row 2", "dimension past the sheet", "column range 1:99999999999",
+    "shared strings claim 1e9",
     "shared strings claim 2^32-1", "shared strings claim 2^64-1", "100 parts of 7 MiB",
     "<c openings in a comment of the sheet", "VML in Latin-1", "VML with a DTD", "[Content_Types].xml in Latin-1",
     "UTF-16 sheet", "backslash part names", ".fods named .ods", "ods: a value row repeated to past the sheet end",

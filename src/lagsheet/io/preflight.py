@@ -490,6 +490,8 @@ class _PartScan:
     def _cell_ref(self, r: str) -> int:
         """The column of cell reference ``r`` in the current row (the slow path: checks it whole)."""
         rc = _ref(r)
+        if rc is not None and rc[0] != self.row and 1 <= rc[0] <= SHEET_ROWS and 1 <= rc[1] <= SHEET_COLS:
+            raise _Refuse(f"misplaced {r} {self.row}")  # a cell of another row inside this one
         if rc is None or rc[0] != self.row:
             raise _Refuse(f"bad cell {r}")
         if rc[1] > SHEET_COLS:
@@ -793,6 +795,11 @@ def _refusal(why: str, zf: zipfile.ZipFile, info: zipfile.ZipInfo, ps, name: str
     if ods and getattr(ps, "table_name", None) is not None:
         names[part] = ps.table_name
     sheet = f"sheet {_q(names[part])}" if part in names else where
+    if why.startswith("misplaced "):
+        _, ref, row = why.split(" ")
+        return WorkbookError(f"{name}: {sheet} has the cell {ref} inside row {row}, where no spreadsheet program "
+                             "puts it; the file is damaged or was not written by a spreadsheet program: open it "
+                             "in one and save it again")
     return WorkbookError(f"{name}: {sheet} has {_what(why)}, outside any sheet (the last cell of a "
                          "sheet is XFD1048576); the file is damaged or was not written by a spreadsheet "
                          "program: open it in one and save it again")
