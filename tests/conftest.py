@@ -87,6 +87,24 @@ def cli():
     return run
 
 
+def assert_same_results(got, want) -> None:
+    """Two sizings of the same lines (lagsheet.design.select.Results) agree exactly: status, every note,
+    the chosen systems, every value, each target's thinnest thickness and margin."""
+    import numpy as np
+
+    assert got.status == want.status
+    assert [[n.message for n in ns] for ns in got.notes] == [[n.message for n in ns] for ns in want.notes]
+    np.testing.assert_array_equal(got.chosen, want.chosen)
+    for key, a in want.values.items():
+        b = got.values[key]
+        if a.dtype == object:
+            assert list(b) == list(a), key
+        else:
+            np.testing.assert_array_equal(b, a, err_msg=key)
+    assert got.target_thickness == want.target_thickness
+    assert repr(got.target_margin) == repr(want.target_margin)  # repr: exact, and NaN equals NaN
+
+
 def _register_fuzz_profile() -> None:
     """The hypothesis profile of tests/test_fuzz.py: 500 derandomized examples, LAGSHEET_FUZZ_EXAMPLES for more."""
     import os

@@ -16,6 +16,8 @@ from lagsheet.design.select import specify
 from lagsheet.physics import candidates
 from test_search import _schedule
 
+from conftest import assert_same_results
+
 
 @pytest.fixture(scope="module")
 def both(tmp_path_factory):
@@ -38,14 +40,4 @@ def test_the_schedule_has_economic_lines(both):
 
 def test_small_blocks_give_every_value_of_one_block(both):
     whole, small = both
-    assert small.status == whole.status
-    assert [[n.message for n in ns] for ns in small.notes] == [[n.message for n in ns] for ns in whole.notes]
-    np.testing.assert_array_equal(small.chosen, whole.chosen)
-    for key, a in whole.values.items():
-        b = small.values[key]
-        if a.dtype == object:
-            assert list(b) == list(a), key
-        else:
-            np.testing.assert_array_equal(b, a, err_msg=key)
-    assert small.target_thickness == whole.target_thickness
-    assert repr(small.target_margin) == repr(whole.target_margin)  # repr: exact, and NaN equals NaN
+    assert_same_results(small, whole)

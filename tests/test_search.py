@@ -20,6 +20,8 @@ from lagsheet.io import open_book
 from lagsheet.physics import candidates
 from lagsheet.workbook.inputs import read_inputs
 
+from conftest import assert_same_results
+
 HOT = ("mineral wool", "calcium silicate", "perlite", "cellular glass", "polyisocyanurate")
 COLD = ("elastomeric foam", "cellular glass", "polyisocyanurate")
 FINISHES = ("aluminium", "stainless steel", "galvanised steel", "painted", "none", "pvc", "mastic")
@@ -143,17 +145,7 @@ def test_the_random_schedule_covers_what_the_search_must_get_right(both):
 
 def test_the_search_gives_every_value_of_the_full_scan(both):
     fast, full, _, _ = both
-    assert fast.status == full.status
-    assert [[n.message for n in ns] for ns in fast.notes] == [[n.message for n in ns] for ns in full.notes]
-    np.testing.assert_array_equal(fast.chosen, full.chosen)
-    for key, a in full.values.items():
-        b = fast.values[key]
-        if a.dtype == object:
-            assert list(b) == list(a), key
-        else:
-            np.testing.assert_array_equal(b, a, err_msg=key)
-    assert fast.target_thickness == full.target_thickness
-    assert repr(fast.target_margin) == repr(full.target_margin)  # repr: exact, and NaN equals NaN
+    assert_same_results(fast, full)
 
 
 def test_the_search_solves_far_fewer_candidates(both):
