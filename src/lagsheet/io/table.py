@@ -501,8 +501,8 @@ class _ReadBack:
                     return
 
     def watch(self, rows):
-        """``rows`` passed on unchanged, each compared on its way; stops once nothing is left to compare
-        and the caller has asked for no more."""
+        """``rows`` passed on unchanged, each compared on its way (the caller stops reading when
+        :attr:`by_row` is empty)."""
         for r, row in enumerate(rows):
             self.row(r, row)
             yield row

@@ -128,7 +128,7 @@ def _solve(s: System, table: MaterialTable) -> Solution:
     converged = np.ones(n, dtype=bool)
     if todo.size:
         def residual(xi, idx):
-            idx = idx.astype(np.intp)  # scipy's find_root (the tests put it in) hands over floats
+            idx = np.asarray(idx, dtype=np.intp)  # no copy when it is (scipy's find_root, put in by a test, hands floats)
             q = xi * q0[idx]
             ts = march(table, s.material[idx], g[idx], s.t_operating[idx], q)[:, -1]
             qs, _ = flux(idx, ts)
